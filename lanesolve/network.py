@@ -1,0 +1,124 @@
+"""The validated network: plain data handed from the validator to the model, the checks and the writers.
+
+A :class:`Network` holds one pandas DataFrame per node kind and one for lanes, with the columns listed below and
+nothing else. Missing optional values are already filled with their defaults; "no limit" is ``math.inf``; a hard
+demand has ``unmet_penalty`` NaN. ``row`` is the spreadsheet row the record came from (for messages).
+
+depots     id, supply, handling_cost, latitude, longitude, row
+customers  id, demand, unmet_penalty, latitude, longitude, row
+hubs       id, capacity, handling_cost, latitude, longitude, row
+lanes      origin, destination, mode, cost_per_unit, capacity, fixed_cost, active, row
+
+Every frame uses a default RangeIndex. Ids are unique across the three node frames.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+DEPOT_COLUMNS = ["id", "supply", "handling_cost", "latitude", "longitude", "row"]
+CUSTOMER_COLUMNS = ["id", "demand", "unmet_penalty", "latitude", "longitude", "row"]
+HUB_COLUMNS = ["id", "capacity", "handling_cost", "latitude", "longitude", "row"]
+LANE_COLUMNS = ["origin", "destination", "mode", "cost_per_unit", "capacity", "fixed_cost", "active", "row"]
+
+
+@dataclass
+class Settings:
+    """Values from the Settings sheet, defaults filled in (see :data:`lanesolve.contract.SETTINGS_ROWS`)."""
+
+    unmet_penalty: float | None = None
+    time_limit_s: float = 60.0
+    mip_gap: float = 1e-4
+    units: str = "units"
+    currency: str = ""
+
+
+@dataclass
+class Network:
+    """A validated lane-planning network. See the module docstring for the columns of each frame."""
+
+    depots: pd.DataFrame
+    customers: pd.DataFrame
+    hubs: pd.DataFrame
+    lanes: pd.DataFrame
+    settings: Settings = field(default_factory=Settings)
+    source: str = ""
+
+    @property
+    def active_lanes(self) -> pd.DataFrame:
+        """Lanes that take part in the model (``active`` true)."""
+        return self.lanes[self.lanes["active"]]
+
+    def node_kind(self) -> dict[str, str]:
+        """Map every node id to ``"depot"``, ``"customer"`` or ``"hub"``."""
+        kinds: dict[str, str] = {}
+        for kind, frame in (("depot", self.depots), ("customer", self.customers), ("hub", self.hubs)):
+            kinds.update(dict.fromkeys(frame["id"].tolist(), kind))
+        return kinds
+
+    @property
+    def has_fixed_charges(self) -> bool:
+        """True when any active lane carries a fixed charge (the model then needs yes/no variables)."""
+        return bool((self.active_lanes["fixed_cost"] > 0).any())
+
+
+def make_network(
+    depots: list[dict] | pd.DataFrame,
+    customers: list[dict] | pd.DataFrame,
+    lanes: list[dict] | pd.DataFrame,
+    hubs: list[dict] | pd.DataFrame | None = None,
+    settings: Settings | None = None,
+) -> Network:
+    """Build a :class:`Network` from plain records, filling defaults; meant for tests and the Python API.
+
+    Records use the column names above; omitted optional fields take their defaults and ``row`` is numbered
+    from 2 as in a sheet. No validation beyond that is done: use :func:`lanesolve.validate.validate` for
+    workbook input.
+
+    Examples
+    --------
+    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
+    >>> net.lanes.loc[0, "capacity"]
+    inf
+    """
+    defaults = {
+        "depots": {"handling_cost": 0.0, "latitude": math.nan, "longitude": math.nan},
+        "customers": {"unmet_penalty": math.nan, "latitude": math.nan, "longitude": math.nan},
+        "hubs": {"capacity": math.inf, "handling_cost": 0.0, "latitude": math.nan, "longitude": math.nan},
+        "lanes": {"mode": "", "capacity": math.inf, "fixed_cost": 0.0, "active": True},
+    }
+    columns = {"depots": DEPOT_COLUMNS, "customers": CUSTOMER_COLUMNS, "hubs": HUB_COLUMNS, "lanes": LANE_COLUMNS}
+
+    def frame(name: str, records) -> pd.DataFrame:
+        df = pd.DataFrame(records if records is not None else [], columns=None)
+        for col in columns[name]:
+            if col == "row":
+                if col not in df:
+                    df[col] = range(2, len(df) + 2)
+            elif col not in df:
+                df[col] = defaults[name].get(col, math.nan)
+            elif col in defaults[name]:
+                df[col] = df[col].where(df[col].notna(), defaults[name][col])
+        df = df[columns[name]].reset_index(drop=True)
+        for col in columns[name]:
+            if col in ("id", "origin", "destination", "mode"):
+                df[col] = df[col].astype(str)
+            elif col == "active":
+                df[col] = df[col].astype(bool)
+            elif col == "row":
+                df[col] = df[col].astype(int)
+            else:
+                df[col] = df[col].astype(float)
+        return df
+
+    return Network(
+        depots=frame("depots", depots),
+        customers=frame("customers", customers),
+        hubs=frame("hubs", hubs),
+        lanes=frame("lanes", lanes),
+        settings=settings or Settings(),
+    )

@@ -1,0 +1,153 @@
+"""The whole run in one screen: read -> validate -> check -> model and solve -> write back -> report.
+
+Each stage is a module of its own and hands plain data to the next:
+
+=================  ==========================  ==================================================
+stage              module                      hands on
+=================  ==========================  ==================================================
+read               :mod:`lanesolve.reader`     :class:`~lanesolve.reader.RawWorkbook` (cell values)
+validate           :mod:`lanesolve.validate`   :class:`~lanesolve.network.Network` + warnings
+check              :mod:`lanesolve.checks`     reasons a plan cannot exist (before any solving)
+model and solve    :mod:`lanesolve.solve`      :class:`~lanesolve.result.Result`
+write back         :mod:`lanesolve.writeback`  result sheets in the workbook (atomic replace)
+report             :mod:`lanesolve.report`     ``<stem>-summary.html``
+=================  ==========================  ==================================================
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from . import __version__, checks, reader, report, solve, validate, writeback
+from .errors import NoPlanError, Problem
+from .network import Network
+from .result import Result
+
+
+@dataclass
+class RunInfo:
+    """Facts about one run that the result sheets, the report and ``--json`` show beside the plan."""
+
+    input_path: str
+    output_path: str
+    summary_path: str
+    checksum: str
+    version: str = __version__
+    started: str = field(default_factory=lambda: _dt.datetime.now().astimezone().isoformat(timespec="seconds"))
+
+
+@dataclass
+class RunOutcome:
+    """What :func:`run` returns: the network, the result, the run facts, and the warnings found on reading."""
+
+    network: Network
+    result: Result
+    info: RunInfo
+    warnings: list[Problem]
+
+    def to_json(self) -> dict:
+        doc = self.result.to_json()
+        doc.update(
+            input=self.info.input_path,
+            output=self.info.output_path,
+            summary=self.info.summary_path,
+            input_sha256=self.info.checksum,
+            lanesolve_version=self.info.version,
+            run_at=self.info.started,
+            warnings=[str(w) for w in self.warnings],
+            timings={k: round(v, 4) for k, v in self.result.timings.items()},
+        )
+        return doc
+
+
+def file_checksum(path: str | Path) -> str:
+    """SHA-256 of the file's bytes, hex."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            digest.update(chunk)
+    return digest.hexdigest()
+
+
+def load(path: str | Path) -> tuple[Network, list[Problem]]:
+    """Read and validate a workbook; raise :class:`~lanesolve.errors.WorkbookError` listing every problem."""
+    return validate.validate(reader.read_workbook(path))
+
+
+def summary_path_for(output: str | Path) -> Path:
+    output = Path(output)
+    return output.with_name(f"{output.stem}-summary.html")
+
+
+def run(
+    path: str | Path,
+    output: str | Path | None = None,
+    time_limit: float | None = None,
+    write: bool = True,
+) -> RunOutcome:
+    """Solve a workbook end to end and write the results back.
+
+    Parameters
+    ----------
+    path : path-like
+        The input workbook (.xlsx or .xlsm).
+    output : path-like, optional
+        Write the solved workbook here instead of back into ``path``; ``path`` is then never modified.
+    time_limit : float, optional
+        Seconds the solver may run; overrides the ``time_limit_s`` setting.
+    write : bool
+        When false, nothing is written (the result is only returned).
+
+    Returns
+    -------
+    RunOutcome
+
+    Raises
+    ------
+    WorkbookError
+        The workbook has input errors; nothing is written.
+    NoPlanError
+        No feasible plan exists (the result sheets and summary still say why when ``write`` is true).
+    SolverError
+        The solver failed.
+    WriteError
+        The results could not be written; the original workbook is untouched.
+    """
+    path = Path(path)
+    output = Path(output) if output is not None else path
+    timings: dict[str, float] = {}
+    tick = time.perf_counter()
+
+    raw = reader.read_workbook(path)
+    timings["read"] = time.perf_counter() - tick
+    tick = time.perf_counter()
+
+    network, warnings = validate.validate(raw)
+    timings["validate"] = time.perf_counter() - tick
+    tick = time.perf_counter()
+
+    info = RunInfo(str(path), str(output), str(summary_path_for(output)), file_checksum(path))
+    reasons = checks.presolve_checks(network)
+    if reasons:
+        result = checks.no_plan_result(network, reasons)
+    else:
+        result = solve.solve(network, time_limit=time_limit)
+    timings["solve_total"] = time.perf_counter() - tick
+    result.timings.update(timings)
+    outcome = RunOutcome(network, result, info, warnings)
+
+    if write:
+        tick = time.perf_counter()
+        writeback.write_results(path, output, writeback.result_sheets(network, result, info))
+        result.timings["write"] = time.perf_counter() - tick
+        tick = time.perf_counter()
+        report.write_html(summary_path_for(output), network, result, info, warnings)
+        result.timings["report"] = time.perf_counter() - tick
+
+    if not result.status.has_plan:
+        raise NoPlanError(result.messages or [f"the solver reports {result.status.value}"], outcome)
+    return outcome

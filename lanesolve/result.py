@@ -1,0 +1,119 @@
+"""The plain result of a solve: what the sheet writer, the HTML report and ``--json`` read.
+
+Nothing here refers to the solver; a :class:`Result` can be built by hand in a test.
+"""
+
+from __future__ import annotations
+
+import enum
+import math
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+#: Columns of :attr:`Result.flows` (one row per active lane with flow > 0).
+FLOW_COLUMNS = ["origin", "destination", "mode", "flow", "cost_per_unit", "variable_cost", "fixed_charge",
+                "capacity", "utilisation"]
+#: Columns of :attr:`Result.nodes` (one row per node).
+NODE_COLUMNS = ["node", "kind", "supply", "demand", "shipped", "received", "unmet", "capacity", "throughput",
+                "utilisation"]
+#: Columns of :attr:`Result.unmet` (one row per customer short).
+UNMET_COLUMNS = ["customer", "quantity", "penalty"]
+#: Keys of :attr:`Result.cost_breakdown`, in report order.
+COST_COMPONENTS = ("transport", "handling", "fixed_lane", "unmet_penalty")
+
+
+class SolveStatus(str, enum.Enum):
+    """Outcome of a solve.
+
+    optimal      a plan proven optimal (within ``mip_gap`` for plans with yes/no decisions)
+    feasible     the solver stopped on a limit with a plan in hand; ``mip_gap`` says how far from proven
+    infeasible   no plan satisfies every constraint
+    unbounded    the cost can fall without limit (cannot happen with non-negative costs; reported if it does)
+    not_solved   the solver stopped before it found any plan (time limit, or a failure)
+    """
+
+    OPTIMAL = "optimal"
+    FEASIBLE = "feasible"
+    INFEASIBLE = "infeasible"
+    UNBOUNDED = "unbounded"
+    NOT_SOLVED = "not_solved"
+
+    @property
+    def has_plan(self) -> bool:
+        return self in (SolveStatus.OPTIMAL, SolveStatus.FEASIBLE)
+
+
+def empty_frame(columns: list[str]) -> pd.DataFrame:
+    return pd.DataFrame({c: pd.Series(dtype=object if c in ("origin", "destination", "mode", "node", "kind",
+                                                              "customer") else float) for c in columns})
+
+
+@dataclass
+class Result:
+    """Outcome of solving one network.
+
+    Attributes
+    ----------
+    status : SolveStatus
+    total_cost : float
+        Objective value of the plan (NaN without a plan).
+    cost_breakdown : dict
+        ``transport``, ``handling``, ``fixed_lane``, ``unmet_penalty``; they add up to ``total_cost``.
+    flows : DataFrame
+        :data:`FLOW_COLUMNS`; lanes with flow > 0. ``utilisation`` is flow / capacity (NaN without a limit).
+    nodes : DataFrame
+        :data:`NODE_COLUMNS`; every node.
+    unmet : DataFrame
+        :data:`UNMET_COLUMNS`; customers short of demand.
+    mip_gap : float or None
+        Relative gap between the plan and the best bound (0 for a proven optimum, None for pure LPs).
+    best_bound : float or None
+        Best lower bound on the cost known when the solver stopped.
+    solver : str
+        Solver name and version, e.g. ``"CBC 2.10.3 (PuLP 3.3.2)"``.
+    solve_seconds : float
+        Wall time spent in the solver.
+    messages : list of str
+        Plain-language notes for the planner (pre-solve findings, limits hit).
+    """
+
+    status: SolveStatus
+    total_cost: float = math.nan
+    cost_breakdown: dict[str, float] = field(default_factory=lambda: dict.fromkeys(COST_COMPONENTS, 0.0))
+    flows: pd.DataFrame = field(default_factory=lambda: empty_frame(FLOW_COLUMNS))
+    nodes: pd.DataFrame = field(default_factory=lambda: empty_frame(NODE_COLUMNS))
+    unmet: pd.DataFrame = field(default_factory=lambda: empty_frame(UNMET_COLUMNS))
+    mip_gap: float | None = None
+    best_bound: float | None = None
+    solver: str = ""
+    solve_seconds: float = 0.0
+    messages: list[str] = field(default_factory=list)
+    timings: dict[str, float] = field(default_factory=dict)
+
+    def to_json(self) -> dict:
+        """The ``--json`` document (without run metadata, which the pipeline adds)."""
+
+        def num(x):
+            if x is None:
+                return None
+            x = float(x)
+            return None if math.isnan(x) else (None if math.isinf(x) else x)
+
+        return {
+            "status": self.status.value,
+            "total_cost": num(self.total_cost),
+            "cost_breakdown": {k: num(v) for k, v in self.cost_breakdown.items()},
+            "flows": [
+                {"origin": r.origin, "destination": r.destination, "mode": r.mode, "flow": num(r.flow),
+                 "cost": num(r.variable_cost + r.fixed_charge)}
+                for r in self.flows.itertuples(index=False)
+            ],
+            "unmet": [{"customer": r.customer, "quantity": num(r.quantity)}
+                      for r in self.unmet.itertuples(index=False)],
+            "mip_gap": num(self.mip_gap),
+            "best_bound": num(self.best_bound),
+            "solver": self.solver,
+            "solve_seconds": round(self.solve_seconds, 4),
+            "messages": list(self.messages),
+        }
