@@ -23,9 +23,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import __version__, checks, reader, report, solve, validate, writeback
-from .errors import NoPlanError, Problem
+from .errors import NoPlanError, Problem, SolverError
 from .network import Network
-from .result import Result
+from .result import Result, SolveStatus
 
 
 @dataclass
@@ -148,6 +148,10 @@ def run(
         report.write_html(summary_path_for(output), network, result, info, warnings)
         result.timings["report"] = time.perf_counter() - tick
 
+    if result.status is SolveStatus.NOT_SOLVED:
+        raise SolverError("the solver stopped before it found any plan"
+                          + (f": {'; '.join(result.messages)}" if result.messages else "")
+                          + " (allow more time with --time-limit or the time_limit_s setting)")
     if not result.status.has_plan:
-        raise NoPlanError(result.messages or [f"the solver reports {result.status.value}"], outcome)
+        raise NoPlanError(result.messages or [f"the solver reports the problem {result.status.value}"], outcome)
     return outcome

@@ -1,0 +1,128 @@
+"""Command line interface: a thin shell over :mod:`lanesolve.pipeline`.
+
+Exit codes: 0 a plan was found (or the check passed); 1 the workbook has input errors or could not be written;
+2 usage error (click); 3 no feasible plan; 4 the solver failed.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+
+import click
+
+from . import __version__
+from .errors import LanesolveError, NoPlanError, Problem, WorkbookError
+
+#: At most this many problems are printed; the rest are counted.
+MAX_PRINTED_PROBLEMS = 50
+
+
+def _say(text: str = "", err: bool = True) -> None:
+    click.echo(text, err=err)
+
+
+def _print_problems(problems: list[Problem], label: str) -> None:
+    for problem in problems[:MAX_PRINTED_PROBLEMS]:
+        _say(f"  {label}: {problem}")
+    if len(problems) > MAX_PRINTED_PROBLEMS:
+        _say(f"  ... and {len(problems) - MAX_PRINTED_PROBLEMS} more {label}s")
+
+
+def _fail(error: LanesolveError, as_json: bool) -> None:
+    """Report a library error plainly (never a traceback) and exit with its code."""
+    if isinstance(error, WorkbookError):
+        _say(f"Error: the workbook has {len(error.problems)} problem(s); nothing was written.")
+        _print_problems(error.problems, "error")
+        _print_problems(error.warnings, "warning")
+    elif isinstance(error, NoPlanError):
+        _say("No feasible plan:")
+        for reason in error.reasons:
+            _say(f"  - {reason}")
+    else:
+        _say(f"Error: {error}")
+    if as_json:
+        doc = {"status": {1: "input_error", 3: "infeasible", 4: "solver_error"}.get(error.exit_code, "error"),
+               "error": str(error)}
+        if isinstance(error, WorkbookError):
+            doc["problems"] = [str(p) for p in error.problems]
+        if isinstance(error, NoPlanError) and error.result is not None:
+            doc = {**error.result.to_json(), "reasons": error.reasons}
+        click.echo(json.dumps(doc, indent=2))
+    sys.exit(error.exit_code)
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="lanesolve")
+def main() -> None:
+    """Plan freight lane volumes from a workbook at least total cost."""
+
+
+@main.command()
+@click.argument("path", type=click.Path(dir_okay=False))
+def template(path: str) -> None:
+    """Write a blank workbook to PATH, with every sheet, column and a guide."""
+    from .template import write_template
+
+    try:
+        write_template(path)
+    except LanesolveError as error:
+        _fail(error, False)
+    _say(f"Wrote the blank template {path}", err=False)
+
+
+@main.command()
+@click.argument("workbook", type=click.Path(exists=True, dir_okay=False))
+def check(workbook: str) -> None:
+    """Validate WORKBOOK and list every problem found; solve nothing, write nothing."""
+    from .checks import presolve_checks
+    from .pipeline import load
+
+    try:
+        network, warnings = load(workbook)
+    except LanesolveError as error:
+        _fail(error, False)
+    _print_problems(warnings, "warning")
+    reasons = presolve_checks(network)
+    for reason in reasons:
+        _say(f"  no plan possible: {reason}")
+    _say(f"{workbook}: {len(network.depots)} depots, {len(network.hubs)} hubs, {len(network.customers)} customers, "
+         f"{len(network.lanes)} lanes; no input errors"
+         + (f", {len(warnings)} warning(s)" if warnings else "") + ".", err=False)
+    if reasons:
+        sys.exit(NoPlanError.exit_code)
+
+
+@main.command()
+@click.argument("workbook", type=click.Path(exists=True, dir_okay=False))
+@click.option("-o", "--output", type=click.Path(dir_okay=False),
+              help="Write the solved workbook here instead of back into WORKBOOK.")
+@click.option("--time-limit", type=click.FloatRange(min=0), metavar="S",
+              help="Seconds the solver may run (overrides the time_limit_s setting).")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document on stdout; messages go to stderr.")
+def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool) -> None:
+    """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
+    from .pipeline import run
+
+    try:
+        outcome = run(workbook, output=output, time_limit=time_limit)
+    except LanesolveError as error:
+        _fail(error, as_json)
+    result, settings = outcome.result, outcome.network.settings
+    _print_problems(outcome.warnings, "warning")
+    if as_json:
+        click.echo(json.dumps(outcome.to_json(), indent=2))
+    money = f" {settings.currency}" if settings.currency else ""
+    gap = f", gap {result.mip_gap:.4%}" if result.mip_gap is not None else ""
+    short = result.unmet["quantity"].sum() if len(result.unmet) else 0.0
+    lines = [
+        f"Status: {result.status.value}{gap}",
+        f"Total cost: {result.total_cost:,.2f}{money}",
+        f"Lanes used: {len(result.flows)}; customers short: {len(result.unmet)}"
+        + (f" ({short:,.2f} {settings.units})" if len(result.unmet) else ""),
+        f"Results written to {outcome.info.output_path}; summary {outcome.info.summary_path}",
+    ]
+    for message in result.messages:
+        lines.append(f"Note: {message}")
+    for line in lines:
+        _say(line, err=as_json)
