@@ -22,7 +22,7 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import __version__, checks, reader, report, solve, validate, writeback
+from . import __version__, checks, locking, reader, report, solve, validate, writeback
 from .errors import NoPlanError, Problem, SolverError
 from .network import Network
 from .result import Result, SolveStatus
@@ -115,10 +115,20 @@ def run(
     SolverError
         The solver failed.
     WriteError
-        The results could not be written; the original workbook is untouched.
+        The results could not be written, the workbook is open in a spreadsheet program, or another lanesolve
+        run is writing it; the original workbook is untouched.
     """
     path = Path(path)
     output = Path(output) if output is not None else path
+    if not write:
+        return _run_stages(path, output, time_limit, write)
+    for target in dict.fromkeys([path, output]):
+        locking.refuse_if_open(target)
+    with locking.workbook_lock(output):
+        return _run_stages(path, output, time_limit, write)
+
+
+def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool) -> RunOutcome:
     timings: dict[str, float] = {}
     tick = time.perf_counter()
 
