@@ -1,0 +1,376 @@
+"""Stage "report": the HTML summary a planner can read in a browser or a mail program and forward as is.
+
+The page is one self-contained file: CSS inline in the head, no scripts, no images, no remote resources, so it
+survives being attached to a mail and opened offline. It is rendered from ``templates/summary.html.j2`` (installed
+as the package :mod:`lanesolve.templates`) with autoescaping on, so names from the workbook -- a customer called
+``<script>`` or ``=SUM(A1)`` -- appear as plain text.
+
+This module reads only the plain data handed to it (:class:`~lanesolve.network.Network`,
+:class:`~lanesolve.result.Result`, the run facts and the warnings); it never talks to the solver.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import tempfile
+from importlib import resources
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import jinja2
+
+from .errors import WriteError
+from .result import COST_COMPONENTS, Result, SolveStatus
+
+if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
+    from .network import Network
+    from .pipeline import RunInfo
+
+TEMPLATE_NAME = "summary.html.j2"
+
+#: The caution every summary carries (the same words as the README's caution).
+CAUTION = ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
+           "carrier contracts; local regulations and licensed professionals take precedence.")
+
+#: How many lanes the "lanes used" table lists before it says "and N more"; the result sheets hold them all.
+TOP_LANES = 25
+
+COST_LABELS = {
+    "transport": "Transport",
+    "handling": "Handling at depots and hubs",
+    "fixed_lane": "Fixed lane charges",
+    "unmet_penalty": "Penalties for unmet demand",
+}
+
+STATUS_TEXT = {
+    SolveStatus.OPTIMAL: "Optimal plan",
+    SolveStatus.FEASIBLE: "Plan found, not proven optimal",
+    SolveStatus.INFEASIBLE: "No feasible plan",
+    SolveStatus.UNBOUNDED: "Unbounded (no finite cheapest plan)",
+    SolveStatus.NOT_SOLVED: "Not solved",
+}
+
+
+# --------------------------------------------------------------------------------------------- number formats
+
+
+def _finite(value: object) -> float | None:
+    """``value`` as a float, or None when it is missing, NaN or infinite."""
+    if value is None:
+        return None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return None
+    return number if math.isfinite(number) else None
+
+
+def format_money(value: object, currency: str = "") -> str:
+    """Money with thousands separators and 2 decimals, the currency label after it.
+
+    >>> format_money(1234567.891, "EUR")
+    '1,234,567.89 EUR'
+    >>> format_money(float("nan"))
+    '–'
+    """
+    number = _finite(value)
+    if number is None:
+        return "–"
+    text = f"{number + 0.0:,.2f}"  # + 0.0 turns -0.0 into 0.0 so "-0.00" never shows
+    if text == "-0.00":
+        text = "0.00"
+    return f"{text} {currency}".strip()
+
+
+def format_quantity(value: object, units: str = "") -> str:
+    """A quantity with thousands separators: whole numbers without decimals, others with 2.
+
+    Solver output is off integers by round-off (1e-9 and so on); that is not worth showing to a planner.
+
+    >>> format_quantity(1500.0000000002, "pallets")
+    '1,500 pallets'
+    >>> format_quantity(12.5)
+    '12.50'
+    """
+    number = _finite(value)
+    if number is None:
+        return "–"
+    if abs(number - round(number)) < 1e-6:
+        text = f"{round(number):,d}"
+    else:
+        text = f"{number:,.2f}"
+    if text in ("-0", "-0.00"):
+        text = text[1:]
+    return f"{text} {units}".strip()
+
+
+def format_share(value: object) -> str:
+    """A fraction as a percentage with one decimal; "no limit" when there is no capacity to compare with.
+
+    >>> format_share(0.8766)
+    '87.7 %'
+    """
+    number = _finite(value)
+    return "no limit" if number is None else f"{number * 100:,.1f} %"
+
+
+def _bar(value: object) -> float:
+    """Width in percent (0-100) of a CSS bar for a fraction; over-full values are drawn full."""
+    number = _finite(value)
+    if number is None:
+        return 0.0
+    return round(max(0.0, min(number, 1.0)) * 100, 1)
+
+
+# --------------------------------------------------------------------------------------------- view model
+
+
+def _cost_rows(result: Result, currency: str) -> list[dict]:
+    total = sum(max(_finite(result.cost_breakdown.get(k)) or 0.0, 0.0) for k in COST_COMPONENTS)
+    rows = []
+    for key in COST_COMPONENTS:
+        amount = _finite(result.cost_breakdown.get(key)) or 0.0
+        share = amount / total if total > 0 else 0.0
+        rows.append({"label": COST_LABELS[key], "amount": format_money(amount, currency),
+                     "share": format_share(share), "bar": _bar(share)})
+    return rows
+
+
+def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], int]:
+    flows = result.flows.copy()
+    if flows.empty:
+        return [], 0
+    flows["total_cost"] = flows["variable_cost"].astype(float) + flows["fixed_charge"].astype(float)
+    # Ties broken by names so the page is the same for the same plan.
+    flows = flows.sort_values(["total_cost", "origin", "destination", "mode"],
+                              ascending=[False, True, True, True], kind="stable")
+    rows = []
+    for lane in flows.head(TOP_LANES).itertuples(index=False):
+        rows.append({
+            "origin": str(lane.origin), "destination": str(lane.destination), "mode": str(lane.mode or ""),
+            "flow": format_quantity(lane.flow, units),
+            "cost_per_unit": format_money(lane.cost_per_unit),
+            "variable_cost": format_money(lane.variable_cost),
+            "fixed_charge": format_money(lane.fixed_charge) if (_finite(lane.fixed_charge) or 0) > 0 else "–",
+            "total_cost": format_money(lane.total_cost, currency),
+            "capacity": format_quantity(lane.capacity) if _finite(lane.capacity) is not None else "no limit",
+            "utilisation": format_share(lane.utilisation), "bar": _bar(lane.utilisation),
+            "has_limit": _finite(lane.utilisation) is not None,
+        })
+    return rows, max(len(flows) - TOP_LANES, 0)
+
+
+def _per_unit_penalties(network: Network) -> dict[str, float]:
+    """Per-unit penalty of every customer, the Settings default filled in where the customer's own is blank."""
+    default = _finite(network.settings.unmet_penalty)
+    penalties = {}
+    for row in network.customers.itertuples(index=False):
+        own = _finite(row.unmet_penalty)
+        value = own if own is not None else default
+        if value is not None:
+            penalties[str(row.id)] = value
+    return penalties
+
+
+def _short_rows(network: Network, result: Result, units: str, currency: str) -> list[dict]:
+    demand = {str(r.id): float(r.demand) for r in network.customers.itertuples(index=False)}
+    per_unit = _per_unit_penalties(network)
+    rows = []
+    unmet = result.unmet.sort_values(["quantity", "customer"], ascending=[False, True], kind="stable")
+    for short in unmet.itertuples(index=False):
+        name = str(short.customer)
+        quantity = _finite(short.quantity) or 0.0
+        rate = per_unit.get(name)
+        rows.append({
+            "customer": name,
+            "demand": format_quantity(demand.get(name), units),
+            "quantity": format_quantity(quantity, units),
+            "share": format_share(quantity / demand[name]) if demand.get(name) else "–",
+            "rate": format_money(rate, currency) if rate is not None else "–",
+            "penalty": format_money(quantity * rate, currency) if rate is not None else format_money(
+                short.penalty, currency),
+        })
+    return rows
+
+
+def _node_rows(result: Result, kind: str, units: str) -> list[dict]:
+    nodes = result.nodes
+    if nodes.empty:
+        return []
+    rows = []
+    for node in nodes[nodes["kind"] == kind].itertuples(index=False):
+        shipped = _finite(node.shipped) or 0.0
+        received = _finite(node.received) or 0.0
+        if kind == "depot":
+            limit, used = node.supply, shipped - received  # supply bounds the net outflow (contract)
+        else:
+            limit, used = node.capacity, node.throughput
+        rows.append({
+            "node": str(node.node),
+            "limit": format_quantity(limit, units) if _finite(limit) is not None else "no limit",
+            "used": format_quantity(used, units),
+            "shipped": format_quantity(shipped, units),
+            "received": format_quantity(received, units),
+            "utilisation": format_share(node.utilisation), "bar": _bar(node.utilisation),
+            "has_limit": _finite(node.utilisation) is not None,
+        })
+    return rows
+
+
+def _gap_text(result: Result) -> str:
+    gap = _finite(result.mip_gap)
+    if gap is None:
+        return "not applicable (no yes/no decisions)" if result.status.has_plan else "–"
+    return f"{gap * 100:.4g} %"
+
+
+def build_context(network: Network, result: Result, info: RunInfo, warnings: list) -> dict:
+    """Everything the template shows, already formatted as text (the template only lays it out).
+
+    Parameters
+    ----------
+    network : Network
+        The validated network the plan was made for.
+    result : Result
+        The outcome of the solve (or of the pre-solve checks).
+    info : RunInfo
+        Run facts; ``input_path``, ``started``, ``version`` and ``checksum`` are read.
+    warnings : list
+        :class:`~lanesolve.errors.Problem` objects (or strings) found while reading the workbook.
+
+    Returns
+    -------
+    dict
+        The template context.
+    """
+    units = network.settings.units or ""
+    currency = network.settings.currency or ""
+    total_demand = float(network.customers["demand"].sum()) if not network.customers.empty else 0.0
+    unmet_total = float(result.unmet["quantity"].sum()) if not result.unmet.empty else 0.0
+    has_plan = result.status.has_plan
+    kpis = [("Status", STATUS_TEXT.get(result.status, result.status.value))]
+    if has_plan:
+        kpis += [
+            ("Total cost", format_money(result.total_cost, currency)),
+            ("Units delivered", format_quantity(total_demand - unmet_total, units)),
+            ("Unmet demand", format_quantity(unmet_total, units)),
+            ("Lanes used", f"{len(result.flows):,d}"),
+        ]
+    kpis += [("Solve time", f"{result.solve_seconds:,.2f} s"), ("Optimality gap", _gap_text(result))]
+    lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
+    return {
+        "file_name": Path(info.input_path).name,
+        "run_at": info.started,
+        "version": info.version,
+        "checksum": info.checksum,
+        "solver": result.solver,
+        "status": result.status.value,
+        "status_text": STATUS_TEXT.get(result.status, result.status.value),
+        "has_plan": has_plan,
+        "stopped_early": result.status is SolveStatus.FEASIBLE,
+        "units": units,
+        "currency": currency,
+        "kpis": kpis,
+        "costs": _cost_rows(result, currency) if has_plan else [],
+        "total_cost": format_money(result.total_cost, currency),
+        "lanes": lanes,
+        "more_lanes": more_lanes,
+        "short": _short_rows(network, result, units, currency) if has_plan else [],
+        "depots": _node_rows(result, "depot", units) if has_plan else [],
+        "hubs": _node_rows(result, "hub", units) if has_plan else [],
+        "messages": [str(m) for m in result.messages],
+        "warnings": [str(w) for w in warnings],
+        "caution": CAUTION,
+    }
+
+
+# --------------------------------------------------------------------------------------------- render and write
+
+
+def _environment() -> jinja2.Environment:
+    # files() gives the installed package folder, both for `pip install -e .` (the repo's templates/) and for a
+    # normal install (site-packages/lanesolve/templates); a FileSystemLoader on it reads the .j2 file as is.
+    folder = resources.files("lanesolve.templates")
+    return jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(folder)),
+        autoescape=True,  # on for every template, whatever its extension: workbook names are untrusted text
+        undefined=jinja2.StrictUndefined,  # a misspelt field fails loudly in tests instead of printing nothing
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+
+
+def render_html(network: Network, result: Result, info: RunInfo, warnings: list) -> str:
+    """Render the HTML summary of one run.
+
+    Parameters
+    ----------
+    network : Network
+        The validated network.
+    result : Result
+        The plan, or a no-plan result whose ``messages`` give the reasons.
+    info : RunInfo
+        Run facts (input file, run time stamp, version, checksum).
+    warnings : list of Problem or str
+        Warnings found while reading the workbook; listed in the page.
+
+    Returns
+    -------
+    str
+        A complete, self-contained HTML document (inline CSS, no scripts, no remote resources).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> from lanesolve.network import make_network
+    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
+    >>> info = SimpleNamespace(input_path="plan.xlsx", started="2024-01-01T08:00:00+00:00", version="0",
+    ...                        checksum="0" * 64)
+    >>> page = render_html(net, Result(SolveStatus.INFEASIBLE, messages=["supply short by 5"]), info, [])
+    >>> "supply short by 5" in page and "<script" not in page
+    True
+    """
+    template = _environment().get_template(TEMPLATE_NAME)
+    return template.render(**build_context(network, result, info, warnings))
+
+
+def write_html(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list) -> None:
+    """Write the HTML summary to ``path`` atomically.
+
+    The page is written to a temporary file in the same folder and moved over ``path`` with :func:`os.replace`,
+    so a reader never sees half a file and an earlier summary survives a failed write.
+
+    Parameters
+    ----------
+    path : path-like
+        Where the summary goes (by convention ``<stem>-summary.html`` beside the workbook).
+    network, result, info, warnings
+        As for :func:`render_html`.
+
+    Raises
+    ------
+    WriteError
+        The folder does not exist or the file cannot be written or replaced.
+    """
+    path = Path(path)
+    page = render_html(network, result, info, warnings)
+    tmp_name = None
+    try:
+        with tempfile.NamedTemporaryFile("w", encoding="utf-8", newline="\n", dir=path.parent,
+                                         prefix=f".{path.stem}-", suffix=".tmp", delete=False) as handle:
+            tmp_name = handle.name
+            handle.write(page)
+        os.replace(tmp_name, path)
+    except OSError as exc:
+        if tmp_name is not None:
+            try:
+                os.unlink(tmp_name)
+            except OSError:
+                pass
+        raise WriteError(
+            f"Could not write the HTML summary {path}: {exc.strerror or exc} (check that the folder exists and "
+            f"the file is not open in another program)"
+        ) from exc
