@@ -1,0 +1,186 @@
+"""The blank template workbook, read back with openpyxl and python-calamine (readers outside lanesolve).
+
+Expectations come from lanesolve.contract (the single source of sheets, columns and settings) and from the issue's
+requirements for the template: headers in row 1 in contract order, header comments, number formats, frozen header
+rows, a yes/no drop-down on flag columns, Settings prefilled, a guidance sheet first that names every column.
+"""
+
+from __future__ import annotations
+
+import os
+
+import openpyxl
+import pytest
+import python_calamine
+
+from lanesolve import contract
+from lanesolve.errors import WriteError
+from lanesolve.template import GUIDE_SHEET, write_template
+
+
+@pytest.fixture(scope="module")
+def template_path(tmp_path_factory):
+    path = tmp_path_factory.mktemp("template") / "blank.xlsx"
+    write_template(path)
+    return path
+
+
+@pytest.fixture(scope="module")
+def book(template_path):
+    return openpyxl.load_workbook(template_path)
+
+
+def test_sheets_are_guide_then_contract_order(book):
+    assert book.sheetnames == [GUIDE_SHEET] + [s.name for s in contract.INPUT_SHEETS]
+
+
+def test_every_column_in_contract_order_in_row_one(book):
+    for sheet in contract.INPUT_SHEETS:
+        ws = book[sheet.name]
+        headers = [c.value for c in ws[1]]
+        assert headers == [c.name for c in sheet.columns], sheet.name
+
+
+def test_headers_read_by_calamine(template_path):
+    # A second, independent reader (the one lanesolve's reader builds on) sees the same headers.
+    workbook = python_calamine.CalamineWorkbook.from_path(str(template_path))
+    for sheet in contract.INPUT_SHEETS:
+        rows = workbook.get_sheet_by_name(sheet.name).to_python()
+        assert rows[0] == [c.name for c in sheet.columns], sheet.name
+
+
+def test_header_comments_hold_doc_unit_and_default(book):
+    for sheet in contract.INPUT_SHEETS:
+        ws = book[sheet.name]
+        for index, column in enumerate(sheet.columns, start=1):
+            comment = ws.cell(row=1, column=index).comment
+            assert comment is not None, (sheet.name, column.name)
+            assert column.doc in comment.text
+            assert ("Required." if column.required else "Optional.") in comment.text
+            if column.unit:
+                assert f"Unit: {column.unit}." in comment.text
+            if not column.required:
+                assert "Default:" in comment.text
+
+
+def test_default_shown_in_comment_for_known_defaults(book):
+    lanes = book[contract.LANES.name]
+    names = [c.name for c in contract.LANES.columns]
+    active = lanes.cell(row=1, column=names.index("active") + 1).comment.text
+    assert "Default: yes." in active  # contract: active defaults to True, i.e. "yes"
+    fixed = lanes.cell(row=1, column=names.index("fixed_cost") + 1).comment.text
+    assert "Default: 0." in fixed
+
+
+def test_numeric_columns_carry_number_formats(book):
+    for sheet in contract.INPUT_SHEETS:
+        ws = book[sheet.name]
+        for index, column in enumerate(sheet.columns, start=1):
+            fmt = ws.column_dimensions[openpyxl.utils.get_column_letter(index)].number_format
+            if column.kind == contract.NUMBER:
+                assert fmt != "General", (sheet.name, column.name)
+                if "currency" in column.unit:
+                    assert "0.00" in fmt  # money shows two decimals
+
+
+def test_header_rows_frozen(book):
+    for sheet in contract.INPUT_SHEETS:
+        assert book[sheet.name].freeze_panes == "A2", sheet.name
+
+
+def test_flag_columns_have_yes_no_dropdown(book):
+    for sheet in contract.INPUT_SHEETS:
+        ws = book[sheet.name]
+        for index, column in enumerate(sheet.columns, start=1):
+            if column.kind != contract.FLAG:
+                continue
+            letter = openpyxl.utils.get_column_letter(index)
+            matches = [dv for dv in ws.data_validations.dataValidation if f"{letter}2" in str(dv.sqref)]
+            assert matches, (sheet.name, column.name)
+            assert matches[0].type == "list" and matches[0].formula1 == '"yes,no"'
+            # Every yes/no word offered is one lanesolve accepts.
+            assert {"yes", "no"} <= contract.YES | contract.NO
+
+
+def test_settings_prefilled_with_every_setting_and_default(book):
+    rows = list(book[contract.SETTINGS.name].iter_rows(values_only=True))
+    assert list(rows[0]) == [c.name for c in contract.SETTINGS.columns]
+    assert [r[0] for r in rows[1:]] == [s.name for s in contract.SETTINGS_ROWS]
+    for (name, value), setting in zip(rows[1:], contract.SETTINGS_ROWS):
+        if setting.default in (None, ""):
+            assert value is None, name
+        elif isinstance(setting.default, float):
+            assert value == pytest.approx(setting.default, rel=1e-12), name
+        else:
+            assert value == setting.default, name
+
+
+def test_guide_mentions_every_sheet_column_and_setting(book):
+    ws = book[GUIDE_SHEET]
+    cells = [str(v) for row in ws.iter_rows(values_only=True) for v in row if v is not None]
+    text = "\n".join(cells)
+    for sheet in contract.INPUT_SHEETS:
+        assert f"Sheet {sheet.name}" in text
+        assert sheet.doc in text
+        for column in sheet.columns:
+            assert column.name in cells, (sheet.name, column.name)
+            assert column.doc in cells
+    for setting in contract.SETTINGS_ROWS:
+        assert setting.name in cells
+        assert setting.doc in cells
+    assert "lanesolve solve" in text and "lanesolve check" in text
+    assert "licensed professionals take precedence" in text
+
+
+def test_guide_rows_say_required_unit_and_default(book):
+    rows = [r for r in book[GUIDE_SHEET].iter_rows(values_only=True)]
+    by_doc = {r[5]: r for r in rows if len(r) > 5 and r[5]}
+    supply = by_doc[contract.DEPOTS.column("supply").doc]
+    assert supply[:4] == ("supply", "required", "number", "units")
+    capacity = by_doc[contract.LANES.column("capacity").doc]
+    assert capacity[1] == "optional" and capacity[4] == "none"
+
+
+def test_template_has_no_data_rows(template_path):
+    workbook = python_calamine.CalamineWorkbook.from_path(str(template_path))
+    for sheet in contract.INPUT_SHEETS:
+        if sheet is contract.SETTINGS:
+            continue
+        rows = workbook.get_sheet_by_name(sheet.name).to_python()
+        assert all(all(v in ("", None) for v in row) for row in rows[1:]), sheet.name
+
+
+def test_template_passes_the_reader_and_has_only_the_expected_gap(template_path):
+    # The template has every sheet and column, so the validator's only complaints may be about missing rows.
+    reader = pytest.importorskip("lanesolve.reader")
+    validate = pytest.importorskip("lanesolve.validate")
+    from lanesolve.errors import WorkbookError
+
+    raw = reader.read_workbook(template_path)
+    try:
+        validate.validate(raw)
+    except WorkbookError as exc:
+        for problem in exc.problems:
+            assert problem.row is None or problem.row <= 1, str(problem)
+            text = str(problem).lower()
+            assert "missing" not in text or "column" not in text, str(problem)
+            assert "unknown" not in text, str(problem)
+
+
+def test_write_is_atomic_and_replaces(tmp_path):
+    target = tmp_path / "blank.xlsx"
+    target.write_bytes(b"not a workbook yet")
+    write_template(target)
+    assert openpyxl.load_workbook(target).sheetnames[0] == GUIDE_SHEET
+    assert os.listdir(tmp_path) == ["blank.xlsx"]
+
+
+def test_write_into_missing_folder_raises_write_error(tmp_path):
+    with pytest.raises(WriteError, match="no-such-folder"):
+        write_template(tmp_path / "no-such-folder" / "blank.xlsx")
+
+
+def test_write_needs_xlsx_name(tmp_path):
+    with pytest.raises(WriteError, match=r"\.xlsx"):
+        write_template(tmp_path / "blank.xls")
+    assert os.listdir(tmp_path) == []
