@@ -1,0 +1,334 @@
+"""The optimisation model ("Model v1" of issue 2): a min-cost network flow with optional fixed-charge lanes.
+
+Formulation
+-----------
+Sets
+
+- :math:`D`, :math:`C`, :math:`H`: depots, customers, hubs; :math:`N = D \\cup C \\cup H` (ids are unique across them).
+- :math:`L`: active lanes; lane :math:`l = (i, j)` runs from origin :math:`i` to destination :math:`j` (several
+  lanes may join the same pair, one per mode). :math:`\\delta^+(n)` / :math:`\\delta^-(n)` are the lanes leaving /
+  entering node :math:`n`.
+- :math:`F \\subseteq L`: lanes with a fixed charge :math:`f_l > 0`.
+- :math:`P \\subseteq C`: customers with an unmet penalty (their own, else the Settings default).
+
+Parameters
+
+- :math:`s_d` supply and :math:`h_d` handling cost per unit shipped out of depot :math:`d`;
+- :math:`q_c` demand and :math:`p_c` penalty per unit short of customer :math:`c`;
+- :math:`k_h` capacity (may be :math:`\\infty`) and :math:`g_h` handling cost per unit through hub :math:`h`;
+- :math:`c_l` cost per unit, :math:`u_l` capacity (may be :math:`\\infty`), :math:`f_l` fixed charge of lane :math:`l`.
+
+Variables
+
+- :math:`x_l \\ge 0` flow on lane :math:`l` (``flow_<n>``, :math:`n` the lane's index in ``network.lanes``);
+- :math:`z_c \\in [0, q_c]` units short at customer :math:`c \\in P` (``unmet_<n>``, :math:`n` the customer's index);
+- :math:`y_l \\in \\{0, 1\\}` lane :math:`l \\in F` used (``use_<n>``).
+
+Objective (minimise)
+
+.. math::
+
+    \\underbrace{\\sum_{l} c_l x_l}_{\\text{transport}}
+    + \\underbrace{\\sum_{d} h_d \\sum_{l \\in \\delta^+(d)} x_l + \\sum_{h} g_h \\sum_{l \\in \\delta^-(h)} x_l}_{
+      \\text{handling}}
+    + \\underbrace{\\sum_{l \\in F} f_l y_l}_{\\text{fixed\\_lane}}
+    + \\underbrace{\\sum_{c \\in P} p_c z_c}_{\\text{unmet\\_penalty}}
+
+Constraints (name prefixes in brackets; :math:`n` is the row index in the node's or lane's frame)
+
+- ``supply_<n>``: :math:`\\sum_{\\delta^+(d)} x - \\sum_{\\delta^-(d)} x \\le s_d` for every depot;
+- ``balance_<n>``: :math:`\\sum_{\\delta^-(c)} x - \\sum_{\\delta^+(c)} x + z_c = q_c` for every customer
+  (:math:`z_c` only for :math:`c \\in P`; otherwise the demand is delivered exactly);
+- ``hub_flow_<n>``: :math:`\\sum_{\\delta^-(h)} x - \\sum_{\\delta^+(h)} x = 0` for every hub;
+- ``hub_cap_<n>``: :math:`\\sum_{\\delta^-(h)} x \\le k_h` for every hub with a finite capacity;
+- lane capacity :math:`x_l \\le u_l` is the variable's upper bound (a bound, not a row: cheaper for the solver);
+- ``link_<n>``: :math:`x_l \\le M_l y_l` for every :math:`l \\in F`.
+
+Node names never appear in constraint names because ids may hold any character; the index does.
+
+Big-M derivation
+----------------
+A *canonical* optimal plan exists in which no flow goes round a cycle and no depot ends with a negative net
+outflow (absorbs goods): take any optimal plan and decompose its flow into paths and cycles (flow decomposition,
+Ahuja, Magnanti & Orlin, *Network Flows*, 1993, section 3.5). Removing a cycle, or a path that ends at a depot, lowers
+no bound-respecting quantity below zero, keeps every balance and capacity row satisfied, changes no customer's
+delivery, and cannot raise the cost because every cost and fixed charge is non-negative (a lane whose flow falls to
+zero may drop its charge). So it suffices that :math:`M_l` holds for the canonical plan. There, every unit on lane
+:math:`l` travels on a path from a depot to a customer, hence
+
+(a) :math:`x_l \\le \\min(\\sum_d s_d, \\sum_c q_c)` -- total supply and total demand bound every lane; this is always
+    finite and is the fallback.
+
+Further bounds (each holds for every feasible plan unless marked †, which holds for the canonical plan):
+
+(b) lane capacity :math:`u_l`;
+(c) what origin :math:`i` can send: depot :math:`s_i + \\sum_{\\delta^-(i)} u` (net outflow at most supply, plus what
+    can come in); hub :math:`\\min(k_i, \\sum_{\\delta^-(i)} u)` (outflow = inflow); customer
+    :math:`\\sum_{\\delta^-(i)} u` (it can forward at most what it receives);
+(d) what destination :math:`j` can absorb: customer :math:`q_j + \\sum_{\\delta^+(j)} u`; hub
+    :math:`\\min(k_j, \\sum_{\\delta^+(j)} u)`; depot :math:`\\sum_{\\delta^+(j)} u` † (it does not absorb goods, so it
+    sends on at least what it receives).
+
+:math:`M_l` is the minimum of (a)-(d); infinite terms (no limit) drop out.
+
+Examples
+--------
+>>> from lanesolve.network import make_network
+>>> net = make_network([{"id": "D", "supply": 8}], [{"id": "C", "demand": 5}],
+...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2, "fixed_cost": 10}])
+>>> model = build_model(net)
+>>> model.is_mip, model.big_m
+(True, {0: 5.0})
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+import pulp
+
+from .network import Network
+
+#: Name of the pulp problem (shows in exported LP/MPS files).
+PROBLEM_NAME = "lanesolve"
+
+
+@dataclass
+class LaneModel:
+    """The built model and the handles needed to read a solution back.
+
+    Attributes
+    ----------
+    problem : pulp.LpProblem
+        The problem, objective and constraints included.
+    flow : dict of int to pulp.LpVariable
+        Flow variable per active lane, keyed by the lane's index in ``network.lanes``.
+    unmet : dict of int to pulp.LpVariable
+        Units short per customer with a penalty, keyed by the customer's index in ``network.customers``.
+    use : dict of int to pulp.LpVariable
+        Binary "lane used" per fixed-charge lane, keyed by lane index (empty for a pure LP).
+    big_m : dict of int to float
+        The :math:`M_l` used in ``link_<n>`` per fixed-charge lane (see the module docstring).
+    costs : dict of str to pulp.LpAffineExpression
+        One affine expression per :data:`lanesolve.result.COST_COMPONENTS`; their sum is the objective.
+    penalty : numpy.ndarray
+        Per-unit penalty per customer row (NaN for a hard demand).
+    """
+
+    problem: pulp.LpProblem
+    flow: dict[int, pulp.LpVariable]
+    unmet: dict[int, pulp.LpVariable]
+    use: dict[int, pulp.LpVariable]
+    big_m: dict[int, float]
+    costs: dict[str, pulp.LpAffineExpression]
+    penalty: np.ndarray = field(default_factory=lambda: np.zeros(0))
+
+    @property
+    def is_mip(self) -> bool:
+        """True when the model has yes/no variables (some active lane has a fixed charge)."""
+        return bool(self.use)
+
+
+def customer_penalties(network: Network) -> np.ndarray:
+    """Per-unit unmet penalty per customer row: its own, else the Settings default, else NaN (hard demand).
+
+    Examples
+    --------
+    >>> from lanesolve.network import make_network, Settings
+    >>> net = make_network([], [{"id": "A", "demand": 1, "unmet_penalty": 7}, {"id": "B", "demand": 1}], [],
+    ...                    settings=Settings(unmet_penalty=3))
+    >>> customer_penalties(net).tolist()
+    [7.0, 3.0]
+    """
+    own = network.customers["unmet_penalty"].to_numpy(dtype=float)
+    default = network.settings.unmet_penalty
+    if default is None or (isinstance(default, float) and math.isnan(default)):
+        return own.copy()
+    return np.where(np.isnan(own), float(default), own)
+
+
+def _variable_maker(problem: pulp.LpProblem):
+    """``problem.add_variable`` where PuLP has it (3.x; direct ``LpVariable`` is deprecated there), else the class."""
+    return getattr(problem, "add_variable", pulp.LpVariable)
+
+
+def _group(keys: np.ndarray, values: list) -> dict:
+    """Group ``values`` by ``keys`` into lists, in one pass (used to collect each node's lanes)."""
+    groups: dict = {}
+    for key, value in zip(keys.tolist(), values):
+        groups.setdefault(key, []).append(value)
+    return groups
+
+
+def _sum_by(keys: pd.Series, values: np.ndarray) -> dict:
+    """Sum ``values`` per key; an infinite capacity makes the sum infinite, as it should."""
+    if len(keys) == 0:
+        return {}
+    return pd.Series(values, index=keys.to_numpy()).groupby(level=0).sum().to_dict()
+
+
+def lane_big_m(network: Network) -> dict[int, float]:
+    """The :math:`M_l` of every active fixed-charge lane, keyed by lane index (derivation in the module docstring).
+
+    Parameters
+    ----------
+    network : Network
+
+    Returns
+    -------
+    dict of int to float
+        Finite, non-negative bound per lane with ``fixed_cost > 0``.
+    """
+    lanes = network.active_lanes
+    fixed = lanes[lanes["fixed_cost"] > 0]
+    if fixed.empty:
+        return {}
+    capacity = lanes["capacity"].to_numpy(dtype=float)
+    inbound_cap = _sum_by(lanes["destination"], capacity)
+    outbound_cap = _sum_by(lanes["origin"], capacity)
+    supply = dict(zip(network.depots["id"], network.depots["supply"].astype(float)))
+    demand = dict(zip(network.customers["id"], network.customers["demand"].astype(float)))
+    hub_cap = dict(zip(network.hubs["id"], network.hubs["capacity"].astype(float)))
+    # (a): always finite, so every M below is finite too.
+    fallback = min(float(network.depots["supply"].sum()), float(network.customers["demand"].sum()))
+
+    def can_send(node: str) -> float:
+        into = inbound_cap.get(node, 0.0)
+        if node in supply:
+            return supply[node] + into
+        if node in hub_cap:
+            return min(hub_cap[node], into)
+        return into
+
+    def can_absorb(node: str) -> float:
+        out = outbound_cap.get(node, 0.0)
+        if node in demand:
+            return demand[node] + out
+        if node in hub_cap:
+            return min(hub_cap[node], out)
+        return out  # a depot, canonical plan (†)
+
+    bounds = {}
+    for index, origin, destination, lane_cap in zip(fixed.index.tolist(), fixed["origin"], fixed["destination"],
+                                                     fixed["capacity"].astype(float)):
+        bounds[index] = float(max(0.0, min(fallback, lane_cap, can_send(origin), can_absorb(destination))))
+    return bounds
+
+
+def add_depot_supply(problem: pulp.LpProblem, network: Network, out_terms: dict, in_terms: dict) -> None:
+    """``supply_<n>``: net outflow of each depot at most its supply (depots with no lane need no row)."""
+    for index, node, supply in zip(network.depots.index.tolist(), network.depots["id"], network.depots["supply"]):
+        terms = out_terms.get(node, []) + [(var, -1.0) for var, _ in in_terms.get(node, [])]
+        if terms:
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms), pulp.LpConstraintLE,
+                                                    f"supply_{index}", float(supply)))
+
+
+def add_customer_balance(problem: pulp.LpProblem, network: Network, out_terms: dict, in_terms: dict,
+                         unmet: dict[int, pulp.LpVariable]) -> None:
+    """``balance_<n>``: inflow - outflow + unmet = demand for every customer.
+
+    The row is added even when it has no terms: a hard demand with no lane then makes the model infeasible, as it
+    is (the pre-solve checks normally catch that first).
+    """
+    for index, node, demand in zip(network.customers.index.tolist(), network.customers["id"],
+                                   network.customers["demand"]):
+        terms = in_terms.get(node, []) + [(var, -1.0) for var, _ in out_terms.get(node, [])]
+        if index in unmet:
+            terms.append((unmet[index], 1.0))
+        problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms), pulp.LpConstraintEQ,
+                                                f"balance_{index}", float(demand)))
+
+
+def add_hub_flow(problem: pulp.LpProblem, network: Network, out_terms: dict, in_terms: dict) -> None:
+    """``hub_flow_<n>``: inflow = outflow; ``hub_cap_<n>``: inflow at most the hub's capacity, when finite."""
+    for index, node, capacity in zip(network.hubs.index.tolist(), network.hubs["id"], network.hubs["capacity"]):
+        inflow = in_terms.get(node, [])
+        terms = inflow + [(var, -1.0) for var, _ in out_terms.get(node, [])]
+        if terms:
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms), pulp.LpConstraintEQ,
+                                                    f"hub_flow_{index}", 0.0))
+        if inflow and math.isfinite(capacity):
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(inflow), pulp.LpConstraintLE,
+                                                    f"hub_cap_{index}", float(capacity)))
+
+
+def add_fixed_charge_links(problem: pulp.LpProblem, flow: dict, use: dict, big_m: dict[int, float]) -> None:
+    """``link_<n>``: flow on a fixed-charge lane only when the lane is used, ``x_l <= M_l * y_l``."""
+    for index, use_var in use.items():
+        problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression([(flow[index], 1.0),
+                                                                          (use_var, -big_m[index])]),
+                                                pulp.LpConstraintLE, f"link_{index}", 0.0))
+
+
+def build_model(network: Network) -> LaneModel:
+    """Build the model of the module docstring for ``network``.
+
+    Parameters
+    ----------
+    network : Network
+        A validated network (see :mod:`lanesolve.network`).
+
+    Returns
+    -------
+    LaneModel
+        The problem and its variable handles. A network without fixed charges on active lanes yields no binary
+        variables, so it is solved as a pure LP.
+
+    Notes
+    -----
+    Built for size: lanes are grouped per node in one pass and every row's expression is made in one step from a
+    list of ``(variable, coefficient)`` pairs, never by ``+=`` in a loop, which would be quadratic in pulp.
+    """
+    problem = pulp.LpProblem(PROBLEM_NAME, pulp.LpMinimize)
+    new_variable = _variable_maker(problem)
+    lanes = network.active_lanes
+    lane_index = lanes.index.to_numpy()
+    capacity = lanes["capacity"].to_numpy(dtype=float)
+    flow_vars = [new_variable(f"flow_{i}", lowBound=0, upBound=None if math.isinf(u) else float(u))
+                 for i, u in zip(lane_index.tolist(), capacity.tolist())]
+    flow = dict(zip(lane_index.tolist(), flow_vars))
+
+    origins = lanes["origin"].to_numpy()
+    destinations = lanes["destination"].to_numpy()
+    ones = [(var, 1.0) for var in flow_vars]
+    out_terms = _group(origins, ones)
+    in_terms = _group(destinations, ones)
+
+    penalty = customer_penalties(network)
+    demand = network.customers["demand"].to_numpy(dtype=float)
+    unmet = {index: new_variable(f"unmet_{index}", lowBound=0, upBound=float(demand[pos]))
+             for pos, index in enumerate(network.customers.index.tolist()) if not np.isnan(penalty[pos])}
+
+    big_m = lane_big_m(network)
+    use = {index: new_variable(f"use_{index}", cat=pulp.LpBinary) for index in big_m}
+
+    # Handling cost per lane: the origin depot's per-unit-out cost plus the destination hub's per-unit-through cost.
+    depot_handling = dict(zip(network.depots["id"], network.depots["handling_cost"].astype(float)))
+    hub_handling = dict(zip(network.hubs["id"], network.hubs["handling_cost"].astype(float)))
+    handling = (pd.Series(origins, dtype=object).map(depot_handling).fillna(0.0).to_numpy(dtype=float)
+                + pd.Series(destinations, dtype=object).map(hub_handling).fillna(0.0).to_numpy(dtype=float))
+    unit_cost = lanes["cost_per_unit"].to_numpy(dtype=float)
+    fixed_cost = dict(zip(lane_index.tolist(), lanes["fixed_cost"].astype(float)))
+    penalty_by_index = dict(zip(network.customers.index.tolist(), penalty.tolist()))
+
+    costs = {
+        "transport": pulp.LpAffineExpression(list(zip(flow_vars, unit_cost.tolist()))),
+        "handling": pulp.LpAffineExpression([(v, h) for v, h in zip(flow_vars, handling.tolist()) if h != 0.0]),
+        "fixed_lane": pulp.LpAffineExpression([(var, fixed_cost[i]) for i, var in use.items()]),
+        "unmet_penalty": pulp.LpAffineExpression([(var, penalty_by_index[i]) for i, var in unmet.items()]),
+    }
+    # The objective is built from combined coefficients in one step rather than by adding the four pieces.
+    objective_terms = list(zip(flow_vars, (unit_cost + handling).tolist()))
+    objective_terms += [(var, fixed_cost[i]) for i, var in use.items()]
+    objective_terms += [(var, penalty_by_index[i]) for i, var in unmet.items()]
+    problem.setObjective(pulp.LpAffineExpression(objective_terms))
+
+    add_depot_supply(problem, network, out_terms, in_terms)
+    add_customer_balance(problem, network, out_terms, in_terms, unmet)
+    add_hub_flow(problem, network, out_terms, in_terms)
+    add_fixed_charge_links(problem, flow, use, big_m)
+    return LaneModel(problem, flow, unmet, use, big_m, costs, penalty)

@@ -1,0 +1,318 @@
+"""Solve a network: build the model, run the solver, and turn its answer into a plain :class:`~lanesolve.result.Result`.
+
+Solvers
+-------
+``"cbc"`` (default) runs the CBC program bundled in PuLP's wheel (no system install needed). ``"highs"`` runs HiGHS
+through PuLP and the ``highspy`` package (``pip install "lanesolve[highs]"``).
+
+Status
+------
+PuLP's main status says "Optimal" for a CBC run stopped by the time limit with a plan in hand, so the status here
+is read from PuLP's *solution* status (``prob.sol_status``):
+
+==============================  ==========================================
+PuLP                            :class:`~lanesolve.result.SolveStatus`
+==============================  ==========================================
+``LpSolutionOptimal``           ``optimal`` (within ``mip_gap`` for a MIP)
+``LpSolutionIntegerFeasible``   ``feasible`` (stopped on a limit; a plan with its gap) -- for an LP: ``not_solved``
+``LpStatusInfeasible``          ``infeasible``
+``LpStatusUnbounded``           ``unbounded``
+anything else                   ``not_solved``
+==============================  ==========================================
+
+The best bound of a MIP comes from the solver itself: for CBC the ``Lower bound:`` line of its log (written to a
+temporary file with ``logPath``; a completed search prints none and proves the plan optimal, so the bound is then the
+plan's cost), for HiGHS ``Highs.getInfo().mip_dual_bound``. The gap is
+``(total_cost - best_bound) / max(|total_cost|, 1e-9)``. A pure LP reports ``mip_gap = None`` and its optimal
+objective as the bound.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pulp
+
+from .errors import SolverError
+from .model import LaneModel, build_model
+from .network import Network
+from .result import (COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, Result, SolveStatus,
+                     empty_frame)
+
+#: Values smaller than this in magnitude are solver noise and are reported as 0.
+NOISE = 1e-9
+
+SOLVERS = ("cbc", "highs")
+
+_CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.MULTILINE)
+_CBC_BEST_POSSIBLE = re.compile(r"best possible\s+(\S+?)\)", re.MULTILINE)
+_CBC_VERSION = re.compile(r"^Version:\s*(\S+)", re.MULTILINE)
+
+
+def _clean(values: np.ndarray) -> np.ndarray:
+    """Round float noise: |x| < :data:`NOISE` becomes 0 (and None, for an unset variable, becomes 0)."""
+    values = np.asarray([0.0 if v is None else v for v in values], dtype=float)
+    values[np.abs(values) < NOISE] = 0.0
+    return values
+
+
+def node_balance(network: Network, outflow: dict[str, float], inflow: dict[str, float],
+                 unmet: dict[str, float] | None) -> pd.DataFrame:
+    """The :data:`~lanesolve.result.NODE_COLUMNS` frame: one row per node (depots, customers, hubs in sheet order).
+
+    Parameters
+    ----------
+    network : Network
+    outflow, inflow : dict of str to float
+        Units shipped out of / received by each node id (missing ids count 0).
+    unmet : dict of str to float or None
+        Units short per customer id (missing ids count 0); ``None`` when there is no plan (unmet is then NaN).
+
+    Returns
+    -------
+    DataFrame
+        Depots: supply, shipped, received, utilisation = net outflow / supply. Customers: demand, received, shipped,
+        unmet. Hubs: capacity, throughput (= received), utilisation = throughput / capacity. Fields that do not apply
+        to a kind, and ratios over a zero or unlimited base, are NaN.
+    """
+    nan = math.nan
+    rows = []
+    for node, supply in zip(network.depots["id"], network.depots["supply"]):
+        shipped, received = outflow.get(node, 0.0), inflow.get(node, 0.0)
+        util = (shipped - received) / supply if supply > 0 else nan
+        rows.append((node, "depot", supply, nan, shipped, received, nan, nan, nan, util))
+    for node, demand in zip(network.customers["id"], network.customers["demand"]):
+        short = nan if unmet is None else unmet.get(node, 0.0)
+        rows.append((node, "customer", nan, demand, outflow.get(node, 0.0), inflow.get(node, 0.0), short, nan, nan,
+                     nan))
+    for node, capacity in zip(network.hubs["id"], network.hubs["capacity"]):
+        received = inflow.get(node, 0.0)
+        util = received / capacity if 0 < capacity < math.inf else nan
+        rows.append((node, "hub", nan, nan, outflow.get(node, 0.0), received, nan, capacity, received, util))
+    if not rows:
+        return empty_frame(NODE_COLUMNS)
+    frame = pd.DataFrame(rows, columns=NODE_COLUMNS)
+    for col in NODE_COLUMNS[2:]:
+        frame[col] = frame[col].astype(float)
+    return frame
+
+
+def _make_solver(solver: str, is_mip: bool, time_limit: float | None, gap: float | None, msg: bool,
+                 log_path: Path):
+    """The PuLP solver object for ``solver``, or :class:`SolverError` saying what to install."""
+    if solver == "cbc":
+        cbc = pulp.PULP_CBC_CMD(mip=is_mip, msg=False, timeLimit=time_limit, gapRel=gap if is_mip else None,
+                                logPath=str(log_path))
+        if not cbc.available():
+            raise SolverError(f"the CBC program bundled with PuLP was not found or cannot run at {cbc.path} "
+                              "(reinstall PuLP: pip install --force-reinstall pulp)")
+        return cbc
+    if solver == "highs":
+        try:
+            import highspy  # noqa: F401  (only to learn whether the extra is installed)
+        except ImportError as exc:
+            raise SolverError('solver "highs" needs the highspy package (install it with: '
+                              'pip install "lanesolve[highs]")') from exc
+        highs = pulp.HiGHS(mip=is_mip, msg=msg, timeLimit=time_limit, gapRel=gap if is_mip else None)
+        if not highs.available():
+            raise SolverError('PuLP cannot use HiGHS here although highspy imports (try: pip install -U pulp highspy)')
+        return highs
+    raise SolverError(f"unknown solver {solver!r} (choose one of: {', '.join(SOLVERS)})")
+
+
+def _solver_name(solver: str, log_text: str) -> str:
+    if solver == "cbc":
+        found = _CBC_VERSION.search(log_text)
+        return f"CBC {found.group(1) if found else '(version unknown)'} (PuLP {pulp.__version__})"
+    import highspy
+
+    version = highspy.Highs().version() if hasattr(highspy.Highs, "version") else "(version unknown)"
+    return f"HiGHS {version} (PuLP {pulp.__version__})"
+
+
+def _best_bound(solver: str, problem: pulp.LpProblem, log_text: str, total_cost: float) -> float | None:
+    """The solver's best lower bound on the cost when it stopped, or None when it does not say.
+
+    CBC prints ``Lower bound:`` when it stops early or on the gap tolerance; when it completes the search it prints
+    no bound because the plan is then proven optimal, so the bound is the plan's cost. Failing both, the last
+    ``best possible`` of its progress lines is a valid (possibly stale) bound.
+    """
+    if solver == "cbc":
+        found = _CBC_BOUND.findall(log_text)
+        if found:
+            return float(found[-1])
+        if "Search completed" in log_text and "Exiting as integer gap" not in log_text:
+            return total_cost
+        found = _CBC_BEST_POSSIBLE.findall(log_text)
+        return float(found[-1]) if found else None
+    bound = problem.solverModel.getInfo().mip_dual_bound
+    return float(bound) if math.isfinite(bound) else None
+
+
+def _status(problem: pulp.LpProblem, is_mip: bool) -> SolveStatus:
+    """Map PuLP's (status, solution status) to :class:`SolveStatus`; see the module docstring."""
+    if problem.sol_status == pulp.LpSolutionOptimal:
+        return SolveStatus.OPTIMAL
+    if problem.sol_status == pulp.LpSolutionIntegerFeasible:
+        # A stopped simplex run is not known to hold a feasible point, so an LP is only trusted when optimal.
+        return SolveStatus.FEASIBLE if is_mip else SolveStatus.NOT_SOLVED
+    if problem.status == pulp.LpStatusInfeasible or problem.sol_status == pulp.LpSolutionInfeasible:
+        return SolveStatus.INFEASIBLE
+    if problem.status == pulp.LpStatusUnbounded or problem.sol_status == pulp.LpSolutionUnbounded:
+        return SolveStatus.UNBOUNDED
+    return SolveStatus.NOT_SOLVED
+
+
+def _plan(network: Network, model: LaneModel, result: Result) -> None:
+    """Fill ``result`` with the flows, node balance, unmet demand and cost breakdown of the solved ``model``."""
+    lanes = network.lanes.loc[list(model.flow)]
+    flow = _clean([var.varValue for var in model.flow.values()])
+    # The charge follows the contract ("charged once if the lane carries any flow"): a solver may leave a use
+    # variable at 1 on an empty lane in a stopped run; switching it off keeps the plan feasible and is cheaper.
+    carries = dict(zip(model.flow, flow > 0))
+    for index, use_var in model.use.items():
+        use_var.varValue = 1.0 if carries[index] else 0.0
+    for var, value in zip(model.flow.values(), flow):
+        var.varValue = float(value)
+    unmet_values = _clean([var.varValue for var in model.unmet.values()])
+    for var, value in zip(model.unmet.values(), unmet_values):
+        var.varValue = float(value)
+
+    breakdown = {name: float(model.costs[name].value() or 0.0) for name in COST_COMPONENTS}
+    for name, value in breakdown.items():
+        breakdown[name] = 0.0 if abs(value) < NOISE else value
+    result.cost_breakdown = breakdown
+    result.total_cost = float(sum(breakdown.values()))
+
+    used = flow > 0
+    frame = lanes.loc[used, ["origin", "destination", "mode", "cost_per_unit", "capacity", "fixed_cost"]].copy()
+    frame["flow"] = flow[used]
+    frame["variable_cost"] = frame["flow"] * frame["cost_per_unit"]
+    frame["fixed_charge"] = frame["fixed_cost"]
+    capacity = frame["capacity"].to_numpy(dtype=float)
+    frame["utilisation"] = np.where(np.isfinite(capacity) & (capacity > 0), frame["flow"] / np.where(
+        capacity > 0, capacity, 1.0), math.nan)
+    result.flows = frame[FLOW_COLUMNS].reset_index(drop=True) if len(frame) else empty_frame(FLOW_COLUMNS)
+
+    outflow = pd.Series(flow, index=lanes["origin"].to_numpy()).groupby(level=0).sum().to_dict() if len(flow) else {}
+    inflow = (pd.Series(flow, index=lanes["destination"].to_numpy()).groupby(level=0).sum().to_dict()
+              if len(flow) else {})
+    customers = network.customers
+    short = dict(zip(customers.loc[list(model.unmet), "id"], unmet_values))
+    result.nodes = node_balance(network, outflow, inflow, short)
+
+    rows = [(customers.at[i, "id"], q, q * model.penalty[customers.index.get_loc(i)])
+            for i, q in zip(model.unmet, unmet_values) if q > 0]
+    result.unmet = (pd.DataFrame(rows, columns=UNMET_COLUMNS) if rows else empty_frame(UNMET_COLUMNS))
+
+
+def solve(network: Network, time_limit: float | None = None, solver: str = "cbc", msg: bool = False) -> Result:
+    """Build and solve the model of :mod:`lanesolve.model` for ``network``.
+
+    Parameters
+    ----------
+    network : Network
+        A validated network.
+    time_limit : float, optional
+        Seconds the solver may run; overrides ``network.settings.time_limit_s``. A value of 0 or less, or None
+        with a setting of 0, means no limit.
+    solver : {"cbc", "highs"}
+        ``"cbc"``: the CBC binary in PuLP's wheel. ``"highs"``: HiGHS through ``highspy`` (optional extra).
+    msg : bool
+        Echo the solver's log to stderr.
+
+    Returns
+    -------
+    Result
+        Status per the module docstring. With a plan: flows (lanes with flow > 1e-9), nodes, unmet, a cost
+        breakdown adding up to ``total_cost``, ``mip_gap`` and ``best_bound`` (None for a pure LP's gap). Without
+        a plan: the status, a message, and the node frame with zero flows.
+
+    Raises
+    ------
+    SolverError
+        Unknown solver name, solver missing (with how to install it), the solver crashed, or its answer could not
+        be read.
+
+    Examples
+    --------
+    >>> from lanesolve.network import make_network
+    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 4}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2.5}])
+    >>> result = solve(net)
+    >>> result.status.value, round(result.total_cost, 6), result.mip_gap
+    ('optimal', 10.0, None)
+    """
+    settings = network.settings
+    limit = time_limit if time_limit is not None else settings.time_limit_s
+    limit = float(limit) if limit is not None and limit > 0 else None
+    gap = float(settings.mip_gap) if settings.mip_gap is not None else None
+
+    tick = time.perf_counter()
+    model = build_model(network)
+    build_seconds = time.perf_counter() - tick
+
+    with tempfile.TemporaryDirectory(prefix="lanesolve-") as tmp:
+        log_path = Path(tmp) / "solver.log"
+        backend = _make_solver(solver, model.is_mip, limit, gap, msg, log_path)
+        tick = time.perf_counter()
+        try:
+            model.problem.solve(backend)
+        except pulp.PulpSolverError as exc:
+            raise SolverError(f"the {solver.upper()} solver failed: {exc} (rerun with the solver log shown to see "
+                              "why; a damaged PuLP install is fixed by: pip install --force-reinstall pulp)") from exc
+        except (OSError, ValueError, IndexError) as exc:
+            # Raised by PuLP while starting the solver or reading a truncated solution file.
+            raise SolverError(f"the {solver.upper()} solver's answer could not be read: {exc}") from exc
+        seconds = time.perf_counter() - tick
+        log_text = log_path.read_text(errors="replace") if log_path.exists() else ""
+    if msg and log_text:
+        sys.stderr.write(log_text)
+
+    status = _status(model.problem, model.is_mip)
+    result = Result(status=status, solver=_solver_name(solver, log_text), solve_seconds=seconds)
+    result.timings["build_model"] = build_seconds
+    result.timings["solver"] = seconds
+
+    if not status.has_plan:
+        result.cost_breakdown = dict.fromkeys(COST_COMPONENTS, math.nan)
+        result.nodes = node_balance(network, {}, {}, None)
+        result.messages.append(_no_plan_message(status, limit, model.is_mip))
+        return result
+
+    _plan(network, model, result)
+    if model.is_mip:
+        bound = _best_bound(solver, model.problem, log_text, result.total_cost)
+        if bound is None:
+            result.messages.append("The solver did not report a lower bound, so the gap to the optimum is unknown.")
+        else:
+            bound = min(bound, result.total_cost)  # the bound is printed rounded; it can never exceed the plan
+            result.best_bound = bound
+            result.mip_gap = max(0.0, (result.total_cost - bound) / max(abs(result.total_cost), 1e-9))
+        if status is SolveStatus.FEASIBLE:
+            gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
+            result.messages.append(f"The solver stopped on its time limit ({limit:g} s) before proving the plan "
+                                   f"optimal; the plan may cost up to {gap_text} more than the best possible "
+                                   "(raise time_limit_s or mip_gap in Settings).")
+    else:
+        result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
+    return result
+
+
+def _no_plan_message(status: SolveStatus, limit: float | None, is_mip: bool) -> str:
+    if status is SolveStatus.INFEASIBLE:
+        return ("No plan meets every demand within the supplies and capacities (raise supply or capacity, add "
+                "lanes, or give customers an unmet_penalty to allow a shortfall).")
+    if status is SolveStatus.UNBOUNDED:
+        return "The solver reports the cost can fall without limit; check the lane costs for negative values."
+    if limit is not None:
+        return (f"The solver stopped on its time limit ({limit:g} s) before it found any plan "
+                "(raise time_limit_s in Settings or use --time-limit).")
+    return "The solver stopped without a plan."
