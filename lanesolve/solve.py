@@ -34,6 +34,7 @@ import re
 import sys
 import tempfile
 import time
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -108,8 +109,12 @@ def _make_solver(solver: str, is_mip: bool, time_limit: float | None, gap: float
                  log_path: Path):
     """The PuLP solver object for ``solver``, or :class:`SolverError` saying what to install."""
     if solver == "cbc":
-        cbc = pulp.PULP_CBC_CMD(mip=is_mip, msg=False, timeLimit=time_limit, gapRel=gap if is_mip else None,
-                                logPath=str(log_path))
+        with warnings.catch_warnings():
+            # PuLP 3 flags PULP_CBC_CMD for removal in 4.0, yet it is the class that runs the CBC in PuLP's wheel,
+            # which issue 2 requires (no system CBC); the warning would only alarm planners.
+            warnings.simplefilter("ignore", DeprecationWarning)
+            cbc = pulp.PULP_CBC_CMD(mip=is_mip, msg=False, timeLimit=time_limit, gapRel=gap if is_mip else None,
+                                    logPath=str(log_path))
         if not cbc.available():
             raise SolverError(f"the CBC program bundled with PuLP was not found or cannot run at {cbc.path} "
                               "(reinstall PuLP: pip install --force-reinstall pulp)")

@@ -1,0 +1,136 @@
+"""Cheap pre-solve checks: reasons no plan can exist, found before any model is built.
+
+Every check here is *certain*: when it fires, the model is infeasible (it never guesses). Only hard demand counts
+(customers without an unmet penalty, their own or the Settings default), since a penalty lets a customer go short.
+
+1. Total supply short of total hard demand. Summing every node's balance row, what all customers keep
+   (inflow - outflow) equals the depots' net outflow, at most the total supply; customers that must be served
+   keep their full demand.
+2. A customer with hard demand and no active inbound lane.
+3. A customer whose hard demand exceeds the total capacity of its active inbound lanes (it keeps at most what
+   comes in).
+4. A customer with hard demand that no depot with supply can reach along active lanes of non-zero capacity (and
+   through no hub of zero capacity).
+
+Examples
+--------
+>>> from lanesolve.network import make_network
+>>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 8}],
+...                    [{"origin": "D", "destination": "C", "cost_per_unit": 1}])
+>>> presolve_checks(net)  # doctest: +NORMALIZE_WHITESPACE
+['Total depot supply is 5 units but customers without an unmet penalty need 8 units: 3 units short (raise
+  supply on the Depots sheet, or give customers an unmet_penalty to allow a shortfall).']
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+
+import numpy as np
+
+from .model import customer_penalties
+from .network import Network
+from .result import COST_COMPONENTS, Result, SolveStatus
+from .solve import node_balance
+
+
+def _num(value: float) -> str:
+    """A quantity as a planner writes it: 1200, 12.5 (no trailing zeros)."""
+    return f"{value:,.6g}" if abs(value) >= 1e6 else f"{value:.6g}"
+
+
+def presolve_checks(network: Network) -> list[str]:
+    """Reasons, in plain sentences, why no plan can exist; empty when none is found.
+
+    Parameters
+    ----------
+    network : Network
+        A validated network.
+
+    Returns
+    -------
+    list of str
+        One sentence per finding, naming the ids, sheet rows and numbers, with a hint. An empty list does not
+        prove a plan exists (the solver decides that); a non-empty one proves none does.
+    """
+    units = network.settings.units or "units"
+    reasons: list[str] = []
+    customers = network.customers
+    lanes = network.active_lanes
+    hard = np.isnan(customer_penalties(network)) & (customers["demand"].to_numpy(dtype=float) > 0)
+
+    total_supply = float(network.depots["supply"].sum())
+    hard_demand = float(customers.loc[hard, "demand"].sum())
+    if total_supply < hard_demand:
+        reasons.append(
+            f"Total depot supply is {_num(total_supply)} {units} but customers without an unmet penalty need "
+            f"{_num(hard_demand)} {units}: {_num(hard_demand - total_supply)} {units} short (raise supply on the "
+            "Depots sheet, or give customers an unmet_penalty to allow a shortfall).")
+
+    inbound_capacity = lanes.groupby("destination")["capacity"].sum().to_dict()
+    reachable = _reachable_from_supply(network)
+    for node, demand, row in zip(customers.loc[hard, "id"], customers.loc[hard, "demand"],
+                                 customers.loc[hard, "row"]):
+        where = f"Customers row {row}: customer '{node}'"
+        if node not in inbound_capacity:
+            reasons.append(f"{where} needs {_num(demand)} {units} but no active lane ends there (add a lane with "
+                           f"destination '{node}', set active to yes on one, or give it an unmet_penalty).")
+        elif inbound_capacity[node] < demand:
+            reasons.append(f"{where} needs {_num(demand)} {units} but its active inbound lanes can carry only "
+                           f"{_num(inbound_capacity[node])} {units} in total (raise their capacity, add a lane, or "
+                           "give it an unmet_penalty).")
+        elif node not in reachable:
+            reasons.append(f"{where} needs {_num(demand)} {units} but no depot with supply can reach it along "
+                           "active lanes with capacity (check the lanes leading to it and the hubs on the way).")
+    return reasons
+
+
+def _reachable_from_supply(network: Network) -> set[str]:
+    """Node ids reachable from a depot with supply > 0 along active lanes of non-zero capacity.
+
+    A hub of zero capacity passes nothing on, so the search does not continue through it.
+    """
+    lanes = network.active_lanes
+    lanes = lanes[lanes["capacity"] > 0]
+    successors: dict[str, list[str]] = {}
+    for origin, destination in zip(lanes["origin"].tolist(), lanes["destination"].tolist()):
+        successors.setdefault(origin, []).append(destination)
+    blocked = set(network.hubs.loc[network.hubs["capacity"] <= 0, "id"])
+    start = network.depots.loc[network.depots["supply"] > 0, "id"].tolist()
+    seen = set(start)
+    queue = deque(start)
+    while queue:
+        node = queue.popleft()
+        if node in blocked:
+            continue
+        for nxt in successors.get(node, ()):
+            if nxt not in seen:
+                seen.add(nxt)
+                queue.append(nxt)
+    return seen
+
+
+def no_plan_result(network: Network, reasons: list[str]) -> Result:
+    """The :class:`~lanesolve.result.Result` for a network the pre-solve checks rule out.
+
+    Parameters
+    ----------
+    network : Network
+    reasons : list of str
+        What :func:`presolve_checks` found.
+
+    Returns
+    -------
+    Result
+        Status ``infeasible``, ``messages`` = ``reasons``, total and breakdown NaN (there is no plan), no flows, and
+        the node frame with every node at zero flow (unmet NaN, as no plan says what would go short).
+    """
+    return Result(
+        status=SolveStatus.INFEASIBLE,
+        total_cost=math.nan,
+        cost_breakdown=dict.fromkeys(COST_COMPONENTS, math.nan),
+        nodes=node_balance(network, {}, {}, None),
+        solver="none (pre-solve checks)",
+        messages=list(reasons),
+    )
