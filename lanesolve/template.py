@@ -163,7 +163,7 @@ def _fill_settings(book: Workbook) -> None:
 
 def _guide_row(ws, row: int, values: list, font: Font | None = None) -> None:
     for index, value in enumerate(values, start=1):
-        cell = ws.cell(row=row, column=index, value=value)
+        cell = ws.cell(row=row, column=index, value=value if value != "" else None)  # no empty-text cells
         cell.alignment = _WRAP
         if font is not None:
             cell.font = font
