@@ -1,0 +1,525 @@
+"""Write-back: result sheets added at the zip level, every other part of the workbook kept byte for byte.
+
+The references outside lanesolve are the readers that must accept the file: openpyxl, pandas with the calamine
+engine, Python's XML parser (well-formedness), zipfile (member bytes) and, when installed, LibreOffice (a real
+spreadsheet program converting a result sheet to CSV). Hand-made Network/Result objects: no solver involved.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import shutil
+import stat
+import subprocess
+import sys
+import xml.etree.ElementTree as ET
+import zipfile
+from pathlib import Path
+from types import SimpleNamespace
+
+import openpyxl
+import pandas as pd
+import pytest
+
+sys.path.insert(0, str(Path(__file__).parent))
+import _workbooks as wbk  # noqa: E402
+
+from lanesolve import writeback  # noqa: E402
+from lanesolve.contract import RESULT_PREFIX  # noqa: E402
+from lanesolve.errors import LanesolveError, WriteError  # noqa: E402
+from lanesolve.network import Settings, make_network  # noqa: E402
+from lanesolve.result import COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, Result, SolveStatus  # noqa: E402
+from lanesolve.writeback import CAUTION, ResultSheet, result_sheets, write_results  # noqa: E402
+
+try:  # the run facts; pipeline imports every stage, so fall back to the same fields while a stage is missing
+    from lanesolve.pipeline import RunInfo
+except ImportError:  # pragma: no cover - depends on the state of the other stages
+    def RunInfo(input_path, output_path, summary_path, checksum, version="0.1.0", started="2024-05-01T10:00:00+02:00"):
+        return SimpleNamespace(input_path=input_path, output_path=output_path, summary_path=summary_path,
+                               checksum=checksum, version=version, started=started)
+
+FORMULA_NAME = "=SUM(A1)"
+NEW_NAMES = ["LS Summary", "LS Lane flows", "LS Nodes"]
+
+
+# ------------------------------------------------------------------------------------------------ fixtures
+
+def small_plan():
+    """An invented two-depot network and a plan for it (numbers chosen by hand so every column has a value)."""
+    network = make_network(
+        depots=[{"id": "Northgate Yard", "supply": 120}, {"id": FORMULA_NAME, "supply": 40}],
+        customers=[{"id": "Alder Foods", "demand": 60}, {"id": "Birch & Co <south>", "demand": 90,
+                                                          "unmet_penalty": 25}],
+        lanes=[
+            {"origin": "Northgate Yard", "destination": "Alder Foods", "cost_per_unit": 4.25, "mode": "road",
+             "capacity": 100},
+            {"origin": FORMULA_NAME, "destination": "Birch & Co <south>", "cost_per_unit": 3.1, "fixed_cost": 50},
+            {"origin": "Northgate Yard", "destination": "Birch & Co <south>", "cost_per_unit": 5.0},
+            {"origin": "Northgate Yard", "destination": "Alder Foods", "cost_per_unit": 1.0, "mode": "rail",
+             "active": False},
+        ],
+        settings=Settings(units="pallets", currency="EUR"),
+    )
+    flows = pd.DataFrame(
+        [["Northgate Yard", "Alder Foods", "road", 60.0, 4.25, 255.0, 0.0, 100.0, 0.6],
+         [FORMULA_NAME, "Birch & Co <south>", "", 40.0, 3.1, 124.0, 50.0, math.inf, math.nan],
+         ["Northgate Yard", "Birch & Co <south>", "", 40.123456789, 5.0, 200.61728394, 0.0, math.inf, math.nan]],
+        columns=FLOW_COLUMNS)
+    nodes = pd.DataFrame(
+        [["Northgate Yard", "depot", 120.0, math.nan, 100.123456789, 0.0, math.nan, 120.0, 100.123456789,
+          0.834362],
+         [FORMULA_NAME, "depot", 40.0, math.nan, 40.0, 0.0, math.nan, 40.0, 40.0, 1.0],
+         ["Alder Foods", "customer", math.nan, 60.0, 0.0, 60.0, 0.0, math.nan, math.nan, math.nan],
+         ["Birch & Co <south>", "customer", math.nan, 90.0, 0.0, 80.123456789, 9.876543211, math.nan, math.nan,
+          math.nan]],
+        columns=NODE_COLUMNS)
+    unmet = pd.DataFrame([["Birch & Co <south>", 9.876543211, 246.91358]], columns=["customer", "quantity", "penalty"])
+    breakdown = {"transport": 579.61728394, "handling": 0.0, "fixed_lane": 50.0, "unmet_penalty": 246.91358}
+    result = Result(SolveStatus.OPTIMAL, total_cost=sum(breakdown.values()), cost_breakdown=breakdown, flows=flows,
+                    nodes=nodes, unmet=unmet, mip_gap=0.0, best_bound=876.53086394, solver="CBC (test double)",
+                    solve_seconds=0.0123456, messages=["Birch & Co <south> is 9.9 pallets short"])
+    info = RunInfo("/data/network.xlsx", "/data/network.xlsx", "/data/network-summary.html", "ab" * 32)
+    return network, result, info
+
+
+@pytest.fixture
+def plan_sheets():
+    return result_sheets(*small_plan())
+
+
+@pytest.fixture
+def rich(tmp_path):
+    return wbk.rich_workbook(tmp_path / "network.xlsx", extra_sheets=("LS-notes", "ls notes", "LSD stock",
+                                                                      "Notes LS "))
+
+
+def input_values(path: Path, names=("Depots", "Customers", "Lanes", "Settings")) -> dict:
+    wb = openpyxl.load_workbook(path)
+    return {name: [list(r) for r in wb[name].iter_rows(values_only=True)] for name in names}
+
+
+def sheet_part(path: Path, sheet_name: str) -> str:
+    """The worksheet XML of a sheet, found through workbook.xml and its relationships."""
+    with zipfile.ZipFile(path) as z:
+        workbook = z.read("xl/workbook.xml").decode()
+        rels = z.read("xl/_rels/workbook.xml.rels").decode()
+    # Python's XML parser as an independent reader of the index parts.
+    sheet = next(e for e in ET.fromstring(workbook).iter(f"{{{wbk.MAIN_NS}}}sheet") if e.get("name") == sheet_name)
+    rel_id = next(v for k, v in sheet.attrib.items() if k.endswith("}id"))
+    target = next(e.get("Target") for e in ET.fromstring(rels) if e.get("Id") == rel_id)
+    with zipfile.ZipFile(path) as z:
+        return z.read("xl/" + target if not target.startswith("/") else target[1:]).decode()
+
+
+# ------------------------------------------------------------------------------------------------ the sheets
+
+def test_result_sheets_have_prefixed_short_names(plan_sheets):
+    assert [s.name for s in plan_sheets] == NEW_NAMES
+    for sheet in plan_sheets:
+        assert sheet.name.startswith(RESULT_PREFIX) and len(sheet.name) <= 31
+        assert len(set(sheet.columns)) == len(sheet.columns)
+        assert set(sheet.kinds) <= set(sheet.columns)
+
+
+def test_summary_lists_run_facts_costs_messages_and_caution(plan_sheets):
+    network, result, info = small_plan()
+    items = {row[0]: row[1] for row in plan_sheets[0].rows}
+    assert items["status"] == "optimal"
+    assert items["total cost"] == pytest.approx(876.53, abs=0.005)
+    # one row per cost component, in words, adding up to the total (result.py: the components add up)
+    words = [writeback.COST_WORDS[k] for k in COST_COMPONENTS]
+    assert sum(items[w] for w in words) == pytest.approx(items["total cost"], abs=0.02)
+    assert items["units"] == "pallets" and items["currency"] == "EUR"
+    assert items["input SHA-256"] == "ab" * 32 and items["input file"] == info.input_path
+    assert items["lanes used"] == 3 and items["inactive lanes left out"] == 1 and items["customers short"] == 1
+    assert items["message"] == "Birch & Co <south> is 9.9 pallets short"
+    assert items["caution"] == CAUTION
+    assert {"solver", "MIP gap", "best bound", "solve seconds", "lanesolve version", "run at"} <= set(items)
+
+
+def test_pure_lp_summary_says_gap_not_applicable():
+    network, result, info = small_plan()
+    result.mip_gap = result.best_bound = None
+    items = {row[0]: row[1] for row in result_sheets(network, result, info)[0].rows}
+    assert items["MIP gap"].startswith("not applicable")
+
+
+def test_lane_flows_hold_used_then_inactive_lanes_only(plan_sheets):
+    flows = plan_sheets[1]
+    status = flows.columns.index("status")
+    assert [r[status] for r in flows.rows] == ["used"] * 3 + ["inactive, left out"]
+    assert "utilisation %" in flows.columns
+    util = flows.columns.index("utilisation %")
+    assert flows.rows[0][util] == pytest.approx(60.0)  # 60 of 100 (fraction 0.6 shown as a percentage)
+    inactive = flows.rows[-1]
+    assert inactive[:3] == ["Northgate Yard", "Alder Foods", "rail"]
+
+
+def test_nodes_sheet_has_every_node(plan_sheets):
+    nodes = plan_sheets[2]
+    assert [r[0] for r in nodes.rows] == ["Northgate Yard", FORMULA_NAME, "Alder Foods", "Birch & Co <south>"]
+    assert nodes.columns[:-1] == NODE_COLUMNS[:-1] and nodes.columns[-1] == "utilisation %"
+
+
+def test_no_plan_gives_a_summary_and_empty_tables(tmp_path, rich):
+    network, _result, info = small_plan()
+    result = Result(SolveStatus.INFEASIBLE, messages=["total supply 160 is 10 short of hard demand 170"])
+    sheets = result_sheets(network, result, info)
+    items = {row[0]: row[1] for row in sheets[0].rows}
+    assert items["status"] == "infeasible" and items["total cost"] is None
+    write_results(rich, rich, sheets)
+    back = pd.read_excel(rich, sheet_name="LS Nodes", engine="calamine")
+    assert len(back) == 0 and list(back.columns) == sheets[2].columns
+    # a table needs a data row (ECMA-376 Part 1, 18.5.1.2: ref spans header and data); the empty one keeps one
+    wb = openpyxl.load_workbook(rich)
+    assert wb["LS Nodes"].tables["LS_Nodes"].ref == "A1:J2"
+
+
+# ------------------------------------------------------------------------------------------------ lossless
+
+def test_every_original_member_is_byte_identical_except_index_parts(tmp_path, rich, plan_sheets):
+    before = wbk.members(rich)
+    out = tmp_path / "solved.xlsx"
+    write_results(rich, out, plan_sheets)
+    after = wbk.members(out)
+    for name, data in before.items():
+        assert name in after, f"{name} was dropped"
+        if name not in wbk.INDEX_PARTS:
+            assert after[name] == data, f"{name} changed"
+    # the chart, the picture and the styles are among the kept parts
+    assert {"xl/charts/chart1.xml", "xl/media/image1.png", "xl/drawings/drawing1.xml", "xl/styles.xml",
+            "xl/sharedStrings.xml", "xl/tables/table1.xml"} <= set(before)
+    added = set(after) - set(before)
+    assert len(added) == 9  # per sheet: worksheet, its rels, its table
+    for name in added:
+        ET.fromstring(after[name])  # well-formed XML (Python's parser as the reference)
+
+
+def test_index_parts_only_gain_entries_and_keep_markup_compatibility(tmp_path, rich, plan_sheets):
+    before = wbk.members(rich)
+    out = tmp_path / "solved.xlsx"
+    write_results(rich, out, plan_sheets)
+    after = wbk.members(out)
+    # Removing what we added gives back the original text: the edits are insertions, nothing else moved.
+    workbook = after["xl/workbook.xml"].decode()
+    assert re.sub(r'<sheet name="LS (Summary|Lane flows|Nodes)"[^>]*/>', "", workbook) == \
+        before["xl/workbook.xml"].decode()
+    assert 'mc:Ignorable="x15 xr"' in workbook and workbook.startswith("<?xml")
+    rels = after["xl/_rels/workbook.xml.rels"].decode()
+    assert re.sub(r'<Relationship Id="[^"]+" Type="[^"]+/worksheet" Target="worksheets/sheet\d+\.xml"/>', "",
+                  rels) == before["xl/_rels/workbook.xml.rels"].decode()
+    types = after["[Content_Types].xml"].decode()
+    assert re.sub(r'<Override PartName="/xl/(worksheets/sheet|tables/table)\d+\.xml" ContentType="[^"]+"/>', "",
+                  types) == before["[Content_Types].xml"].decode()
+    for name in wbk.INDEX_PARTS:
+        ET.fromstring(after[name])
+
+
+def test_app_titles_and_counts_follow_the_sheets(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    app = wbk.members(rich)["docProps/app.xml"].decode()
+    wb = openpyxl.load_workbook(rich)
+    titles = re.findall(r"<vt:lpstr>(.*?)</vt:lpstr>", re.search(r"<TitlesOfParts>(.*)</TitlesOfParts>",
+                                                                   app).group(1))
+    counts = [int(c) for c in re.findall(r"<vt:i4>(\d+)</vt:i4>", app)]
+    assert titles[:counts[0]] == wb.sheetnames  # the worksheet group lists every sheet, in tab order
+    assert len(titles) == sum(counts) == int(re.search(r'size="(\d+)" baseType="lpstr"', app).group(1))
+
+
+def test_input_sheet_values_are_identical(tmp_path, rich, plan_sheets):
+    before = input_values(rich)
+    write_results(rich, rich, plan_sheets)
+    assert input_values(rich) == before
+
+
+def test_result_sheets_read_back_in_openpyxl(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    wb = openpyxl.load_workbook(rich)
+    assert wb.sheetnames[-3:] == NEW_NAMES
+    for sheet in plan_sheets:
+        ws = wb[sheet.name]
+        rows = list(ws.iter_rows(values_only=True))
+        assert list(rows[0]) == sheet.columns
+        assert len(rows) == len(sheet.rows) + 1
+        assert ws.freeze_panes == "A2"
+        (table,) = ws.tables.values()
+        # table column names equal the header cells (ECMA-376 Part 1, 18.5.1.3: they must match)
+        assert [c.name for c in table.tableColumns] == sheet.columns
+        assert table.tableStyleInfo.name == writeback.TABLE_STYLE and table.autoFilter.ref == table.ref
+    flows = wb["LS Lane flows"]
+    assert flows["D2"].value == pytest.approx(60.0, abs=1e-9)
+    assert flows["H3"].value == writeback.NO_LIMIT
+    assert flows["I3"].value is None  # no utilisation without a limit: blank
+
+
+def test_result_sheets_read_back_in_pandas_calamine(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    frames = pd.read_excel(rich, sheet_name=None, engine="calamine")
+    for sheet in plan_sheets:
+        frame = frames[sheet.name]
+        assert list(frame.columns) == sheet.columns and len(frame) == len(sheet.rows)
+    flows = frames["LS Lane flows"]
+    assert flows["flow"].sum() == pytest.approx(60 + 40 + 40.1235, abs=1e-6)  # quantities kept to 4 decimals
+    assert flows["variable_cost"].tolist()[:3] == pytest.approx([255.0, 124.0, 200.62], abs=1e-9)  # money 2 dp
+    summary = dict(zip(frames["LS Summary"]["item"], frames["LS Summary"]["value"]))
+    assert float(summary["total cost"]) == pytest.approx(876.53, abs=1e-9)
+
+
+def test_rerun_replaces_result_sheets(tmp_path, rich, plan_sheets):
+    original = wbk.members(rich)
+    write_results(rich, rich, plan_sheets)
+    first = wbk.members(rich)
+    network, result, info = small_plan()
+    result.messages = []  # the second run's summary is one row shorter
+    write_results(rich, rich, result_sheets(network, result, info))
+    second = wbk.members(rich)
+    wb = openpyxl.load_workbook(rich)
+    assert wb.sheetnames.count("LS Summary") == 1
+    assert [n for n in wb.sheetnames if n.startswith(RESULT_PREFIX)] == NEW_NAMES
+    assert len(second) == len(first)
+    assert "message" not in [r[0] for r in wb["LS Summary"].iter_rows(values_only=True)]
+    for name, data in original.items():
+        if name not in wbk.INDEX_PARTS:
+            assert second[name] == data
+    tables = [n for n in second if n.startswith("xl/tables/")]
+    assert len(tables) == 4  # the user's table + our three
+
+
+def test_sheets_that_merely_resemble_the_prefix_are_kept(tmp_path, rich, plan_sheets):
+    lookalikes = ["LS-notes", "ls notes", "LSD stock", "Notes LS "]
+    before = {n: sheet_part(rich, n) for n in lookalikes}
+    write_results(rich, rich, plan_sheets)
+    write_results(rich, rich, plan_sheets)
+    wb = openpyxl.load_workbook(rich)
+    for name in lookalikes:
+        assert wb[name]["A1"].value == f"kept: {name}"
+        assert sheet_part(rich, name) == before[name]
+
+
+def test_stale_result_sheet_in_the_middle_is_dropped_and_local_names_renumbered(tmp_path, plan_sheets):
+    path = wbk.rich_workbook(tmp_path / "old.xlsx", result_sheet_at=2)
+    old_members = set(wbk.members(path))
+    write_results(path, path, plan_sheets)
+    wb = openpyxl.load_workbook(path)
+    assert "LS Old results" not in wb.sheetnames
+    assert wb.sheetnames[:4] == ["Depots", "Customers", "Lanes", "Settings"]
+    # the Lanes print area was local to position 3; Lanes is now at position 2 and keeps it
+    assert wb["Lanes"].print_area == "'Lanes'!$A$1:$F$4"
+    workbook = wbk.members(path)["xl/workbook.xml"].decode()
+    assert "LS Old results" not in workbook
+    assert workbook.count("_xlnm.Print_Area") == 1 and 'localSheetId="2"' in workbook
+    # its worksheet part went with it: three sheets added (3 members each), one dropped (a sheet without rels)
+    assert len(wbk.members(path)) == len(old_members) + 9 - 1
+
+
+def test_case_clash_with_a_user_sheet_is_refused(tmp_path, plan_sheets):
+    path = wbk.rich_workbook(tmp_path / "clash.xlsx", extra_sheets=("ls summary",))
+    before = path.read_bytes()
+    with pytest.raises(WriteError, match="'ls summary'.*rename"):
+        write_results(path, path, plan_sheets)
+    assert path.read_bytes() == before
+
+
+def test_user_table_name_is_not_reused(tmp_path, plan_sheets):
+    path = tmp_path / "names.xlsx"
+    wbk.base_workbook(path)
+    wb = openpyxl.load_workbook(path)
+    from openpyxl.worksheet.table import Table
+
+    wb["Settings"].add_table(Table(displayName="LS_Summary", ref="A1:B3"))
+    wb.save(path)
+    write_results(path, path, plan_sheets)
+    wb = openpyxl.load_workbook(path)
+    names = [t for ws in wb.worksheets for t in ws.tables]
+    assert len(names) == len({n.lower() for n in names}) == 5
+    ids = [ws.tables[t].id for ws in wb.worksheets for t in ws.tables]
+    assert len(set(ids)) == len(ids)
+
+
+def test_unusual_relationship_prefix_is_used_for_new_sheets(tmp_path, plan_sheets):
+    path = wbk.rich_workbook(tmp_path / "prefix.xlsx", rel_prefix="rel")
+    write_results(path, path, plan_sheets)
+    workbook = wbk.members(path)["xl/workbook.xml"].decode()
+    assert '<sheet name="LS Summary" sheetId="' in workbook and ' r:id=' not in workbook
+    assert openpyxl.load_workbook(path).sheetnames[-3:] == NEW_NAMES
+
+
+def test_xlsm_keeps_its_macro_part(tmp_path, plan_sheets):
+    path = wbk.rich_workbook(tmp_path / "macros.xlsm", macro=True)
+    before = wbk.members(path)
+    write_results(path, path, plan_sheets)
+    after = wbk.members(path)
+    assert after["xl/vbaProject.bin"] == wbk.FAKE_VBA
+    assert "application/vnd.ms-excel.sheet.macroEnabled.main+xml" in after["[Content_Types].xml"].decode()
+    assert "vbaProject" in after["xl/_rels/workbook.xml.rels"].decode()
+    assert all(after[n] == d for n, d in before.items() if n not in wbk.INDEX_PARTS)
+    wb = openpyxl.load_workbook(path, keep_vba=True)
+    assert wb.sheetnames[-3:] == NEW_NAMES
+
+
+def test_macro_workbook_to_xlsx_name_is_refused(tmp_path, plan_sheets):
+    path = wbk.rich_workbook(tmp_path / "macros.xlsm", macro=True)
+    with pytest.raises(WriteError, match=r"must end in \.xlsm"):
+        write_results(path, tmp_path / "copy.xlsx", plan_sheets)
+    assert not (tmp_path / "copy.xlsx").exists()
+
+
+def test_formula_looking_name_is_written_as_text(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    xml = sheet_part(rich, "LS Lane flows")
+    assert "<f>" not in xml and "<f " not in xml
+    assert '<c r="A3" t="inlineStr"><is><t xml:space="preserve">=SUM(A1)</t></is></c>' in xml
+    cell = openpyxl.load_workbook(rich)["LS Lane flows"]["A3"]
+    assert cell.value == FORMULA_NAME and cell.data_type == "s"
+
+
+def test_text_is_escaped_and_forbidden_characters_stripped(tmp_path, rich):
+    sheet = ResultSheet("LS Odd text", ["name", "n"], [["a\x00b\x1fc & <d> \"e\" 'f'", 1], ["  spaced  ", 2]],
+                        {"name": "text"})
+    write_results(rich, rich, [sheet])
+    ET.fromstring(sheet_part(rich, "LS Odd text"))
+    ws = openpyxl.load_workbook(rich)["LS Odd text"]
+    assert ws["A2"].value == "abc & <d> \"e\" 'f'"
+    assert ws["A3"].value == "  spaced  "  # xml:space="preserve" keeps the spaces
+
+
+def test_rounding_by_kind_and_special_values(tmp_path, rich):
+    sheet = ResultSheet("LS Rounding", ["money", "quantity", "percent", "number", "text"],
+                        [[1234.5678, 1.23456789, 83.4362, 0.000123456789, None],
+                         [math.nan, math.inf, -0.0, 7, True]],
+                        {"money": "money", "quantity": "quantity", "percent": "percent", "number": "number",
+                         "text": "text"})
+    write_results(rich, rich, [sheet])
+    ws = openpyxl.load_workbook(rich)["LS Rounding"]
+    assert ws["A2"].value == pytest.approx(1234.57, abs=1e-9)
+    assert ws["B2"].value == pytest.approx(1.2346, abs=1e-9)
+    assert ws["C2"].value == pytest.approx(83.4, abs=1e-9)
+    assert ws["D2"].value == pytest.approx(0.000123456789, rel=1e-12)  # "number" is written as given
+    assert ws["E2"].value is None and ws["A3"].value is None  # None and NaN: blank
+    assert ws["B3"].value == writeback.NO_LIMIT
+    assert ws["E3"].value is True
+    assert 'r="C3"' in sheet_part(rich, "LS Rounding") and "-0" not in sheet_part(rich, "LS Rounding")
+
+
+def test_column_widths_follow_content(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    ws = openpyxl.load_workbook(rich)["LS Summary"]
+    # the caution sentence is the longest value: its column is wider than the item column, up to the cap
+    assert ws.column_dimensions["B"].width > ws.column_dimensions["A"].width >= len("inactive lanes left out")
+    assert ws.column_dimensions["B"].width <= 80
+
+
+# ------------------------------------------------------------------------------------------------ atomicity
+
+def leftovers(folder: Path) -> list[str]:
+    return [p.name for p in folder.iterdir() if p.name.endswith(".tmp")]
+
+
+def test_failure_mid_write_leaves_the_original_and_no_temp_file(tmp_path, rich, plan_sheets, monkeypatch):
+    before = rich.read_bytes()
+    real = zipfile.ZipFile.writestr
+    calls = []
+
+    def failing_writestr(self, info, data, *args, **kwargs):
+        calls.append(info)
+        if len(calls) == 5:  # after the copied index parts, while adding the new sheets
+            raise OSError(28, "No space left on device")
+        return real(self, info, data, *args, **kwargs)
+
+    monkeypatch.setattr(zipfile.ZipFile, "writestr", failing_writestr)
+    with pytest.raises(WriteError, match="No space left on device.*left as it was"):
+        write_results(rich, rich, plan_sheets)
+    assert len(calls) == 5
+    assert rich.read_bytes() == before
+    assert leftovers(tmp_path) == []
+
+
+def test_unexpected_error_becomes_write_error(tmp_path, rich, plan_sheets, monkeypatch):
+    before = rich.read_bytes()
+
+    def broken(*args, **kwargs):
+        raise ValueError("simulated bug in the sheet builder")
+
+    monkeypatch.setattr(writeback, "table_xml", broken)
+    with pytest.raises(WriteError) as caught:
+        write_results(rich, tmp_path / "out.xlsx", plan_sheets)
+    assert isinstance(caught.value, LanesolveError) and isinstance(caught.value.__cause__, ValueError)
+    assert rich.read_bytes() == before and not (tmp_path / "out.xlsx").exists() and leftovers(tmp_path) == []
+
+
+def test_locked_target_says_close_the_workbook(tmp_path, rich, plan_sheets, monkeypatch):
+    before = rich.read_bytes()
+
+    def locked(src, dst):
+        raise PermissionError(13, "Permission denied")
+
+    monkeypatch.setattr(writeback.os, "replace", locked)
+    with pytest.raises(WriteError, match="close the workbook"):
+        write_results(rich, rich, plan_sheets)
+    assert rich.read_bytes() == before and leftovers(tmp_path) == []
+
+
+def test_output_to_another_path_leaves_the_source_identical(tmp_path, rich, plan_sheets):
+    before = rich.read_bytes()
+    out = tmp_path / "sub" / "solved.xlsx"
+    out.parent.mkdir()
+    write_results(rich, out, plan_sheets)
+    assert rich.read_bytes() == before
+    assert openpyxl.load_workbook(out).sheetnames[-3:] == NEW_NAMES
+    assert leftovers(out.parent) == []
+
+
+def test_source_equal_to_target_works_and_keeps_permissions(tmp_path, rich, plan_sheets):
+    os.chmod(rich, 0o640)
+    write_results(rich, rich, plan_sheets)
+    assert stat.S_IMODE(os.stat(rich).st_mode) == 0o640  # not the temporary file's private 0600
+    assert openpyxl.load_workbook(rich).sheetnames[-3:] == NEW_NAMES
+    assert leftovers(tmp_path) == []
+
+
+def test_not_a_workbook_is_a_write_error(tmp_path, plan_sheets):
+    path = tmp_path / "notes.xlsx"
+    path.write_text("just text")
+    with pytest.raises(WriteError, match="not a workbook"):
+        write_results(path, path, plan_sheets)
+    assert path.read_text() == "just text" and leftovers(tmp_path) == []
+
+
+def test_missing_source_is_a_write_error(tmp_path, plan_sheets):
+    with pytest.raises(WriteError, match="does not exist"):
+        write_results(tmp_path / "gone.xlsx", tmp_path / "gone.xlsx", plan_sheets)
+
+
+@pytest.mark.parametrize("name", ["Summary", "LS " + "x" * 29, "LS a/b", "LS [1]"])
+def test_invalid_result_sheet_name_is_refused(tmp_path, rich, name):
+    with pytest.raises(WriteError, match="cannot write a result sheet named"):
+        write_results(rich, rich, [ResultSheet(name, ["a"], [[1]], {})])
+
+
+# ------------------------------------------------------------------------------------------------ a real program
+
+def test_libreoffice_opens_the_result_sheet(tmp_path, rich, plan_sheets):
+    soffice = shutil.which("soffice") or shutil.which("libreoffice")
+    if soffice is None:
+        pytest.skip("LibreOffice (soffice) is not installed")
+    write_results(rich, rich, plan_sheets)
+    out = tmp_path / "csv"
+    # Filter options: field separator 44 (,), text delimiter 34 ("), UTF-8 (76), start row 1, ..., sheet -1 = every
+    # sheet to its own file (LibreOffice 7.2+ CSV filter options, documented in its help "CSV Filter Options").
+    profile = tmp_path / "lo-profile"
+    command = [soffice, f"-env:UserInstallation=file://{profile}", "--headless", "--convert-to",
+               "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,-1", "--outdir", str(out),
+               str(rich)]
+    done = subprocess.run(command, capture_output=True, text=True, timeout=240)
+    produced = sorted(out.glob("*.csv")) if out.exists() else []
+    assert produced, f"LibreOffice wrote nothing: {done.stdout} {done.stderr}"
+    flows_csv = next(p for p in produced if "Lane flows" in p.name)
+    frame = pd.read_csv(flows_csv, keep_default_na=False)
+    assert list(frame.columns) == plan_sheets[1].columns
+    assert frame["origin"].tolist()[1] == FORMULA_NAME  # text, not evaluated
+    assert [float(x) for x in frame["flow"]] == pytest.approx([60, 40, 40.1235, 0], abs=1e-9)
+    assert frame["capacity"].tolist()[1] == writeback.NO_LIMIT
+    depots_csv = next(p for p in produced if p.name.endswith("-Depots.csv"))
+    assert pd.read_csv(depots_csv)["depot"].tolist() == ["Northgate Yard", "Riverbend Plant", FORMULA_NAME]
