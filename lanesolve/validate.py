@@ -288,7 +288,9 @@ def _type_masks(values: pd.Series) -> dict[str, pd.Series]:
     """Boolean masks by cell kind (str, bool, number, date, blank) and the trimmed text of string cells."""
     types = values.map(type)
     is_str = types == str
-    stripped = values.where(is_str, "").astype(str).str.strip()
+    stripped = pd.Series("", index=values.index, dtype=object)
+    if is_str.any():
+        stripped[is_str] = values[is_str].str.strip()
     blank = values.isna() | (is_str & (stripped == ""))
     is_bool = types.isin([bool, np.bool_])
     is_number = types.isin([float, int, np.float64, np.float32, np.int64, np.int32]) & ~blank
@@ -324,12 +326,14 @@ class _ColumnParser:
                            hint(cell) if callable(hint) else hint, severity)
         return positions
 
-    def parse(self, raw: pd.Series, bad: np.ndarray) -> tuple[pd.Series, np.ndarray]:
+    def parse(self, raw: pd.Series, bad: np.ndarray, masks: dict[str, pd.Series]) -> tuple[pd.Series, np.ndarray]:
+        """Parsed values and the mask of cells already reported; ``masks`` are :func:`_type_masks` of ``raw``."""
         kind = self.col.kind
-        masks = _type_masks(raw)
         invalid = bad.copy()
-        for key in ("str", "bool", "number", "date", "blank"):
-            masks[key] = masks[key] & ~bad
+        masks = dict(masks)
+        if bad.any():
+            for key in ("str", "bool", "number", "date", "blank"):
+                masks[key] = masks[key] & ~bad
         if kind == ID:
             values = self._id(raw, masks, invalid)
         elif kind == NUMBER:
@@ -484,9 +488,12 @@ def _read_table(spec: Sheet, sheet: RawSheet | None, found: _Findings) -> _Table
 
     # A row is a record when any contract column in it holds something (a value or a bad cell).
     filled = np.zeros(n_rows, dtype=bool)
+    masks_of: dict[str, dict[str, pd.Series]] = {}
     for name, values in raw_cols.items():
-        filled |= ~_type_masks(values)["blank"].to_numpy() | bad_cols[name]
+        masks_of[name] = _type_masks(values)
+        filled |= ~masks_of[name]["blank"].to_numpy() | bad_cols[name]
     keep = np.flatnonzero(filled)
+    every_row = len(keep) == n_rows
     table.rows = keep + 2
 
     for row, name, text in sorted(bad_found):
@@ -500,10 +507,12 @@ def _read_table(spec: Sheet, sheet: RawSheet | None, found: _Findings) -> _Table
             table.values[col.name] = None
             table.invalid[col.name] = np.ones(len(keep), dtype=bool)
             continue
-        raw = raw_cols[col.name].iloc[keep].reset_index(drop=True)
-        bad = bad_cols[col.name][keep]
+        raw, bad, masks = raw_cols[col.name], bad_cols[col.name], masks_of[col.name]
+        if not every_row:
+            raw, bad = raw.iloc[keep].reset_index(drop=True), bad[keep]
+            masks = {key: mask.iloc[keep].reset_index(drop=True) for key, mask in masks.items()}
         parser = _ColumnParser(table, col, found)
-        table.values[col.name], table.invalid[col.name] = parser.parse(raw, bad)
+        table.values[col.name], table.invalid[col.name] = parser.parse(raw, bad, masks)
     return table
 
 
