@@ -121,6 +121,11 @@ class ResultSheet:
 
 def _plain(value):
     """A pandas/numpy scalar as a plain Python value (None for missing)."""
+    value_type = type(value)
+    if value_type is str or value_type is int or value_type is bool:
+        return value
+    if value_type is float:
+        return None if value != value else value
     if value is None:
         return None
     if isinstance(value, bool):
@@ -346,13 +351,15 @@ def _cell_text(value, kind: str) -> tuple[str, str | None, int]:
         digits = DECIMALS.get(kind)
         if digits is not None:
             value = round(value, digits)
-        if value == 0:
-            value = 0.0  # no "-0" on screen
-        text = repr(value)
+        text = repr(value + 0.0)  # + 0.0 turns -0.0 into 0.0: no "-0" on screen
         if text.endswith(".0"):
             text = text[:-2]
         return f"<v>{text}</v>", None, len(text)
-    text = clean_text(str(value))
+    text = str(value)
+    if not text.isprintable():  # printable text holds none of the forbidden characters; skip the regex
+        text = clean_text(text)
+    elif len(text) > MAX_CELL_TEXT:
+        text = text[:MAX_CELL_TEXT]
     if not text:
         return "", None, 0
     return f'<is><t xml:space="preserve">{escape(text)}</t></is>', "inlineStr", len(text)
@@ -395,16 +402,40 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str) -> tuple[str, str]:
         header_cells.append(f'<c r="{letters[j]}1" t="inlineStr"><is><t xml:space="preserve">{escape(name)}</t>'
                             f'</is></c>')
     parts.append('<row r="1">' + "".join(header_cells) + "</row>")
+    digits = [DECIMALS.get(k) for k in kinds]
+    # Text cells repeat (ids, modes, statuses): render each distinct text once.
+    text_cache: dict[str, tuple[str, int]] = {}
+    inf = math.inf
     for i, row in enumerate(sheet.rows, start=2):
         cells = []
-        for j in range(min(len(row), n_cols)):
-            body, cell_type, length = _cell_text(row[j], kinds[j])
-            if not body:
-                continue
+        for j, value in enumerate(row[:n_cols]):
+            # Fast paths for the common plain types; everything else goes through _cell_text.
+            value_type = type(value)
+            if value_type is float and value == value and -inf < value < inf:
+                if digits[j] is not None:
+                    value = round(value, digits[j])
+                text = repr(value + 0.0)  # + 0.0 turns -0.0 into 0.0
+                if text.endswith(".0"):
+                    text = text[:-2]
+                cells.append(f'<c r="{letters[j]}{i}"><v>{text}</v></c>')
+                length = len(text)
+            elif value_type is str and value:
+                cached = text_cache.get(value)
+                if cached is None:
+                    body, _type, length = _cell_text(value, kinds[j])
+                    cached = text_cache[value] = (f' t="inlineStr">{body}</c>' if body else "", length)
+                if not cached[0]:
+                    continue
+                cells.append(f'<c r="{letters[j]}{i}"{cached[0]}')
+                length = cached[1]
+            else:
+                body, cell_type, length = _cell_text(value, kinds[j])
+                if not body:
+                    continue
+                type_attr = f' t="{cell_type}"' if cell_type else ""
+                cells.append(f'<c r="{letters[j]}{i}"{type_attr}>{body}</c>')
             if length > widths[j]:
                 widths[j] = length
-            type_attr = f' t="{cell_type}"' if cell_type else ""
-            cells.append(f'<c r="{letters[j]}{i}"{type_attr}>{body}</c>')
         parts.append(f'<row r="{i}">' + "".join(cells) + "</row>")
     # A table needs at least one data row; an empty result keeps one blank row inside the table.
     last_row = max(len(sheet.rows) + 1, 2)
@@ -625,8 +656,7 @@ def _edit_app(text: str, old_names: list[str], new_names: list[str], kept_names:
     inner = titles.group(1)
     base = titles.start(1)
     prefix = title_tags[0].group(1) if title_tags and title_tags[0].group(1) is not None else "vt:"
-    insert_at = base + title_tags[b - 1].end() if b > a else base + (title_tags[a].start() if a < len(title_tags)
-                                                                       else len(inner))
+    insert_at = base + title_tags[b - 1].end()  # the group was found by a title, so it is not empty
     added = "".join(f"<{prefix}lpstr>{escape(n)}</{prefix}lpstr>" for n in new_names)
     edits = [(base + title_tags[k].start(), base + title_tags[k].end(), "") for k in drop]
     edits.append((insert_at, insert_at, added))

@@ -66,8 +66,8 @@ def base_workbook(path: Path, extra_sheets: tuple[str, ...] = (), result_sheet_a
     sheets = {
         "Depots": [["depot", "supply", "handling_cost"], ["Northgate Yard", 120, 1.5], ["Riverbend Plant", 80, 0.75],
                    ["=SUM(A1)", 40, 0]],
-        "Customers": [["customer", "demand", "unmet_penalty"], ["Alder Foods", 60, None], ["Birch & Co <south>", 90, 25],
-                      ["Cedar Market", 50, None]],
+        "Customers": [["customer", "demand", "unmet_penalty"], ["Alder Foods", 60, None],
+                      ["Birch & Co <south>", 90, 25], ["Cedar Market", 50, None]],
         "Lanes": [["origin", "destination", "cost_per_unit", "mode", "capacity", "active"],
                   ["Northgate Yard", "Alder Foods", 4.25, "road", 100, "yes"],
                   ["Riverbend Plant", "Birch & Co <south>", 3.1, "rail", None, "yes"],

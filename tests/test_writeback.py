@@ -219,6 +219,7 @@ def test_index_parts_only_gain_entries_and_keep_markup_compatibility(tmp_path, r
 
 def test_app_titles_and_counts_follow_the_sheets(tmp_path, rich, plan_sheets):
     write_results(rich, rich, plan_sheets)
+    write_results(rich, rich, plan_sheets)  # the rerun replaces the titles too
     app = wbk.members(rich)["docProps/app.xml"].decode()
     wb = openpyxl.load_workbook(rich)
     titles = re.findall(r"<vt:lpstr>(.*?)</vt:lpstr>", re.search(r"<TitlesOfParts>(.*)</TitlesOfParts>",
@@ -310,8 +311,29 @@ def test_stale_result_sheet_in_the_middle_is_dropped_and_local_names_renumbered(
     workbook = wbk.members(path)["xl/workbook.xml"].decode()
     assert "LS Old results" not in workbook
     assert workbook.count("_xlnm.Print_Area") == 1 and 'localSheetId="2"' in workbook
+    app = wbk.members(path)["docProps/app.xml"].decode()
+    assert "LS Old results" not in app and all(f"<vt:lpstr>{n}</vt:lpstr>" in app for n in wb.sheetnames)
     # its worksheet part went with it: three sheets added (3 members each), one dropped (a sheet without rels)
     assert len(wbk.members(path)) == len(old_members) + 9 - 1
+
+
+def set_active_tab(path: Path, index: int) -> None:
+    text = wbk.members(path)["xl/workbook.xml"].decode()
+    wbk.rewrite_zip(path, {"xl/workbook.xml": re.sub(r'activeTab="\d+"', f'activeTab="{index}"', text).encode()})
+
+
+def test_active_tab_on_an_old_result_sheet_moves_to_the_new_summary(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    set_active_tab(rich, openpyxl.load_workbook(rich).sheetnames.index("LS Lane flows"))
+    write_results(rich, rich, plan_sheets)
+    assert openpyxl.load_workbook(rich).active.title == "LS Summary"
+
+
+def test_active_tab_after_a_dropped_sheet_follows_its_sheet(tmp_path, plan_sheets):
+    path = wbk.rich_workbook(tmp_path / "old.xlsx", result_sheet_at=1)
+    set_active_tab(path, openpyxl.load_workbook(path).sheetnames.index("Lanes"))
+    write_results(path, path, plan_sheets)
+    assert openpyxl.load_workbook(path).active.title == "Lanes"
 
 
 def test_case_clash_with_a_user_sheet_is_refused(tmp_path, plan_sheets):
