@@ -54,6 +54,7 @@ SOLVERS = ("cbc", "highs")
 
 _CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.MULTILINE)
 _CBC_BEST_POSSIBLE = re.compile(r"best possible\s+(\S+?)\)", re.MULTILINE)
+_CBC_PROVEN = re.compile(r"^Result - Optimal solution found\s*$", re.MULTILINE)
 _CBC_VERSION = re.compile(r"^Version:\s*(\S+)", re.MULTILINE)
 
 
@@ -145,15 +146,16 @@ def _solver_name(solver: str, log_text: str) -> str:
 def _best_bound(solver: str, problem: pulp.LpProblem, log_text: str, total_cost: float) -> float | None:
     """The solver's best lower bound on the cost when it stopped, or None when it does not say.
 
-    CBC prints ``Lower bound:`` when it stops early or on the gap tolerance; when it completes the search it prints
-    no bound because the plan is then proven optimal, so the bound is the plan's cost. Failing both, the last
+    CBC prints ``Lower bound:`` when it stops early or on the gap tolerance; when it proves the plan optimal
+    (``Result - Optimal solution found`` with nothing after it, also when presolve alone solves the model) it prints
+    no bound, and the bound is then the plan's cost. Failing both, the last
     ``best possible`` of its progress lines is a valid (possibly stale) bound.
     """
     if solver == "cbc":
         found = _CBC_BOUND.findall(log_text)
         if found:
             return float(found[-1])
-        if "Search completed" in log_text and "Exiting as integer gap" not in log_text:
+        if _CBC_PROVEN.search(log_text):
             return total_cost
         found = _CBC_BEST_POSSIBLE.findall(log_text)
         return float(found[-1]) if found else None
