@@ -241,6 +241,9 @@ def _scan_bad_cells(path: Path, archive: zipfile.ZipFile, part: str) -> dict[tup
         raise WorkbookError(f"{path} is damaged: part {part} cannot be read ({exc}); {_OPEN_AND_SAVE_HINT}") from exc
     if b't="e"' not in data and b"<f" not in data and b":f" not in data:
         return {}
+    quick = _scan_bad_cells_quick(data)
+    if quick is not None:
+        return quick
 
     bad: dict[tuple[int, int], str] = {}
     shared_text: dict[str, str] = {}
@@ -295,3 +298,85 @@ def _scan_bad_cells(path: Path, archive: zipfile.ZipFile, part: str) -> dict[tup
                             f"{_OPEN_AND_SAVE_HINT}") from exc
     return bad
 
+
+
+_CELL_START = re.compile(rb"<c[\s>]")
+_FORMULA_START = re.compile(rb"<f[\s>/]")
+_TAG_REF = re.compile(rb'\sr="([A-Z]+)([0-9]+)"')
+_TAG_TYPE = re.compile(rb'\st="([A-Za-z]+)"')
+_FORMULA = re.compile(rb"<f((?:\s[^>]*?)?)(?:/>|>(.*?)</f>)", re.S)
+_VALUE = re.compile(rb"<v\s*/>|<v>(.*?)</v>", re.S)
+_SHARED_INDEX = re.compile(rb'\ssi="([0-9]+)"')
+
+
+def _scan_bad_cells_quick(data: bytes) -> dict[tuple[int, int], str] | None:
+    """The same scan as the streaming one, visiting only cells that hold a formula or an error.
+
+    Works on the unprefixed markup common writers produce, with ``r`` first in every cell tag; returns None (use
+    the streaming parser) otherwise, e.g. when elements carry a namespace prefix or a cell lacks its reference.
+    Only literal byte searches run over the whole part, so it costs little beyond the cells it reports.
+    """
+    cells = data.count(b"<c ") + data.count(b"<c>") + data.count(b"<c/>")
+    if b"<sheetData" not in data or cells != data.count(b'<c r="'):
+        return None
+    starts = sorted({m.start() for m in _FORMULA_START.finditer(data)} | set(_find_all(data, b' t="e"')))
+    bad: dict[tuple[int, int], str] = {}
+    shared_text: dict[bytes, str] = {}
+    last_start = -1
+    for marker in starts:
+        start = data.rfind(b"<c", 0, marker + 1)
+        while start >= 0 and not _CELL_START.match(data, start):
+            start = data.rfind(b"<c", 0, start)
+        if start < 0 or start == last_start:
+            continue
+        last_start = start
+        tag_end = data.find(b">", start)
+        tag = data[start:tag_end + 1]
+        end = len(data) if tag.endswith(b"/>") else data.find(b"</c>", tag_end)
+        if end < 0:
+            return None
+        cell = data[tag_end + 1:end]
+        ref = _TAG_REF.search(tag)
+        if ref is None:
+            return None
+        kind_match = _TAG_TYPE.search(tag)
+        kind = kind_match.group(1).decode() if kind_match else "n"
+        formula = _FORMULA.search(cell)
+        value = _VALUE.search(cell)
+        formula_text = None
+        if formula is not None:
+            attrs = formula.group(1) or b""
+            text = formula.group(2)
+            formula_text = _unescape(text.decode("utf-8")) if text else None
+            shared = _SHARED_INDEX.search(attrs) if b'shared' in attrs else None
+            if shared is not None:
+                if formula_text:
+                    shared_text[shared.group(1)] = formula_text
+                else:
+                    formula_text = shared_text.get(shared.group(1))
+        position = (int(ref.group(2)), _column_number(ref.group(1).decode()))
+        if kind == "e":
+            shown = (_unescape(value.group(1).decode("utf-8")).strip() if value is not None and value.group(1)
+                     else "") or "an error value"
+            if formula_text:
+                shown += f" (from formula ={formula_text})"
+            bad[position] = shown
+        elif formula is not None:
+            if value is None or (not value.group(1) and kind not in ("str", "inlineStr")):
+                written = f"formula ={formula_text}" if formula_text else "a formula"
+                bad[position] = f"{written} has no saved value"
+    return bad
+
+
+def _find_all(data: bytes, needle: bytes):
+    at = data.find(needle)
+    while at >= 0:
+        yield at
+        at = data.find(needle, at + 1)
+
+
+def _unescape(text: str) -> str:
+    # The five predefined XML entities plus numeric character references (XML 1.0, 4.6 and 4.1).
+    if "&" not in text:
+        return text
+    return ElementTree.fromstring(f"<x>{text}</x>").text or ""

@@ -167,3 +167,42 @@ def test_damaged_ole_file(tmp_path):
 def test_missing_file(tmp_path):
     with pytest.raises(WorkbookError, match="no such file"):
         read_workbook(tmp_path / "nothere.xlsx")
+
+
+_MIXED_CELLS = (
+    '<row r="1"><c r="A1" t="inlineStr"><is><t>depot</t></is></c>'
+    '<c r="B1" t="inlineStr"><is><t>supply</t></is></c></row>'
+    '<row r="2"><c r="A2" t="inlineStr"><is><t>D1</t></is></c><c r="B2"><f>2+3</f><v>5</v></c></row>'
+    '<row r="3"><c r="A3" t="inlineStr"><is><t>D2</t></is></c><c r="B3" t="e"><v>#N/A</v></c>'
+    '<c r="C3"><f>IF(A3&lt;&gt;"",1,0)</f></c></row>'
+)
+
+
+def test_prefixed_markup_takes_streaming_scan_with_same_result(tmp_path):
+    # ECMA-376 allows any namespace prefix; some writers emit <x:c>. The byte-level quick scan declines such parts
+    # and the streaming parser must find the same cells.
+    plain = write_workbook(tmp_path / "plain.xlsx", {"Depots": [["depot", "supply"], ["D1", 1]]})
+    _rewrite_sheet_xml(plain, _MIXED_CELLS)
+    prefixed = write_workbook(tmp_path / "prefixed.xlsx", {"Depots": [["depot", "supply"], ["D1", 1]]})
+    main_ns = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+    cells = _MIXED_CELLS.replace("<", "<x:").replace("<x:/", "</x:")
+    with zipfile.ZipFile(prefixed) as archive:
+        members = {name: archive.read(name) for name in archive.namelist()}
+    members["xl/worksheets/sheet1.xml"] = (
+        f'<x:worksheet xmlns:x="{main_ns}"><x:sheetData>{cells}</x:sheetData></x:worksheet>').encode()
+    with zipfile.ZipFile(prefixed, "w") as archive:
+        for name, data in members.items():
+            archive.writestr(name, data)
+    expected = {(3, 2): "#N/A", (3, 3): 'formula =IF(A3<>"",1,0) has no saved value'}
+    assert read_workbook(plain).sheets["Depots"].bad_cells == expected
+    assert read_workbook(prefixed).sheets["Depots"].bad_cells == expected
+
+
+def test_cells_without_reference_are_counted(tmp_path):
+    # The r attribute of <c> and <row> is optional (ECMA-376 18.3.1.4, 18.3.1.73); positions then follow order.
+    path = write_workbook(tmp_path / "noref.xlsx", {"Depots": [["depot", "supply"], ["D1", 1]]})
+    _rewrite_sheet_xml(path, (
+        '<row><c t="inlineStr"><is><t>depot</t></is></c><c t="inlineStr"><is><t>supply</t></is></c></row>'
+        '<row><c t="inlineStr"><is><t>D1</t></is></c><c><f>1+1</f></c></row>'
+    ))
+    assert read_workbook(path).sheets["Depots"].bad_cells == {(2, 2): "formula =1+1 has no saved value"}
