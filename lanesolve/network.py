@@ -82,7 +82,7 @@ def make_network(
     --------
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
-    >>> net.lanes.loc[0, "capacity"]
+    >>> float(net.lanes.loc[0, "capacity"])
     inf
     """
     defaults = {

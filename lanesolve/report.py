@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING
 import jinja2
 
 from .errors import WriteError
-from .result import COST_COMPONENTS, Result, SolveStatus
+from .result import CAUTION, COST_COMPONENTS, Result, SolveStatus
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
     from .network import Network
@@ -29,9 +29,6 @@ if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
 
 TEMPLATE_NAME = "summary.html.j2"
 
-#: The caution every summary carries (the same words as the README's caution).
-CAUTION = ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
-           "carrier contracts; local regulations and licensed professionals take precedence.")
 
 #: How many lanes the "lanes used" table lists before it says "and N more"; the result sheets hold them all.
 TOP_LANES = 25

@@ -11,13 +11,18 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
+#: The caution every plan carries: on the summary sheet, in the HTML summary and (in other words) in README.md.
+CAUTION = ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
+           "carrier contracts; local regulations and licensed professionals take precedence.")
+
 #: Columns of :attr:`Result.flows` (one row per active lane with flow > 0).
 FLOW_COLUMNS = ["origin", "destination", "mode", "flow", "cost_per_unit", "variable_cost", "fixed_charge",
                 "capacity", "utilisation"]
 #: Columns of :attr:`Result.nodes` (one row per node).
 NODE_COLUMNS = ["node", "kind", "supply", "demand", "shipped", "received", "unmet", "capacity", "throughput",
                 "utilisation"]
-#: Columns of :attr:`Result.unmet` (one row per customer short).
+#: Columns of :attr:`Result.unmet` (one row per customer short); ``penalty`` is the total penalty cost
+#: (quantity times the customer's per-unit rate).
 UNMET_COLUMNS = ["customer", "quantity", "penalty"]
 #: Keys of :attr:`Result.cost_breakdown`, in report order.
 COST_COMPONENTS = ("transport", "handling", "fixed_lane", "unmet_penalty")

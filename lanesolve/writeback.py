@@ -45,12 +45,8 @@ import pandas as pd
 
 from .contract import RESULT_PREFIX
 from .errors import LanesolveError, WriteError
-from .result import COST_COMPONENTS
+from .result import CAUTION, COST_COMPONENTS
 
-#: The caution line shown on the summary sheet. Kept here until a shared home exists (the HTML report and the
-#: README carry the same sentence).
-CAUTION = ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
-           "carrier contracts; local regulations and licensed professionals take precedence.")
 
 #: Text written for an infinite value (a lane or hub capacity without limit).
 NO_LIMIT = "no limit"
