@@ -201,6 +201,9 @@ def _match_sheets(raw: RawWorkbook, found: _Findings) -> dict[str, RawSheet]:
                 found.add(spec.name, None, None, None, f"the workbook has no sheet named '{spec.name}'", hint)
             continue
         sheet = candidates[0]
+        if not spec.required and not any(not _is_blank(cell) for row in sheet.rows for cell in row) \
+                and not sheet.bad_cells:
+            continue  # an optional sheet left completely empty counts as absent
         if sheet.hidden:
             found.add(sheet.name, None, None, None, "this sheet is hidden; it is read all the same",
                       "unhide it to review what lanesolve reads", severity="warning")

@@ -492,3 +492,12 @@ def test_validate_accepts_hand_built_raw_workbook():
     assert [str(p) for p in caught.value.problems] == [
         "Customers row 2, column demand: the cell holds the error value #VALUE! (fix the cell or the cells its "
         "formula uses so it shows a proper value, or type the value in)"]
+
+
+def test_empty_optional_sheet_counts_as_absent(tmp_path):
+    sheets = valid_sheets()
+    sheets["Settings"] = []
+    sheets["Hubs"] = []
+    sheets["Lanes"] = [row for row in sheets["Lanes"] if "Midway" not in row[:2]]
+    network, warnings = load(tmp_path, sheets)
+    assert warnings == [] and len(network.hubs) == 0 and network.settings.units == "units"
