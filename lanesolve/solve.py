@@ -29,7 +29,9 @@ objective as the bound.
 
 from __future__ import annotations
 
+import contextlib
 import math
+import os
 import re
 import sys
 import tempfile
@@ -133,14 +135,31 @@ def _make_solver(solver: str, is_mip: bool, time_limit: float | None, gap: float
     raise SolverError(f"unknown solver {solver!r} (choose one of: {', '.join(SOLVERS)})")
 
 
-def _solver_name(solver: str, log_text: str) -> str:
+def _solver_name(solver: str, problem: pulp.LpProblem, log_text: str) -> str:
     if solver == "cbc":
         found = _CBC_VERSION.search(log_text)
         return f"CBC {found.group(1) if found else '(version unknown)'} (PuLP {pulp.__version__})"
-    import highspy
-
-    version = highspy.Highs().version() if hasattr(highspy.Highs, "version") else "(version unknown)"
+    model = getattr(problem, "solverModel", None)
+    version = model.version() if model is not None and hasattr(model, "version") else "(version unknown)"
     return f"HiGHS {version} (PuLP {pulp.__version__})"
+
+
+@contextlib.contextmanager
+def _stdout_to_stderr():
+    """Send what native code writes to file descriptor 1 to 2 instead while inside the block.
+
+    highspy prints a banner on stdout whenever a solver object is made, even with output off; ``--json`` promises
+    stdout holds only the JSON document.
+    """
+    sys.stdout.flush()
+    saved = os.dup(1)
+    try:
+        os.dup2(2, 1)
+        yield
+    finally:
+        sys.stdout.flush()
+        os.dup2(saved, 1)
+        os.close(saved)
 
 
 def _best_bound(solver: str, problem: pulp.LpProblem, log_text: str, total_cost: float) -> float | None:
@@ -270,8 +289,10 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
         log_path = Path(tmp) / "solver.log"
         backend = _make_solver(solver, model.is_mip, limit, gap, msg, log_path)
         tick = time.perf_counter()
+        quiet = _stdout_to_stderr() if solver == "highs" else contextlib.nullcontext()
         try:
-            model.problem.solve(backend)
+            with quiet:
+                model.problem.solve(backend)
         except pulp.PulpSolverError as exc:
             raise SolverError(f"the {solver.upper()} solver failed: {exc} (rerun with the solver log shown to see "
                               "why; a damaged PuLP install is fixed by: pip install --force-reinstall pulp)") from exc
@@ -284,7 +305,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
         sys.stderr.write(log_text)
 
     status = _status(model.problem, model.is_mip)
-    result = Result(status=status, solver=_solver_name(solver, log_text), solve_seconds=seconds)
+    result = Result(status=status, solver=_solver_name(solver, model.problem, log_text), solve_seconds=seconds)
     result.timings["build_model"] = build_seconds
     result.timings["solver"] = seconds
 
@@ -306,8 +327,8 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
         if status is SolveStatus.FEASIBLE:
             gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
             result.messages.append(f"The solver stopped on its time limit ({limit:g} s) before proving the plan "
-                                   f"optimal; the plan may cost up to {gap_text} more than the best possible "
-                                   "(raise time_limit_s or mip_gap in Settings).")
+                                   f"optimal; the best possible plan may cost up to {gap_text} less than this one "
+                                   "(raise time_limit_s in Settings or use --time-limit).")
     else:
         result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
     return result

@@ -224,9 +224,10 @@ def test_missing_highspy_says_how_to_install(monkeypatch):
         solve(beer_network(), solver="highs")
 
 
-def test_highs_solves_lp_and_mip():
+def test_highs_solves_lp_and_mip(capfd):
     pytest.importorskip("highspy")
     result = solve(beer_network(), solver="highs")
+    assert capfd.readouterr().out == ""  # highspy's banner must not reach stdout, which --json keeps for JSON
     assert result.status is SolveStatus.OPTIMAL
     assert result.total_cost == pytest.approx(8600, abs=TOL)  # PuLP BeerDistributionProblem.py optimum
     assert result.solver.startswith("HiGHS ")
