@@ -291,6 +291,8 @@ def _new_values(old: pd.Series, change: Change, column: contract.Column, network
                 ) -> tuple[pd.Series | None, str]:
     """The changed values, or None and the reason the change cannot be made."""
     if column.kind == contract.FLAG:
+        if change.change != "set":
+            return None, f"{column.name} is a yes/no column; it can only be set"
         if _blank(change.value):
             flag = bool(column.default)
         elif isinstance(change.value, bool):

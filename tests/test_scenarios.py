@@ -201,6 +201,11 @@ def test_flag_set_to_something_else_than_yes_no_is_refused():
     assert "not yes or no" in problems[0].message
 
 
+def test_scale_on_a_flag_built_in_python_is_refused():
+    _, problems = apply_scenario(base_network(), one("Lanes", "*", "active", "scale", 2))
+    assert "can only be set" in problems[0].message
+
+
 def test_set_blank_on_a_required_number_is_refused():
     _, problems = apply_scenario(base_network(), one("Depots", "*", "supply", "set", None))
     assert "cannot be blank" in problems[0].message
