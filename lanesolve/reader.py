@@ -20,9 +20,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from xml.etree import ElementTree
 
+import defusedxml
+import defusedxml.ElementTree as SafeElementTree
 import python_calamine
 
-from . import contract
+from . import contract, guard
 from .errors import WorkbookError
 
 _ZIP_MAGIC = b"PK\x03\x04"
@@ -104,6 +106,7 @@ def read_workbook(path: str | Path) -> RawWorkbook:
 
     part_of_sheet: dict[str, str] = {}
     if head.startswith(_ZIP_MAGIC):
+        guard.check_archive(path)  # before any part is parsed: zip bombs, entity declarations
         part_of_sheet = _xlsx_sheet_parts(path)
     elif head.startswith(_OLE_MAGIC):
         if _ENCRYPTED_STREAM in path.read_bytes():
@@ -186,10 +189,11 @@ def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
                                        posixpath.basename(workbook_part) + ".rels")
             targets: dict[str, str] = {}
             if rels_part in names:
-                for rel in ElementTree.fromstring(archive.read(rels_part)).iter(f"{{{_PKG_REL_NS}}}Relationship"):
+                rels = SafeElementTree.fromstring(archive.read(rels_part))
+                for rel in rels.iter(f"{{{_PKG_REL_NS}}}Relationship"):
                     targets[rel.get("Id")] = _resolve(workbook_part, rel.get("Target", ""))
             parts: dict[str, str] = {}
-            for sheet in ElementTree.fromstring(archive.read(workbook_part)).iter():
+            for sheet in SafeElementTree.fromstring(archive.read(workbook_part)).iter():
                 if sheet.tag.endswith("}sheet") or sheet.tag == "sheet":
                     rid = sheet.get(f"{{{_REL_NS}}}id")
                     if sheet.get("name") is not None and targets.get(rid) in names:
@@ -198,6 +202,9 @@ def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
     except (zipfile.BadZipFile, EOFError, zipfile.LargeZipFile) as exc:
         raise WorkbookError(f"{path} is damaged or incomplete (perhaps cut short while copying or downloading): "
                             f"{exc}; copy the file again or {_OPEN_AND_SAVE_HINT}") from exc
+    except defusedxml.DefusedXmlException as exc:
+        raise WorkbookError(f"{path}: its workbook description declares XML entities, which workbooks never need "
+                            f"({exc}); lanesolve refuses it for safety: {_OPEN_AND_SAVE_HINT} as a new .xlsx") from exc
     except ElementTree.ParseError as exc:
         raise WorkbookError(f"{path} is damaged: its workbook description cannot be read ({exc}); "
                             f"{_OPEN_AND_SAVE_HINT}") from exc
@@ -206,7 +213,7 @@ def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
 def _office_document_part(archive: zipfile.ZipFile, names: set[str]) -> str | None:
     """The workbook part named by the package's root relationships, or the usual ``xl/workbook.xml``."""
     if "_rels/.rels" in names:
-        for rel in ElementTree.fromstring(archive.read("_rels/.rels")).iter(f"{{{_PKG_REL_NS}}}Relationship"):
+        for rel in SafeElementTree.fromstring(archive.read("_rels/.rels")).iter(f"{{{_PKG_REL_NS}}}Relationship"):
             if rel.get("Type", "").endswith("/officeDocument"):
                 part = rel.get("Target", "").lstrip("/")
                 if part in names:
@@ -249,7 +256,7 @@ def _scan_bad_cells(path: Path, archive: zipfile.ZipFile, part: str) -> dict[tup
     shared_text: dict[str, str] = {}
     row_number, col_number = 0, 0
     try:
-        for event, elem in ElementTree.iterparse(io.BytesIO(data), events=("start", "end")):
+        for event, elem in SafeElementTree.iterparse(io.BytesIO(data), events=("start", "end")):
             tag = elem.tag.rsplit("}", 1)[-1]
             if event == "start":
                 if tag == "row":
@@ -293,6 +300,9 @@ def _scan_bad_cells(path: Path, archive: zipfile.ZipFile, part: str) -> dict[tup
                 elem.clear()
             elif tag == "row":
                 elem.clear()
+    except defusedxml.DefusedXmlException as exc:
+        raise WorkbookError(f"{path}: sheet part {part} declares XML entities, which workbooks never need ({exc}); "
+                            f"lanesolve refuses it for safety: {_OPEN_AND_SAVE_HINT} as a new .xlsx") from exc
     except ElementTree.ParseError as exc:
         raise WorkbookError(f"{path} is damaged: sheet part {part} is not well-formed ({exc}); "
                             f"{_OPEN_AND_SAVE_HINT}") from exc
@@ -379,4 +389,4 @@ def _unescape(text: str) -> str:
     # The five predefined XML entities plus numeric character references (XML 1.0, 4.6 and 4.1).
     if "&" not in text:
         return text
-    return ElementTree.fromstring(f"<x>{text}</x>").text or ""
+    return SafeElementTree.fromstring(f"<x>{text}</x>").text or ""
