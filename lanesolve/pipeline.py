@@ -25,6 +25,7 @@ from pathlib import Path
 from . import __version__, checks, locking, reader, report, solve, validate, writeback
 from .errors import NoPlanError, Problem, SolverError
 from .network import Network
+from .progress import ProgressCallback, no_progress
 from .result import Result, SolveStatus
 
 
@@ -88,6 +89,8 @@ def run(
     output: str | Path | None = None,
     time_limit: float | None = None,
     write: bool = True,
+    verbose: bool = False,
+    progress: ProgressCallback = no_progress,
 ) -> RunOutcome:
     """Solve a workbook end to end and write the results back.
 
@@ -101,6 +104,11 @@ def run(
         Seconds the solver may run; overrides the ``time_limit_s`` setting.
     write : bool
         When false, nothing is written (the result is only returned).
+    verbose : bool
+        Show the solver's own log (on stderr).
+    progress : callable, optional
+        Called as ``progress(stage, limit)`` when each stage starts and ``progress(None, None)`` at the end; see
+        :class:`lanesolve.progress.TerminalProgress`.
 
     Returns
     -------
@@ -120,21 +128,27 @@ def run(
     """
     path = Path(path)
     output = Path(output) if output is not None else path
-    if not write:
-        return _run_stages(path, output, time_limit, write)
-    for target in dict.fromkeys([path, output]):
-        locking.refuse_if_open(target)
-    with locking.workbook_lock(output):
-        return _run_stages(path, output, time_limit, write)
+    try:
+        if not write:
+            return _run_stages(path, output, time_limit, write, verbose, progress)
+        for target in dict.fromkeys([path, output]):
+            locking.refuse_if_open(target)
+        with locking.workbook_lock(output):
+            return _run_stages(path, output, time_limit, write, verbose, progress)
+    finally:
+        progress(None, None)
 
 
-def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool) -> RunOutcome:
+def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool, verbose: bool,
+                progress: ProgressCallback) -> RunOutcome:
     timings: dict[str, float] = {}
     tick = time.perf_counter()
+    progress("reading", None)
 
     raw = reader.read_workbook(path)
     timings["read"] = time.perf_counter() - tick
     tick = time.perf_counter()
+    progress("checking", None)
 
     network, warnings = validate.validate(raw)
     timings["validate"] = time.perf_counter() - tick
@@ -145,13 +159,16 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool)
     if reasons:
         result = checks.no_plan_result(network, reasons)
     else:
-        result = solve.solve(network, time_limit=time_limit)
+        limit = time_limit if time_limit is not None else network.settings.time_limit_s
+        progress("solving", limit)
+        result = solve.solve(network, time_limit=time_limit, msg=verbose)
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
     outcome = RunOutcome(network, result, info, warnings)
 
     if write:
         tick = time.perf_counter()
+        progress("writing results", None)
         writeback.write_results(path, output, writeback.result_sheets(network, result, info))
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()
