@@ -22,8 +22,12 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import __version__, checks, locking, reader, report, solve, validate, writeback
-from .errors import NoPlanError, Problem, SolverError
+import difflib
+
+import pandas as pd
+
+from . import __version__, checks, contract, locking, reader, report, scenarios, solve, validate, writeback
+from .errors import NoPlanError, Problem, SolverError, WorkbookError
 from .network import Network
 from .progress import ProgressCallback, no_progress
 from .result import Result, SolveStatus
@@ -49,9 +53,14 @@ class RunOutcome:
     result: Result
     info: RunInfo
     warnings: list[Problem]
+    scenario_results: dict[str, Result] = field(default_factory=dict)
+    comparison: pd.DataFrame | None = None
 
     def to_json(self) -> dict:
         doc = self.result.to_json()
+        if self.scenario_results:
+            doc["scenarios"] = [{"scenario": name, **result.to_json()}
+                                for name, result in self.scenario_results.items()]
         doc.update(
             input=self.info.input_path,
             output=self.info.output_path,
@@ -79,6 +88,51 @@ def load(path: str | Path) -> tuple[Network, list[Problem]]:
     return validate.validate(reader.read_workbook(path))
 
 
+def scenario_networks(raw: reader.RawWorkbook, network: Network,
+                      only: list[str] | None = None) -> dict[str, Network]:
+    """The network of every scenario on the workbook's Scenarios sheet (or of the ``only`` ones), by name.
+
+    Raises
+    ------
+    WorkbookError
+        The Scenarios sheet has problems, a scenario makes a value invalid, or ``only`` names an unknown scenario;
+        every problem is listed, and nothing has been solved.
+    """
+    sheet = next((s for name, s in raw.sheets.items()
+                  if contract.normalize(name) == contract.normalize(scenarios.SHEET)), None)
+    if sheet is None:
+        if only:
+            raise WorkbookError(Problem(scenarios.SHEET, None, None, None, "the workbook has no Scenarios sheet",
+                                        "add one, or leave out --scenario"))
+        return {}
+    parsed, problems = scenarios.parse_scenarios(sheet.rows)
+    by_name = {s.name: s for s in parsed}
+    for name in only or []:
+        if name not in by_name:
+            close = difflib.get_close_matches(name, list(by_name), n=1)
+            problems.append(Problem(scenarios.SHEET, None, "scenario", name, "no scenario has this name",
+                                    f"did you mean '{close[0]}'?" if close else
+                                    "known: " + ", ".join(by_name) if by_name else ""))
+    variants = {}
+    for name in (only or list(by_name)):
+        if name in by_name:
+            variants[name], found = scenarios.apply_scenario(network, by_name[name])
+            problems.extend(found)
+    if problems:
+        raise WorkbookError(problems)
+    return variants
+
+
+def _solve_one(network: Network, time_limit: float | None, verbose: bool, progress: ProgressCallback,
+               stage: str) -> Result:
+    """Run the cheap checks, then the solver when they find nothing."""
+    reasons = checks.presolve_checks(network)
+    if reasons:
+        return checks.no_plan_result(network, reasons)
+    progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
+    return solve.solve(network, time_limit=time_limit, msg=verbose)
+
+
 def summary_path_for(output: str | Path) -> Path:
     output = Path(output)
     return output.with_name(f"{output.stem}-summary.html")
@@ -91,6 +145,7 @@ def run(
     write: bool = True,
     verbose: bool = False,
     progress: ProgressCallback = no_progress,
+    scenario_names: list[str] | None = None,
 ) -> RunOutcome:
     """Solve a workbook end to end and write the results back.
 
@@ -109,6 +164,8 @@ def run(
     progress : callable, optional
         Called as ``progress(stage, limit)`` when each stage starts and ``progress(None, None)`` at the end; see
         :class:`lanesolve.progress.TerminalProgress`.
+    scenario_names : list of str, optional
+        Solve only these scenarios of the Scenarios sheet (default: every one). The baseline is always solved.
 
     Returns
     -------
@@ -130,17 +187,17 @@ def run(
     output = Path(output) if output is not None else path
     try:
         if not write:
-            return _run_stages(path, output, time_limit, write, verbose, progress)
+            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names)
         for target in dict.fromkeys([path, output]):
             locking.refuse_if_open(target)
         with locking.workbook_lock(output):
-            return _run_stages(path, output, time_limit, write, verbose, progress)
+            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names)
     finally:
         progress(None, None)
 
 
 def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool, verbose: bool,
-                progress: ProgressCallback) -> RunOutcome:
+                progress: ProgressCallback, scenario_names: list[str] | None) -> RunOutcome:
     timings: dict[str, float] = {}
     tick = time.perf_counter()
     progress("reading", None)
@@ -151,25 +208,26 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
     progress("checking", None)
 
     network, warnings = validate.validate(raw)
+    variants = scenario_networks(raw, network, scenario_names)
     timings["validate"] = time.perf_counter() - tick
     tick = time.perf_counter()
 
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), file_checksum(path))
-    reasons = checks.presolve_checks(network)
-    if reasons:
-        result = checks.no_plan_result(network, reasons)
-    else:
-        limit = time_limit if time_limit is not None else network.settings.time_limit_s
-        progress("solving", limit)
-        result = solve.solve(network, time_limit=time_limit, msg=verbose)
+    result = _solve_one(network, time_limit, verbose, progress, "solving")
+    scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}")
+                        for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
-    outcome = RunOutcome(network, result, info, warnings)
+    comparison = scenarios.compare(result, scenario_results) if scenario_results else None
+    outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison)
 
     if write:
         tick = time.perf_counter()
         progress("writing results", None)
-        writeback.write_results(path, output, writeback.result_sheets(network, result, info))
+        sheets = writeback.result_sheets(network, result, info)
+        if comparison is not None:
+            sheets.append(writeback.scenario_sheet(comparison))
+        writeback.write_results(path, output, sheets)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()
         report.write_html(summary_path_for(output), network, result, info, warnings)

@@ -258,6 +258,31 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
     return [summary, flows_sheet, nodes_sheet]
 
 
+SCENARIOS_SHEET = RESULT_PREFIX + "Scenarios"
+
+
+def frame_sheet(name: str, frame, kinds: dict[str, str]) -> ResultSheet:
+    """A result sheet holding a DataFrame as it is: its columns as headers, one row per frame row.
+
+    ``kinds`` gives the kind of each column (see :data:`KINDS`); columns not named are ``"number"`` when numeric,
+    else ``"text"``.
+    """
+    columns = [str(c) for c in frame.columns]
+    kinds = {c: kinds.get(c, "number" if frame[c].dtype.kind in "fiu" else "text") for c in columns}
+    data = [frame[c].tolist() for c in frame.columns]
+    rows = [[_plain(col[i]) for col in data] for i in range(len(frame))]
+    return ResultSheet(name, columns, rows, kinds)
+
+
+def scenario_sheet(comparison) -> ResultSheet:
+    """``"LS Scenarios"``: the baseline and every scenario side by side (the frame of
+    :func:`lanesolve.scenarios.compare`)."""
+    money = ("total_cost", "transport", "handling", "fixed_lane", "unmet_penalty", "delta_cost")
+    kinds = {**dict.fromkeys(money, "money"), "delta_pct": "percent", "unmet_units": "quantity",
+             "lanes_used": "number"}
+    return frame_sheet(SCENARIOS_SHEET, comparison, kinds)
+
+
 # ---------------------------------------------------------------------------------------------------------------
 # XML text helpers (targeted edits; no XML library round trip)
 # ---------------------------------------------------------------------------------------------------------------
