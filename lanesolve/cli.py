@@ -100,29 +100,49 @@ def check(workbook: str) -> None:
 @click.option("--time-limit", type=click.FloatRange(min=0), metavar="S",
               help="Seconds the solver may run (overrides the time_limit_s setting).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document on stdout; messages go to stderr.")
-def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool) -> None:
+@click.option("--email", "email_path", type=click.Path(dir_okay=False), metavar="PATH",
+              help="Also write the summary as a mail (.eml) to PATH: open it in a mail program, add recipients, send.")
+@click.option("--attach-workbook", is_flag=True, help="Attach the solved workbook to the --email mail.")
+@click.option("-q", "--quiet", is_flag=True, help="Print only errors; the exit code tells the outcome.")
+@click.option("-v", "--verbose", is_flag=True, help="Show the solver's log on stderr.")
+def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, email_path: str | None,
+          attach_workbook: bool, quiet: bool, verbose: bool) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from .pipeline import run
+    from .progress import TerminalProgress, no_progress
+    from .report import terminal_lines
 
+    if attach_workbook and not email_path:
+        raise click.UsageError("--attach-workbook needs --email PATH (the mail to attach the workbook to)")
+    if quiet and verbose:
+        raise click.UsageError("--quiet and --verbose cannot be used together")
+    progress = no_progress if quiet or as_json else TerminalProgress()
     try:
-        outcome = run(workbook, output=output, time_limit=time_limit)
+        try:
+            outcome = run(workbook, output=output, time_limit=time_limit, verbose=verbose, progress=progress)
+        except NoPlanError as error:
+            # The summary explains why there is no plan; the mail carries the same page.
+            if email_path and error.result is not None:
+                _write_email(email_path, error.result, attach_workbook)
+            raise
+        if email_path:
+            _write_email(email_path, outcome, attach_workbook)
     except LanesolveError as error:
         _fail(error, as_json)
-    result, settings = outcome.result, outcome.network.settings
-    _print_problems(outcome.warnings, "warning")
+    if not quiet:
+        _print_problems(outcome.warnings, "warning")
     if as_json:
         click.echo(json.dumps(outcome.to_json(), indent=2))
-    money = f" {settings.currency}" if settings.currency else ""
-    gap = f", gap {result.mip_gap:.4%}" if result.mip_gap is not None else ""
-    short = result.unmet["quantity"].sum() if len(result.unmet) else 0.0
-    lines = [
-        f"Status: {result.status.value}{gap}",
-        f"Total cost: {result.total_cost:,.2f}{money}",
-        f"Lanes used: {len(result.flows)}; customers short: {len(result.unmet)}"
-        + (f" ({short:,.2f} {settings.units})" if len(result.unmet) else ""),
-        f"Results written to {outcome.info.output_path}; summary {outcome.info.summary_path}",
-    ]
-    for message in result.messages:
-        lines.append(f"Note: {message}")
-    for line in lines:
-        _say(line, err=as_json)
+    if not quiet:
+        for line in terminal_lines(outcome.network, outcome.result, outcome.info):
+            _say(line, err=as_json)
+        if email_path:
+            _say(f"Mail written to {email_path}" + (" (solved workbook attached)" if attach_workbook else ""),
+                 err=as_json)
+
+
+def _write_email(path: str, outcome, attach_workbook: bool) -> None:
+    from .mail import write_email
+
+    write_email(path, outcome.network, outcome.result, outcome.info, outcome.warnings,
+                attach=outcome.info.output_path if attach_workbook else None)

@@ -1,7 +1,8 @@
 """Stage "report": the HTML summary a planner can read in a browser or a mail program and forward as is.
 
-The page is one self-contained file: CSS inline in the head, no scripts, no images, no remote resources, so it
-survives being attached to a mail and opened offline. It is rendered from ``templates/summary.html.j2`` (installed
+The page is one self-contained file: CSS inline in the head, charts as ``data:`` URIs of SVG drawn by
+:mod:`lanesolve.charts`, no scripts, no remote resources, so it survives being attached to a mail and opened offline.
+:mod:`lanesolve.mail` renders the same template with ``cid:`` references to PNG parts instead. It is rendered from ``templates/summary.html.j2`` (installed
 as the package :mod:`lanesolve.templates`) with autoescaping on, so names from the workbook -- a customer called
 ``<script>`` or ``=SUM(A1)`` -- appear as plain text.
 
@@ -16,10 +17,11 @@ import os
 import tempfile
 from importlib import resources
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
 import jinja2
 
+from . import charts as _charts
 from .errors import WriteError
 from .result import CAUTION, COST_COMPONENTS, Result, SolveStatus
 
@@ -222,7 +224,9 @@ def _gap_text(result: Result) -> str:
     return f"{gap * 100:.4g} %"
 
 
-def build_context(network: Network, result: Result, info: RunInfo, warnings: list) -> dict:
+def build_context(network: Network, result: Result, info: RunInfo, warnings: list,
+                  charts: list[_charts.Drawing] | None = None,
+                  image_src: Callable[[_charts.Drawing], str] | None = None) -> dict:
     """Everything the template shows, already formatted as text (the template only lays it out).
 
     Parameters
@@ -235,26 +239,37 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         Run facts; ``input_path``, ``started``, ``version`` and ``checksum`` are read.
     warnings : list
         :class:`~lanesolve.errors.Problem` objects (or strings) found while reading the workbook.
+    charts : list of Drawing, optional
+        The charts to show; by default :func:`lanesolve.charts.summary_charts`.
+    image_src : callable, optional
+        Maps a chart to its ``<img src>``; by default an SVG ``data:`` URI (the mail passes ``cid:`` references).
 
     Returns
     -------
     dict
         The template context.
     """
+    if charts is None:
+        charts = _charts.summary_charts(network, result)
+    image_src = image_src or _charts.Drawing.to_data_uri
+    figures = {chart.key: {"title": chart.title, "alt": chart.alt, "src": image_src(chart),
+                           "width": round(chart.width)} for chart in charts}
     units = network.settings.units or ""
     currency = network.settings.currency or ""
     total_demand = float(network.customers["demand"].sum()) if not network.customers.empty else 0.0
     unmet_total = float(result.unmet["quantity"].sum()) if not result.unmet.empty else 0.0
     has_plan = result.status.has_plan
-    kpis = [("Status", STATUS_TEXT.get(result.status, result.status.value))]
+    # Each KPI carries a stable id (kpi-<name>) so a browser test can read the figure back from the DOM.
+    kpis = [("Status", STATUS_TEXT.get(result.status, result.status.value), "status")]
     if has_plan:
         kpis += [
-            ("Total cost", format_money(result.total_cost, currency)),
-            ("Units delivered", format_quantity(total_demand - unmet_total, units)),
-            ("Unmet demand", format_quantity(unmet_total, units)),
-            ("Lanes used", f"{len(result.flows):,d}"),
+            ("Total cost", format_money(result.total_cost, currency), "total-cost"),
+            ("Units delivered", format_quantity(total_demand - unmet_total, units), "delivered"),
+            ("Unmet demand", format_quantity(unmet_total, units), "unmet"),
+            ("Lanes used", f"{len(result.flows):,d}", "lanes-used"),
         ]
-    kpis += [("Solve time", f"{result.solve_seconds:,.2f} s"), ("Optimality gap", _gap_text(result))]
+    kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
+             ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
     return {
         "file_name": Path(info.input_path).name,
@@ -269,6 +284,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "units": units,
         "currency": currency,
         "kpis": kpis,
+        "figures": figures,
+        "has_coordinates": "map" in figures,
         "costs": _cost_rows(result, currency) if has_plan else [],
         "total_cost": format_money(result.total_cost, currency),
         "lanes": lanes,
@@ -285,12 +302,22 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
 # --------------------------------------------------------------------------------------------- render and write
 
 
+def template_folder() -> Path:
+    """The folder holding the Jinja2 templates.
+
+    An installed lanesolve has them as the package :mod:`lanesolve.templates` (the repository's top-level
+    ``templates/``, mapped in pyproject.toml). Running from a source checkout, ``import lanesolve`` finds the
+    ``lanesolve/`` folder itself, which has no such subpackage: then the ``templates/`` folder beside it is used.
+    """
+    try:
+        return Path(str(resources.files("lanesolve.templates")))
+    except ModuleNotFoundError:
+        return Path(__file__).resolve().parent.parent / "templates"
+
+
 def _environment() -> jinja2.Environment:
-    # files() gives the installed package folder, both for `pip install -e .` (the repo's templates/) and for a
-    # normal install (site-packages/lanesolve/templates); a FileSystemLoader on it reads the .j2 file as is.
-    folder = resources.files("lanesolve.templates")
     return jinja2.Environment(
-        loader=jinja2.FileSystemLoader(str(folder)),
+        loader=jinja2.FileSystemLoader(str(template_folder())),
         autoescape=True,  # on for every template, whatever its extension: workbook names are untrusted text
         undefined=jinja2.StrictUndefined,  # a misspelt field fails loudly in tests instead of printing nothing
         trim_blocks=True,
@@ -299,7 +326,9 @@ def _environment() -> jinja2.Environment:
     )
 
 
-def render_html(network: Network, result: Result, info: RunInfo, warnings: list) -> str:
+def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
+                charts: list[_charts.Drawing] | None = None,
+                image_src: Callable[[_charts.Drawing], str] | None = None) -> str:
     """Render the HTML summary of one run.
 
     Parameters
@@ -312,11 +341,14 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list)
         Run facts (input file, run time stamp, version, checksum).
     warnings : list of Problem or str
         Warnings found while reading the workbook; listed in the page.
+    charts, image_src : optional
+        As for :func:`build_context`: which charts, and how the page refers to each (``data:`` URI by default).
 
     Returns
     -------
     str
-        A complete, self-contained HTML document (inline CSS, no scripts, no remote resources).
+        A complete, self-contained HTML document (inline CSS, charts as ``data:`` URIs, no scripts, no remote
+        resources).
 
     Examples
     --------
@@ -331,7 +363,100 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list)
     True
     """
     template = _environment().get_template(TEMPLATE_NAME)
-    return template.render(**build_context(network, result, info, warnings))
+    return template.render(**build_context(network, result, info, warnings, charts, image_src))
+
+
+def terminal_lines(network: Network, result: Result, info: RunInfo) -> list[str]:
+    """The compact summary ``lanesolve solve`` prints: status and gap, cost, lanes, shortfall, where files went.
+
+    Parameters
+    ----------
+    network, result, info
+        As for :func:`render_html`.
+
+    Returns
+    -------
+    list of str
+        One line each; notes from the solve follow as ``Note: ...`` lines.
+    """
+    units, currency = network.settings.units or "", network.settings.currency or ""
+    gap = f", gap {_gap_text(result)}" if _finite(result.mip_gap) is not None else ""
+    lines = [f"Status: {STATUS_TEXT.get(result.status, result.status.value)} ({result.status.value}){gap}"]
+    if result.status.has_plan:
+        short = float(result.unmet["quantity"].sum()) if len(result.unmet) else 0.0
+        lines += [f"Total cost: {format_money(result.total_cost, currency)}",
+                  f"Lanes used: {len(result.flows):,d}; customers short: {len(result.unmet):,d}"
+                  + (f" ({format_quantity(short, units)})" if len(result.unmet) else "")]
+    lines.append(f"Results written to {info.output_path}; summary {info.summary_path}")
+    lines += [f"Note: {message}" for message in result.messages]
+    return lines
+
+
+#: Lanes listed in the plain-text summary (the mail's text part); the HTML lists :data:`TOP_LANES`.
+TEXT_LANES = 10
+
+
+def render_text(network: Network, result: Result, info: RunInfo, warnings: list) -> str:
+    """The summary as plain text: the mail's text part, for readers that show no HTML.
+
+    It holds the same figures as the page (formatted by the same code): key figures, cost breakdown, customers
+    short, depot and hub use, the dearest lanes, messages, warnings and the caution line.
+
+    Parameters
+    ----------
+    network, result, info, warnings
+        As for :func:`render_html`.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> from lanesolve.network import make_network
+    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
+    >>> info = SimpleNamespace(input_path="plan.xlsx", started="2024-01-01T08:00:00+00:00", version="0",
+    ...                        checksum="0" * 64)
+    >>> text = render_text(net, Result(SolveStatus.INFEASIBLE, messages=["supply short by 5"]), info, [])
+    >>> print("\\n".join(text.splitlines()[:4]))
+    Lane plan: plan.xlsx
+    Run 2024-01-01T08:00:00+00:00, lanesolve 0
+    <BLANKLINE>
+    No plan was made: No feasible plan (infeasible).
+    """
+    c = build_context(network, result, info, warnings, charts=[])
+    lines = [f"Lane plan: {c['file_name']}", f"Run {c['run_at']}, lanesolve {c['version']}"
+             + (f", {c['solver']}" if c["solver"] else ""), ""]
+    if not c["has_plan"]:
+        lines += [f"No plan was made: {c['status_text']} ({c['status']}).", ""]
+    width = max(len(label) for label, _, _ in c["kpis"])
+    lines += [f"{label + ':':<{width + 1}} {value}" for label, value, _ in c["kpis"]]
+    if c["has_plan"]:
+        lines += ["", "Cost breakdown"]
+        lines += [f"  {row['label']:<30} {row['amount']:>20} {row['share']:>8}" for row in c["costs"]]
+        lines.append(f"  {'Total':<30} {c['total_cost']:>20}")
+        lines += ["", "Customers short" if c["short"] else "Every customer receives its full demand."]
+        lines += [f"  {row['customer']}: {row['quantity']} of {row['demand']} not delivered ({row['share']}), "
+                  f"penalty {row['penalty']}" for row in c["short"]]
+        nodes = [("depot", row) for row in c["depots"]] + [("hub", row) for row in c["hubs"]]
+        if nodes:
+            lines += ["", "Depot and hub utilisation"]
+            lines += [f"  {row['node']} ({kind}): {row['used']} of {row['limit']}"
+                      + (f", {row['utilisation']}" if row["has_limit"] else "") for kind, row in nodes]
+        if c["lanes"]:
+            shown = c["lanes"][:TEXT_LANES]
+            rest = len(c["lanes"]) - len(shown) + c["more_lanes"]
+            lines += ["", f"Dearest lanes ({len(shown)} of {len(shown) + rest})"]
+            lines += [f"  {lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
+                      + f": {lane['flow']}, {lane['total_cost']}" for lane in shown]
+    if c["messages"]:
+        lines += ["", "Messages" if c["has_plan"] else "Reasons"] + [f"  - {m}" for m in c["messages"]]
+    if c["warnings"]:
+        lines += ["", "Warnings from reading the workbook"] + [f"  - {w}" for w in c["warnings"]]
+    lines += ["", f"Caution. {c['caution']}", ""]
+    return "\n".join(lines)
 
 
 def write_html(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list) -> None:

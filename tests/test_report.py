@@ -118,14 +118,28 @@ def test_names_from_the_workbook_are_escaped(network, result):
 
 
 def test_page_is_self_contained(network, result):
+    import base64
+    import xml.etree.ElementTree as ET
+
     page = report.render_html(network, result, make_info(), ["Lanes row 3, column capacity: number stored as text"])
     parsed = parse(page)
     assert "http" not in page.lower()
     assert "@import" not in page and "url(" not in page
-    for tag in ("script", "img", "link", "iframe", "object"):
+    for tag in ("script", "link", "iframe", "object", "embed", "svg"):
         assert tag not in parsed.tags, tag
-    # No attribute points anywhere (href/src), so nothing is fetched when the mail is opened.
-    assert not [name for name, _ in parsed.attrs if name in ("href", "src")]
+    # No link anywhere, and every image is a data: URI, so nothing is fetched when the page or mail is opened.
+    assert not [name for name, _ in parsed.attrs if name == "href"]
+    sources = [value for name, value in parsed.attrs if name == "src"]
+    assert len(sources) == parsed.tags.count("img") == 2  # cost breakdown and utilisation; no coordinates, no map
+    prefix = "data:image/svg+xml;base64,"
+    for src in sources:
+        assert src.startswith(prefix)
+        # Each chart is well-formed SVG (parsed by the standard library) with no script and no reference out.
+        root = ET.fromstring(base64.b64decode(src[len(prefix):]))
+        assert root.tag == "{http://www.w3.org/2000/svg}svg"
+        for element in root.iter():
+            assert not element.tag.endswith(("script", "image", "foreignObject", "use", "a")), element.tag
+            assert not [k for k in element.attrib if k.endswith("href")]
 
 
 def test_caution_line_present(network, result):

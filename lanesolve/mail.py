@@ -1,0 +1,152 @@
+"""The summary as a ready-to-send mail: an ``.eml`` file a mail program opens as a message.
+
+Structure (MIME)::
+
+    multipart/mixed                      only when the solved workbook is attached
+      multipart/alternative
+        text/plain                       the key figures and tables as text, for text-only readers
+        multipart/related
+          text/html                      the summary page, charts referenced as cid:...
+          image/png  (one per chart)     Content-ID matching each cid: reference, inline
+      application/vnd...sheet            the solved workbook (``--attach-workbook``)
+
+This nesting -- related inside alternative -- is the one the Python standard library's email examples build and
+the one common mail programs write themselves (recalled from memory). Charts are PNG here, not SVG as in the HTML
+file, because mail programs do not show SVG reliably (common practice).
+
+The message has a Subject and a Date but no From or To: the planner fills in the recipients in the mail program.
+The ``X-Unsent: 1`` header makes some mail programs open the file as a draft ready to send rather than as a received
+message (common practice, recalled from memory; programs that do not know it simply ignore it).
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from email import policy
+from email.message import EmailMessage
+from email.utils import formatdate, make_msgid
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from . import charts as _charts
+from . import report
+from .errors import WriteError
+from .result import Result
+
+if TYPE_CHECKING:
+    from .network import Network
+    from .pipeline import RunInfo
+
+#: Content types of the workbooks lanesolve writes (Office Open XML; .xlsm keeps its macros and says so).
+WORKBOOK_TYPES = {
+    ".xlsx": ("application", "vnd.openxmlformats-officedocument.spreadsheetml.sheet"),
+    ".xlsm": ("application", "vnd.ms-excel.sheet.macroEnabled.12"),
+}
+
+#: Domain part of the Content-IDs: a name of our own under the reserved .invalid top-level domain (RFC 2606), so
+#: the machine's host name never ends up in a mail.
+CID_DOMAIN = "lanesolve.invalid"
+
+#: Lines end in CR LF in the file, as on the wire (RFC 5322), which is what mail programs expect of an .eml.
+EML_POLICY = policy.default.clone(linesep="\r\n")
+
+
+def subject_for(network: Network, result: Result, info: RunInfo) -> str:
+    """The Subject: the workbook's name, the status and, with a plan, the total cost.
+
+    >>> from types import SimpleNamespace
+    >>> from lanesolve.network import Settings, make_network
+    >>> from lanesolve.result import SolveStatus
+    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}], settings=Settings(currency="EUR"))
+    >>> subject_for(net, Result(SolveStatus.OPTIMAL, total_cost=10.0), SimpleNamespace(input_path="x/week 12.xlsx"))
+    'Lane plan week 12.xlsx: Optimal plan, total cost 10.00 EUR'
+    """
+    status = report.STATUS_TEXT.get(result.status, result.status.value)
+    text = f"Lane plan {Path(info.input_path).name}: {status}"
+    if result.status.has_plan:
+        text += f", total cost {report.format_money(result.total_cost, network.settings.currency or '')}"
+    return text
+
+
+def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
+                attach: str | os.PathLike | None = None) -> EmailMessage:
+    """Build the summary mail: HTML with inline PNG charts, a plain-text alternative, the workbook if asked.
+
+    Parameters
+    ----------
+    network, result, info, warnings
+        As for :func:`lanesolve.report.render_html`.
+    attach : path-like, optional
+        A file to attach, normally the solved workbook (``info.output_path``).
+
+    Returns
+    -------
+    email.message.EmailMessage
+
+    Raises
+    ------
+    WriteError
+        The file to attach cannot be read.
+    """
+    drawings = _charts.summary_charts(network, result)
+    cids = {chart.key: make_msgid(idstring=chart.key, domain=CID_DOMAIN) for chart in drawings}
+    html = report.render_html(network, result, info, warnings, charts=drawings,
+                              image_src=lambda chart: "cid:" + cids[chart.key][1:-1])
+
+    message = EmailMessage(policy=EML_POLICY)
+    message["Subject"] = subject_for(network, result, info)
+    message["Date"] = formatdate(localtime=True)
+    message["X-Unsent"] = "1"
+    message.set_content(report.render_text(network, result, info, warnings))
+    message.add_alternative(html, subtype="html")
+    html_part = message.get_payload()[1]
+    for chart in drawings:
+        html_part.add_related(chart.to_png(), maintype="image", subtype="png", cid=cids[chart.key],
+                              filename=f"{chart.key}.png", disposition="inline")
+    if attach is not None:
+        attach = Path(attach)
+        try:
+            data = attach.read_bytes()
+        except OSError as exc:
+            raise WriteError(f"Could not read {attach} to attach it to the mail: {exc.strerror or exc} "
+                             f"(check that the solved workbook was written)") from exc
+        maintype, subtype = WORKBOOK_TYPES.get(attach.suffix.lower(), ("application", "octet-stream"))
+        message.add_attachment(data, maintype=maintype, subtype=subtype, filename=attach.name)
+    return message
+
+
+def write_email(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list,
+                attach: str | os.PathLike | None = None) -> None:
+    """Write the summary mail to ``path`` (an ``.eml`` file) atomically.
+
+    Parameters
+    ----------
+    path : path-like
+        Where the mail goes; open it in a mail program, add the recipients and send.
+    network, result, info, warnings, attach
+        As for :func:`build_email`.
+
+    Raises
+    ------
+    WriteError
+        The attachment cannot be read, or the file cannot be written (missing folder, no permission).
+    """
+    path = Path(path)
+    data = build_email(network, result, info, warnings, attach).as_bytes()
+    tmp_name = None
+    try:
+        with tempfile.NamedTemporaryFile("wb", dir=path.parent, prefix=f".{path.stem}-", suffix=".tmp",
+                                         delete=False) as handle:
+            tmp_name = handle.name
+            handle.write(data)
+        os.replace(tmp_name, path)
+    except OSError as exc:
+        if tmp_name is not None:
+            try:
+                os.unlink(tmp_name)
+            except OSError:
+                pass
+        raise WriteError(f"Could not write the mail {path}: {exc.strerror or exc} (check that the folder exists "
+                         f"and that you may write there)") from exc
