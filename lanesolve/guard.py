@@ -111,3 +111,61 @@ def _declares_entities(archive: zipfile.ZipFile, info: zipfile.ZipInfo) -> bool:
     if head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
         return bool(_DECLARATION_TEXT.search(head.decode("utf-16", "replace")))
     return bool(_DECLARATION.search(head))
+
+
+#: Workbook kinds lanesolve can write result sheets into (the zip-level writer edits SpreadsheetML parts).
+WRITABLE_SUFFIXES = (".xlsx", ".xlsm")
+
+
+def check_write_target(source: str | Path, target: str | Path) -> None:
+    """Refuse, before any solving, a write-back the zip-level writer cannot do.
+
+    The reader takes .xls, .xlsb and .ods workbooks (python-calamine reads their values), but results can only be
+    written into SpreadsheetML packages (.xlsx, .xlsm): the writer adds sheets to the package, keeping every other
+    part byte for byte, and has no way to extend a binary or OpenDocument file.
+
+    Parameters
+    ----------
+    source : path-like
+        The workbook read.
+    target : path-like
+        Where the results would be written (``source`` itself, or ``--output``).
+
+    Raises
+    ------
+    WriteError
+        The source is not an .xlsx/.xlsm package, or the target's name does not end in .xlsx or .xlsm.
+
+    Examples
+    --------
+    >>> check_write_target("plan.ods", "plan.ods")
+    Traceback (most recent call last):
+    ...
+    lanesolve.errors.WriteError: plan.ods is an OpenDocument (.ods) workbook: lanesolve reads it, but writes \
+result sheets only into .xlsx or .xlsm workbooks, so nothing was written; save it as .xlsx in a spreadsheet \
+program and run on that copy ('lanesolve check' validates it without writing)
+    """
+    from .errors import WriteError
+
+    source, target = Path(source), Path(target)
+    kind = _KIND_NAMES.get(source.suffix.lower())
+    if kind is None and source.suffix.lower() not in WRITABLE_SUFFIXES:
+        kind = f"{source.suffix or 'unnamed'} file"
+    if kind is None and source.is_file() and not zipfile.is_zipfile(source):
+        kind = "binary (not a zip-based .xlsx)"
+    if kind is not None:
+        raise WriteError(f"{source.name} is {_article(kind)} {kind} workbook: lanesolve reads it, but writes result "
+                         f"sheets only into .xlsx or .xlsm workbooks, so nothing was written; save it as .xlsx in a "
+                         f"spreadsheet program and run on that copy ('lanesolve check' validates it without "
+                         f"writing)")
+    if target.suffix.lower() not in WRITABLE_SUFFIXES:
+        raise WriteError(f"cannot write results to {target.name}: the output must be an .xlsx or .xlsm file "
+                         f"(nothing was written); choose a name ending in {source.suffix.lower() or '.xlsx'}")
+
+
+_KIND_NAMES = {".xls": "Excel 97-2003 (.xls)", ".xlsb": "Excel binary (.xlsb)", ".ods": "OpenDocument (.ods)",
+               ".xla": "Excel add-in (.xla)", ".xlam": "Excel add-in (.xlam)"}
+
+
+def _article(kind: str) -> str:
+    return "an" if kind[:1].lower() in "aeiou" or kind.startswith(("Excel", "OpenDocument", ".x")) else "a"

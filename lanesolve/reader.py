@@ -174,7 +174,8 @@ class _maybe_zip:
 def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
     """Map sheet name -> zip member of its XML, from the package relationships (ECMA-376 Part 1, 12.3.23).
 
-    An OpenDocument file (also a zip) gives an empty map: calamine reads it, but its cells are not scanned.
+    An OpenDocument file and an .xlsb file (also zips) give an empty map: calamine reads them, but their cells are not
+    scanned.
     """
     try:
         with zipfile.ZipFile(path) as archive:
@@ -185,6 +186,8 @@ def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
             if workbook_part is None:
                 raise WorkbookError(f"{path} is a zip archive but holds no workbook; open it in a spreadsheet "
                                     f"program and save it as .xlsx")
+            if not workbook_part.lower().endswith(".xml"):
+                return {}  # .xlsb: a binary workbook part; calamine reads it, its cells are not scanned
             rels_part = posixpath.join(posixpath.dirname(workbook_part), "_rels",
                                        posixpath.basename(workbook_part) + ".rels")
             targets: dict[str, str] = {}
