@@ -49,7 +49,10 @@ WORKBOOK_TYPES = {
 CID_DOMAIN = "lanesolve.invalid"
 
 #: Lines end in CR LF in the file, as on the wire (RFC 5322), which is what mail programs expect of an .eml.
-EML_POLICY = policy.default.clone(linesep="\r\n")
+#: Lines may run to RFC 5322's hard limit of 998 characters: the standard library otherwise folds a Subject of a
+#: little over 78 characters onto a continuation line (a leading space some programs then show) and wraps the
+#: text part's table rows in quoted-printable.
+EML_POLICY = policy.default.clone(linesep="\r\n", max_line_length=998)
 
 
 def subject_for(network: Network, result: Result, info: RunInfo) -> str:
