@@ -105,8 +105,10 @@ def check(workbook: str) -> None:
 @click.option("--attach-workbook", is_flag=True, help="Attach the solved workbook to the --email mail.")
 @click.option("-q", "--quiet", is_flag=True, help="Print only errors; the exit code tells the outcome.")
 @click.option("-v", "--verbose", is_flag=True, help="Show the solver's log on stderr.")
+@click.option("--scenario", "scenario_names", multiple=True, metavar="NAME",
+              help="Solve only this scenario of the Scenarios sheet beside the baseline (repeatable; default: all).")
 def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, email_path: str | None,
-          attach_workbook: bool, quiet: bool, verbose: bool) -> None:
+          attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...]) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from .pipeline import run
     from .progress import TerminalProgress, no_progress
@@ -119,7 +121,8 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     progress = no_progress if quiet or as_json else TerminalProgress()
     try:
         try:
-            outcome = run(workbook, output=output, time_limit=time_limit, verbose=verbose, progress=progress)
+            outcome = run(workbook, output=output, time_limit=time_limit, verbose=verbose, progress=progress,
+                          scenario_names=list(scenario_names) or None)
         except NoPlanError as error:
             # The summary explains why there is no plan; the mail carries the same page.
             if email_path and error.result is not None:
@@ -146,3 +149,35 @@ def _write_email(path: str, outcome, attach_workbook: bool) -> None:
 
     write_email(path, outcome.network, outcome.result, outcome.info, outcome.warnings,
                 attach=outcome.info.output_path if attach_workbook else None)
+
+
+@main.command()
+@click.argument("paths", nargs=-1, required=True, type=click.Path(exists=True, dir_okay=False))
+@click.option("-w", "--workers", type=click.IntRange(min=1), default=1, show_default=True,
+              help="Workbooks solved at once, each in its own process.")
+@click.option("--dask", "dask_address", metavar="ADDRESS",
+              help="Run on this Dask scheduler (tcp://host:8786) instead of local processes.")
+@click.option("--time-limit", type=click.FloatRange(min=0), metavar="S",
+              help="Seconds the solver may run on each workbook (overrides their time_limit_s settings).")
+@click.option("--summary", "summary_csv", type=click.Path(dir_okay=False), default="batch-summary.csv",
+              show_default=True, help="Write the batch summary as CSV here (a .json beside it holds the same).")
+@click.option("--json", "as_json", is_flag=True, help="Print the batch summary as JSON on stdout.")
+def batch(paths: tuple[str, ...], workers: int, dask_address: str | None, time_limit: float | None,
+          summary_csv: str, as_json: bool) -> None:
+    """Solve many workbooks (each with its scenarios), writing each one's results as solve does."""
+    from pathlib import Path
+
+    from .batch import run_batch
+
+    try:
+        report = run_batch(paths, workers=workers, dask_address=dask_address, progress=not as_json,
+                           time_limit=time_limit)
+    except LanesolveError as error:
+        _fail(error, as_json)
+    report.to_csv(summary_csv)
+    Path(summary_csv).with_suffix(".json").write_text(json.dumps(report.to_json(), indent=2), encoding="utf-8")
+    _say(report.table(), err=as_json)
+    _say(f"Batch summary written to {summary_csv}", err=as_json)
+    if as_json:
+        click.echo(json.dumps(report.to_json(), indent=2))
+    sys.exit(report.exit_code)

@@ -1,6 +1,7 @@
 """The command line: exit codes, --json, write-back through the CLI, and no tracebacks on bad input."""
 
 import json
+import pathlib
 
 import openpyxl
 import pytest
@@ -125,3 +126,35 @@ def test_template_command_writes_a_workbook(tmp_path):
     names = openpyxl.load_workbook(path).sheetnames
     for sheet in ("Depots", "Customers", "Hubs", "Lanes", "Settings"):
         assert sheet in names
+
+
+def test_batch_solves_every_workbook_and_reports_the_broken_one(small, tmp_path):
+    good2 = _workbook(tmp_path / "second.xlsx", [["D1", 10]], [["C1", 4, None]], [["D1", "C1", 2.5, None]])
+    broken = _workbook(tmp_path / "broken.xlsx", [["D1", "many"]], [["C1", 4, None]], [["D1", "C1", 1, None]])
+    summary = tmp_path / "batch.csv"
+    result = CliRunner().invoke(main, ["batch", str(small), str(good2), str(broken), "--summary", str(summary),
+                                       "--json"])
+    assert result.exit_code == 1  # the broken workbook's input error sets the batch's exit code
+    doc = json.loads(result.stdout)
+    status = {pathlib.Path(r["path"]).name: r["status"] for r in doc["runs"]}
+    assert status == {"small.xlsx": "optimal", "second.xlsx": "optimal", "broken.xlsx": "input_error"}
+    costs = {pathlib.Path(r["path"]).name: r["total_cost"] for r in doc["runs"]}
+    assert costs["second.xlsx"] == pytest.approx(10.0, rel=1e-9)  # 4 units at 2.5, by hand
+    assert summary.exists() and summary.with_suffix(".json").exists()
+    assert any(n.startswith("LS ") for n in openpyxl.load_workbook(good2).sheetnames)
+
+
+def test_solve_one_named_scenario(tmp_path):
+    path = _workbook(tmp_path / "whatif.xlsx", [["D1", 20]], [["C1", 10, None]], [["D1", "C1", 1, None]])
+    book = openpyxl.load_workbook(path)
+    sheet = book.create_sheet("Scenarios")
+    for row in (["scenario", "sheet", "match", "column", "change", "value"],
+                ["double", "Customers", "C1", "demand", "scale", 2],
+                ["dearer", "Lanes", "D1>C1", "cost_per_unit", "add", 1]):
+        sheet.append(row)
+    book.save(path)
+    result = CliRunner().invoke(main, ["solve", str(path), "--json", "--scenario", "dearer"])
+    assert result.exit_code == 0, result.output
+    doc = json.loads(result.stdout)
+    assert [s["scenario"] for s in doc["scenarios"]] == ["dearer"]
+    assert doc["scenarios"][0]["total_cost"] == pytest.approx(20.0, rel=1e-9)  # 10 units at 1 + 1, by hand
