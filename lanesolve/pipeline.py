@@ -26,7 +26,7 @@ import difflib
 
 import pandas as pd
 
-from . import __version__, checks, contract, locking, reader, report, scenarios, solve, validate, writeback
+from . import __version__, checks, contract, guard, locking, reader, report, scenarios, solve, validate, writeback
 from .errors import NoPlanError, Problem, SolverError, WorkbookError
 from .network import Network
 from .progress import ProgressCallback, no_progress
@@ -188,6 +188,7 @@ def run(
     try:
         if not write:
             return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names)
+        guard.check_write_target(path, output)
         for target in dict.fromkeys([path, output]):
             locking.refuse_if_open(target)
         with locking.workbook_lock(output):

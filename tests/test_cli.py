@@ -158,3 +158,17 @@ def test_solve_one_named_scenario(tmp_path):
     doc = json.loads(result.stdout)
     assert [s["scenario"] for s in doc["scenarios"]] == ["dearer"]
     assert doc["scenarios"][0]["total_cost"] == pytest.approx(20.0, rel=1e-9)  # 10 units at 1 + 1, by hand
+
+
+def test_ods_workbook_is_refused_before_solving_with_a_clear_message(tmp_path, monkeypatch):
+    import lanesolve.solve
+
+    def no_solver(*args, **kwargs):
+        raise AssertionError("the solver must not run before the write target is checked")
+
+    monkeypatch.setattr(lanesolve.solve, "solve", no_solver)
+    path = tmp_path / "plan.ods"
+    path.write_bytes(b"PK\x03\x04 not really opendocument")
+    result = CliRunner().invoke(main, ["solve", str(path)])
+    assert result.exit_code == 1
+    assert "save it as .xlsx" in result.output
