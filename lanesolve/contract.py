@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-CONTRACT_VERSION = 1
+CONTRACT_VERSION = 2
 
 #: Kinds of column value.
 ID, NUMBER, FLAG, TEXT, CHOICE = "id", "number", "flag", "text", "choice"
@@ -61,6 +61,22 @@ class Setting:
     choices: tuple[str, ...] = field(default_factory=tuple)
 
 
+#: Node statuses (Depots and Hubs ``status`` column). Blank means ``decide`` when a fixed cost is given, else ``open``.
+NODE_STATUSES = ("open", "closed", "decide")
+
+
+def _node_design(kind: str) -> tuple[Column, ...]:
+    """The v2 design columns shared by Depots and Hubs: a fixed charge for using the node and its status."""
+    return (
+        Column("fixed_cost", NUMBER, default=0.0, minimum=0, unit="currency",
+               doc=f"Charged once if the {kind} carries any flow in the period (rent, staff). With status decide, "
+                   f"lanesolve weighs it against the savings of using the {kind}. Blank means 0."),
+        Column("status", CHOICE, choices=NODE_STATUSES,
+               doc=f"open (may be used), closed (carries no flow) or decide (lanesolve chooses whether to use the "
+                   f"{kind}). Blank means decide when a fixed cost is given, else open."),
+    )
+
+
 _COORDS = (
     Column("latitude", NUMBER, minimum=-90, maximum=90, unit="degrees", doc="Decimal degrees north (negative for south). Used for the map."),
     Column("longitude", NUMBER, minimum=-180, maximum=180, unit="degrees", doc="Decimal degrees east (negative for west). Used for the map."),
@@ -77,6 +93,7 @@ DEPOTS = Sheet(
                doc="Most the depot can ship in the period. Net outflow (shipped minus received) is at most this."),
         Column("handling_cost", NUMBER, default=0.0, minimum=0, unit="currency per unit",
                doc="Cost per unit shipped out of the depot (picking, loading). Blank means 0."),
+        *_node_design("depot"),
         *_COORDS,
     ),
 )
@@ -93,6 +110,9 @@ CUSTOMERS = Sheet(
         Column("unmet_penalty", NUMBER, minimum=0, unit="currency per unit",
                doc="Cost per unit not delivered. Blank takes the Settings default; with no penalty anywhere the "
                    "demand is a hard requirement."),
+        Column("single_source", FLAG,
+               doc="yes: the customer is served by exactly one inbound lane; no: any mix. Blank takes the Settings "
+                   "single_source (default no)."),
         *_COORDS,
     ),
 )
@@ -108,6 +128,7 @@ HUBS = Sheet(
                doc="Most units that can pass through the hub in the period. Blank means no limit."),
         Column("handling_cost", NUMBER, default=0.0, minimum=0, unit="currency per unit",
                doc="Cost per unit passing through the hub. Blank means 0."),
+        *_node_design("hub"),
         *_COORDS,
     ),
 )
@@ -127,6 +148,14 @@ LANES = Sheet(
                doc="Most units the lane can carry in the period. Blank means no limit."),
         Column("fixed_cost", NUMBER, default=0.0, minimum=0, unit="currency",
                doc="Charged once if the lane carries any flow; makes using the lane a yes/no decision."),
+        Column("min_volume", NUMBER, default=0.0, minimum=0, unit="units",
+               doc="If the lane is used, it carries at least this much (a carrier's minimum). Blank means 0."),
+        Column("trip_capacity", NUMBER, minimum=0, unit="units per trip",
+               doc="Units one truck (trip) carries. With it the lane runs in whole trips: flow at most trip_capacity "
+                   "times trips. Blank means the lane is not counted in trips."),
+        Column("cost_per_trip", NUMBER, default=0.0, minimum=0, unit="currency per trip",
+               doc="Cost of each whole trip, on top of cost_per_unit (which may be 0). Needs trip_capacity. Blank "
+                   "means 0."),
         Column("active", FLAG, default=True,
                doc="yes or no (blank means yes). Lanes marked no are left out of the plan but still reported."),
     ),
@@ -150,6 +179,16 @@ SETTINGS_ROWS = (
             doc="Longest the solver may run; the command line option --time-limit overrides it."),
     Setting("mip_gap", NUMBER, 1e-4, minimum=0, unit="fraction",
             doc="Relative optimality gap at which a plan with yes/no decisions is accepted (0.0001 = 0.01 %)."),
+    Setting("max_open_depots", NUMBER, None, minimum=0, unit="depots",
+            doc="Most depots the plan may use (status open or decide). Blank means no limit."),
+    Setting("max_open_hubs", NUMBER, None, minimum=0, unit="hubs",
+            doc="Most hubs the plan may use (status open or decide). Blank means no limit."),
+    Setting("single_source", FLAG, False,
+            doc="yes or no (default no): whether customers whose own single_source is blank are served by exactly "
+                "one inbound lane."),
+    Setting("solver", CHOICE, "cbc", choices=("cbc", "highs"),
+            doc="cbc (default, bundled with PuLP) or highs (needs the optional highspy package: "
+                "pip install \"lanesolve[highs]\"). The command line option --solver overrides it."),
     Setting("units", TEXT, "units", doc="Label for quantities in the results (pallets, tonnes, cases)."),
     Setting("currency", TEXT, "", doc="Label for money in the results (EUR, USD)."),
 )

@@ -4,10 +4,16 @@ A :class:`Network` holds one pandas DataFrame per node kind and one for lanes, w
 nothing else. Missing optional values are already filled with their defaults; "no limit" is ``math.inf``; a hard
 demand has ``unmet_penalty`` NaN. ``row`` is the spreadsheet row the record came from (for messages).
 
-depots     id, supply, handling_cost, latitude, longitude, row
-customers  id, demand, unmet_penalty, latitude, longitude, row
-hubs       id, capacity, handling_cost, latitude, longitude, row
-lanes      origin, destination, mode, cost_per_unit, capacity, fixed_cost, active, row
+depots     id, supply, handling_cost, fixed_cost, status, latitude, longitude, row
+customers  id, demand, unmet_penalty, single_source, latitude, longitude, row
+hubs       id, capacity, handling_cost, fixed_cost, status, latitude, longitude, row
+lanes      origin, destination, mode, cost_per_unit, capacity, fixed_cost, min_volume, trip_capacity, cost_per_trip,
+           active, row
+
+Contract v2 columns, resolved: ``status`` is ``"open"``, ``"closed"`` or ``"decide"`` (a blank status is already
+``decide`` when the node has a fixed cost, else ``open``); ``single_source`` is a bool (a blank one already takes
+the Settings default); ``trip_capacity`` is NaN when the lane is not run in whole trips; ``min_volume`` and
+``cost_per_trip`` are 0 when not given.
 
 Every frame uses a default RangeIndex. Ids are unique across the three node frames.
 """
@@ -17,12 +23,24 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
-DEPOT_COLUMNS = ["id", "supply", "handling_cost", "latitude", "longitude", "row"]
-CUSTOMER_COLUMNS = ["id", "demand", "unmet_penalty", "latitude", "longitude", "row"]
-HUB_COLUMNS = ["id", "capacity", "handling_cost", "latitude", "longitude", "row"]
-LANE_COLUMNS = ["origin", "destination", "mode", "cost_per_unit", "capacity", "fixed_cost", "active", "row"]
+DEPOT_COLUMNS = ["id", "supply", "handling_cost", "fixed_cost", "status", "latitude", "longitude", "row"]
+CUSTOMER_COLUMNS = ["id", "demand", "unmet_penalty", "single_source", "latitude", "longitude", "row"]
+HUB_COLUMNS = ["id", "capacity", "handling_cost", "fixed_cost", "status", "latitude", "longitude", "row"]
+LANE_COLUMNS = ["origin", "destination", "mode", "cost_per_unit", "capacity", "fixed_cost", "min_volume",
+                "trip_capacity", "cost_per_trip", "active", "row"]
+#: Columns holding text (everything else is a number, except the bool ``active`` / ``single_source`` and ``row``).
+TEXT_COLUMNS = frozenset({"id", "origin", "destination", "mode", "status"})
+BOOL_COLUMNS = frozenset({"active", "single_source"})
+
+
+def resolve_status(status: pd.Series, fixed_cost: pd.Series) -> pd.Series:
+    """Node status with blanks resolved: ``decide`` when the node has a fixed cost, else ``open`` (contract v2)."""
+    text = status.where(status.notna(), "").astype(str).str.strip().str.lower()
+    blank = text.isin(["", "nan", "none"])
+    return text.where(~blank, np.where(fixed_cost.to_numpy(dtype=float) > 0, "decide", "open")).astype(object)
 
 
 @dataclass
@@ -34,6 +52,10 @@ class Settings:
     mip_gap: float = 1e-4
     units: str = "units"
     currency: str = ""
+    max_open_depots: float | None = None
+    max_open_hubs: float | None = None
+    single_source: bool = False
+    solver: str = "cbc"
 
 
 @dataclass
@@ -64,6 +86,17 @@ class Network:
         """True when any active lane carries a fixed charge (the model then needs yes/no variables)."""
         return bool((self.active_lanes["fixed_cost"] > 0).any())
 
+    @property
+    def has_design(self) -> bool:
+        """True when any contract v2 decision is present: a node to open or close, a fixed node charge, a minimum
+        lane volume, whole trips, single sourcing or a limit on open nodes (the model then adds their rows)."""
+        lanes = self.active_lanes
+        nodes = pd.concat([self.depots[["fixed_cost", "status"]], self.hubs[["fixed_cost", "status"]]])
+        return bool((nodes["status"] != "open").any() or (nodes["fixed_cost"] > 0).any()
+                    or (lanes["min_volume"] > 0).any() or lanes["trip_capacity"].notna().any()
+                    or self.customers["single_source"].any()
+                    or self.settings.max_open_depots is not None or self.settings.max_open_hubs is not None)
+
 
 def make_network(
     depots: list[dict] | pd.DataFrame,
@@ -86,11 +119,15 @@ def make_network(
     inf
     """
     defaults = {
-        "depots": {"handling_cost": 0.0, "latitude": math.nan, "longitude": math.nan},
-        "customers": {"unmet_penalty": math.nan, "latitude": math.nan, "longitude": math.nan},
-        "hubs": {"capacity": math.inf, "handling_cost": 0.0, "latitude": math.nan, "longitude": math.nan},
-        "lanes": {"mode": "", "capacity": math.inf, "fixed_cost": 0.0, "active": True},
+        "depots": {"handling_cost": 0.0, "fixed_cost": 0.0, "status": "", "latitude": math.nan,
+                   "longitude": math.nan},
+        "customers": {"unmet_penalty": math.nan, "single_source": None, "latitude": math.nan, "longitude": math.nan},
+        "hubs": {"capacity": math.inf, "handling_cost": 0.0, "fixed_cost": 0.0, "status": "", "latitude": math.nan,
+                 "longitude": math.nan},
+        "lanes": {"mode": "", "capacity": math.inf, "fixed_cost": 0.0, "min_volume": 0.0, "trip_capacity": math.nan,
+                  "cost_per_trip": 0.0, "active": True},
     }
+    settings = settings or Settings()
     columns = {"depots": DEPOT_COLUMNS, "customers": CUSTOMER_COLUMNS, "hubs": HUB_COLUMNS, "lanes": LANE_COLUMNS}
 
     def frame(name: str, records) -> pd.DataFrame:
@@ -101,13 +138,18 @@ def make_network(
                     df[col] = range(2, len(df) + 2)
             elif col not in df:
                 df[col] = defaults[name].get(col, math.nan)
-            elif col in defaults[name]:
+            elif col in defaults[name] and defaults[name][col] is not None:
                 df[col] = df[col].where(df[col].notna(), defaults[name][col])
         df = df[columns[name]].reset_index(drop=True)
         for col in columns[name]:
-            if col in ("id", "origin", "destination", "mode"):
+            if col == "status":
+                df[col] = resolve_status(df[col], df["fixed_cost"].astype(float))
+            elif col in TEXT_COLUMNS:
                 df[col] = df[col].astype(str)
-            elif col == "active":
+            elif col == "single_source":
+                df[col] = df[col].map(lambda v: bool(settings.single_source) if v is None or v != v
+                                      else bool(v)).astype(bool)
+            elif col in BOOL_COLUMNS:
                 df[col] = df[col].astype(bool)
             elif col == "row":
                 df[col] = df[col].astype(int)
@@ -120,5 +162,5 @@ def make_network(
         customers=frame("customers", customers),
         hubs=frame("hubs", hubs),
         lanes=frame("lanes", lanes),
-        settings=settings or Settings(),
+        settings=settings,
     )

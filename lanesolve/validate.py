@@ -33,9 +33,10 @@ import numpy as np
 import pandas as pd
 
 from . import contract
-from .contract import FLAG, ID, NUMBER, TEXT, Column, Sheet
+from .contract import CHOICE, FLAG, ID, NUMBER, TEXT, Column, Sheet
 from .errors import Problem, WorkbookError
-from .network import CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS, Network, Settings
+from .network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS, TEXT_COLUMNS, Network,
+                      Settings, resolve_status)
 from .reader import RawSheet, RawWorkbook
 
 _NETWORK_COLUMNS = {
@@ -100,6 +101,7 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     settings = _read_settings(matched.get(contract.SETTINGS.name), found)
     node_ids = _check_node_ids(tables, found)
     _check_lanes(tables[contract.LANES.name], node_ids, found)
+    _check_lane_design(tables[contract.LANES.name], found)
 
     errors = found.sorted("error")
     warnings = found.sorted("warning")
@@ -343,6 +345,8 @@ class _ColumnParser:
             values = self._number(raw, masks, invalid)
         elif kind == FLAG:
             values = self._flag(raw, masks, invalid)
+        elif kind == CHOICE:
+            values = self._choice(raw, masks, invalid)
         else:
             values = self._text(raw, masks)
         return values, invalid
@@ -444,14 +448,37 @@ class _ColumnParser:
         numbers_as_words = _number_text(raw[masks["number"]]) if masks["number"].any() else None
         if numbers_as_words is not None:
             words[masks["number"]] = numbers_as_words
-        values = pd.Series(bool(col.default) if col.default is not None else True, index=raw.index, dtype=bool)
+        if col.default is None:
+            # Contract v2 flags whose blank takes a Settings default (single_source): blank stays None here.
+            values = pd.Series(None, index=raw.index, dtype=object)
+        else:
+            values = pd.Series(bool(col.default), index=raw.index, dtype=bool)
         yes = words.isin(contract.YES) | (masks["bool"] & raw.eq(True))
         no = words.isin(contract.NO) | (masks["bool"] & raw.eq(False))
         values[yes & ~masks["blank"]] = True
         values[no & ~masks["blank"]] = False
         wrong = (~(yes | no | masks["blank"]) & ~pd.Series(invalid, index=raw.index)).to_numpy()
+        blank_means = ("the Settings default" if col.default is None else "yes" if col.default else "no")
         self.report(wrong, raw, lambda v: f"{_show(v)} is not yes or no",
-                    f"write yes or no; blank means {'yes' if col.default else 'no'}")
+                    f"write yes or no; blank means {blank_means}")
+        invalid |= wrong
+        return values
+
+    def _choice(self, raw, masks, invalid):
+        """A contract v2 choice column (``status``): one of ``col.choices``, any case; blank stays ``""``."""
+        col = self.col
+        words = masks["stripped"].str.lower()
+        values = pd.Series("", index=raw.index, dtype=object)
+        ok = masks["str"] & words.isin(col.choices)
+        values[ok] = words[ok]
+        wrong = (~(ok | masks["blank"]) & ~pd.Series(invalid, index=raw.index)).to_numpy()
+        choices = {c: c for c in col.choices}
+
+        def hint(v):
+            near = _did_you_mean(str(v), choices, cutoff=0.5)
+            return (f"did you mean '{near}'? " if near else "") + f"write one of {', '.join(col.choices)}, or leave it blank"
+
+        self.report(wrong, raw, lambda v: f"{_show(v)} is not one of {', '.join(col.choices)}", hint)
         invalid |= wrong
         return values
 
@@ -589,6 +616,16 @@ def _is_blank(cell) -> bool:
 def _setting_value(setting: contract.Setting, cell, sheet_name, row, column, found: _Findings):
     if _is_blank(cell):
         return setting.default
+    if setting.kind in (FLAG, CHOICE):
+        word = (_header_text(cell) if not isinstance(cell, bool) else ("yes" if cell else "no")).lower()
+        if setting.kind == FLAG and (word in contract.YES or word in contract.NO):
+            return word in contract.YES
+        if setting.kind == CHOICE and word in setting.choices:
+            return word
+        allowed = "yes or no" if setting.kind == FLAG else "one of " + ", ".join(setting.choices)
+        found.add(sheet_name, row, column, cell, f"{_show(cell)} is not {allowed} for setting '{setting.name}'",
+                  f"write {allowed}, or leave it blank for the default")
+        return _INVALID
     if setting.kind == TEXT:
         if isinstance(cell, float) and cell.is_integer():
             return str(int(cell))
@@ -707,6 +744,42 @@ def _check_lanes(lanes: _Table, node_ids: set[str] | None, found: _Findings) -> 
                       "merge the two rows, or give them different modes")
 
 
+def _check_lane_design(lanes: _Table, found: _Findings) -> None:
+    """Contract v2 lane columns that only make sense together: min_volume within capacity, whole trips of a
+    positive size, and a cost per trip only with a trip capacity."""
+    if lanes.sheet_name is None or len(lanes) == 0:
+        return
+    values, invalid = lanes.values, lanes.invalid
+
+    def usable(name):
+        series = values.get(name)
+        if series is None:
+            return None, np.zeros(len(lanes), dtype=bool)
+        return series.to_numpy(dtype=float), ~invalid[name]
+
+    minimum, ok_min = usable("min_volume")
+    capacity, ok_cap = usable("capacity")
+    trip_cap, ok_trip = usable("trip_capacity")
+    trip_cost, ok_cost = usable("cost_per_trip")
+    if minimum is not None and capacity is not None:
+        for pos in np.flatnonzero(ok_min & ok_cap & (minimum > capacity)):
+            found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("min_volume"), float(minimum[pos]),
+                      f"min_volume {_show(float(minimum[pos]))} is more than the lane's capacity "
+                      f"{_show(float(capacity[pos]))}, so the lane could never be used",
+                      "lower min_volume or raise capacity")
+    if trip_cap is not None:
+        for pos in np.flatnonzero(ok_trip & (trip_cap <= 0)):
+            found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("trip_capacity"), float(trip_cap[pos]),
+                      "trip_capacity is 0, so no trip could carry anything",
+                      "enter the units one trip carries, or leave it blank if the lane is not run in trips")
+    if trip_cost is not None:
+        no_trips = ~np.isfinite(trip_cap) if trip_cap is not None else np.ones(len(lanes), dtype=bool)
+        for pos in np.flatnonzero(ok_cost & (trip_cost > 0) & no_trips & (ok_trip if trip_cap is not None else True)):
+            found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("cost_per_trip"), float(trip_cost[pos]),
+                      "cost_per_trip is given but trip_capacity is blank",
+                      "enter trip_capacity (units per trip), or clear cost_per_trip")
+
+
 class _IdSuggester:
     """Did-you-mean over node ids: an exact case-insensitive match first, then difflib within a budget."""
 
@@ -747,7 +820,8 @@ def _network_frame(table: _Table, settings: Settings) -> pd.DataFrame:
                     math.nan if col.default is None else float(col.default))
                 values = pd.Series(np.full(n, fill), dtype=float)
             elif col.kind == FLAG:
-                values = pd.Series(np.full(n, bool(col.default)), dtype=bool)
+                values = (pd.Series([None] * n, dtype=object) if col.default is None
+                          else pd.Series(np.full(n, bool(col.default)), dtype=bool))
             else:
                 values = pd.Series([col.default if col.default is not None else ""] * n, dtype=object)
         data[target] = values.reset_index(drop=True)
@@ -755,11 +829,16 @@ def _network_frame(table: _Table, settings: Settings) -> pd.DataFrame:
     frame["row"] = pd.Series(table.rows, dtype=int)
     if "unmet_penalty" in frame and settings.unmet_penalty is not None:
         frame["unmet_penalty"] = frame["unmet_penalty"].fillna(float(settings.unmet_penalty))
+    if "single_source" in frame:
+        frame["single_source"] = frame["single_source"].where(frame["single_source"].notna(),
+                                                              bool(settings.single_source))
+    if "status" in frame:
+        frame["status"] = resolve_status(frame["status"], frame["fixed_cost"])
     frame = frame[columns]
     for name in columns:
-        if name in ("id", "origin", "destination", "mode"):
+        if name in TEXT_COLUMNS:
             frame[name] = frame[name].astype(object)
-        elif name == "active":
+        elif name in BOOL_COLUMNS:
             frame[name] = frame[name].astype(bool)
         elif name == "row":
             frame[name] = frame[name].astype(int)
