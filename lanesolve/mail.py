@@ -22,15 +22,14 @@ message (common practice, recalled from memory; programs that do not know it sim
 from __future__ import annotations
 
 import os
-import tempfile
 from email import policy
 from email.message import EmailMessage
 from email.utils import formatdate, make_msgid
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from . import atomic, report
 from . import charts as _charts
-from . import report
 from .errors import WriteError
 from .result import Result
 
@@ -138,18 +137,5 @@ def write_email(path: str | os.PathLike, network: Network, result: Result, info:
     """
     path = Path(path)
     data = build_email(network, result, info, warnings, attach).as_bytes()
-    tmp_name = None
-    try:
-        with tempfile.NamedTemporaryFile("wb", dir=path.parent, prefix=f".{path.stem}-", suffix=".tmp",
-                                         delete=False) as handle:
-            tmp_name = handle.name
-            handle.write(data)
-        os.replace(tmp_name, path)
-    except OSError as exc:
-        if tmp_name is not None:
-            try:
-                os.unlink(tmp_name)
-            except OSError:
-                pass
-        raise WriteError(f"Could not write the mail {path}: {exc.strerror or exc} (check that the folder exists "
-                         f"and that you may write there)") from exc
+    with atomic.replacing(path, "the mail") as handle:
+        handle.write(data)

@@ -26,7 +26,7 @@ import difflib
 
 import pandas as pd
 
-from . import __version__, checks, contract, guard, locking, reader, report, scenarios, solve, validate, writeback
+from . import __version__, atomic, checks, contract, guard, locking, reader, report, scenarios, solve, validate, writeback
 from .errors import NoPlanError, Problem, SolverError, WorkbookError
 from .network import Network
 from .progress import ProgressCallback, no_progress
@@ -192,6 +192,7 @@ def run(
         for target in dict.fromkeys([path, output]):
             locking.refuse_if_open(target)
         with locking.workbook_lock(output):
+            atomic.remove_stale_temporaries(output)
             return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names)
     finally:
         progress(None, None)

@@ -14,15 +14,14 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
 from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable
 
 import jinja2
 
+from . import atomic
 from . import charts as _charts
-from .errors import WriteError
 from .result import CAUTION, COST_COMPONENTS, Result, SolveStatus
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
@@ -479,20 +478,6 @@ def write_html(path: str | os.PathLike, network: Network, result: Result, info: 
     """
     path = Path(path)
     page = render_html(network, result, info, warnings)
-    tmp_name = None
-    try:
-        with tempfile.NamedTemporaryFile("w", encoding="utf-8", newline="\n", dir=path.parent,
-                                         prefix=f".{path.stem}-", suffix=".tmp", delete=False) as handle:
-            tmp_name = handle.name
-            handle.write(page)
-        os.replace(tmp_name, path)
-    except OSError as exc:
-        if tmp_name is not None:
-            try:
-                os.unlink(tmp_name)
-            except OSError:
-                pass
-        raise WriteError(
-            f"Could not write the HTML summary {path}: {exc.strerror or exc} (check that the folder exists and "
-            f"the file is not open in another program)"
-        ) from exc
+    with atomic.replacing(path, "the HTML summary",
+                          hint="check that the folder exists and the file is not open in another program") as handle:
+        handle.write(page.encode("utf-8"))

@@ -14,7 +14,6 @@ cannot drift from what the reader accepts. The workbook holds:
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
 from openpyxl import Workbook
@@ -23,7 +22,7 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
-from . import contract
+from . import atomic, contract
 from .errors import WriteError
 
 GUIDE_SHEET = "Guide"
@@ -264,21 +263,10 @@ def save_atomically(book: Workbook, path: str | os.PathLike) -> None:
     if path.suffix.lower() != ".xlsx":
         raise WriteError(f"Cannot write the workbook {path}: the name must end in .xlsx (for example "
                          f"{path.with_suffix('.xlsx').name})")
-    tmp_name = None
-    try:
-        with tempfile.NamedTemporaryFile(dir=path.parent, prefix=f".{path.stem}-", suffix=".xlsx",
-                                         delete=False) as handle:
-            tmp_name = handle.name
-        book.save(tmp_name)
-        os.replace(tmp_name, path)
-    except OSError as exc:
-        if tmp_name is not None:
-            try:
-                os.unlink(tmp_name)
-            except OSError:
-                pass
-        raise WriteError(f"Could not write the workbook {path}: {exc.strerror or exc} (check that the folder "
-                         f"exists and the file is not open in a spreadsheet program)") from exc
+    with atomic.replacing(path, "the workbook",
+                          hint="check that the folder exists and the file is not open in a spreadsheet program") \
+            as handle:
+        book.save(handle)
 
 
 def write_template(path: str | os.PathLike) -> None:

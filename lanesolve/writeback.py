@@ -30,12 +30,9 @@ from __future__ import annotations
 import html
 import math
 import numbers
-import os
 import posixpath
 import re
 import shutil
-import stat
-import tempfile
 import time
 import zipfile
 from dataclasses import dataclass, field
@@ -43,10 +40,10 @@ from pathlib import Path
 
 import pandas as pd
 
+from . import atomic
 from .contract import RESULT_PREFIX
-from .errors import LanesolveError, WriteError
+from .errors import WriteError
 from .result import CAUTION, COST_COMPONENTS
-
 
 #: Text written for an infinite value (a lane or hub capacity without limit).
 NO_LIMIT = "no limit"
@@ -896,47 +893,8 @@ def write_results(source: str | Path, target: str | Path, sheets: list[ResultShe
     _check_sheets(sheets)
     if not source.is_file():
         raise WriteError(f"cannot write results: the workbook {source} does not exist any more")
-    folder = target.parent if str(target.parent) else Path(".")
-    try:
-        handle = tempfile.NamedTemporaryFile(dir=folder, prefix=f".{target.name}.", suffix=".tmp", delete=False)
-    except OSError as exc:
-        raise WriteError(f"cannot write into the folder {folder}: {exc.strerror or exc} (choose another --output "
-                         "folder or check its permissions)") from exc
-    temp = Path(handle.name)
-    try:
-        with handle:
-            _build_zip(source, handle, sheets, target)
-            handle.flush()
-            os.fsync(handle.fileno())
-        # The temporary file is created private (0600); give the result the permissions of the file it replaces.
-        mode_from = target if target.exists() else source
-        os.chmod(temp, stat.S_IMODE(os.stat(mode_from).st_mode))
-        try:
-            os.replace(temp, target)
-        except PermissionError as exc:
-            raise WriteError(f"cannot replace {target}: {exc.strerror or exc} (close the workbook in the "
-                             "spreadsheet program and run again)") from exc
-        _fsync_folder(folder)
-    except BaseException as exc:
-        try:
-            temp.unlink()
-        except FileNotFoundError:
-            pass
-        if isinstance(exc, LanesolveError) or not isinstance(exc, Exception):
-            raise
-        raise WriteError(f"could not write the results to {target}: {exc} (the workbook was left as it was)") \
-            from exc
-
-
-def _fsync_folder(folder: Path) -> None:
-    """Make the rename durable where the platform allows syncing a directory (POSIX)."""
-    try:
-        fd = os.open(folder, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
+    # The new file keeps the permissions of the file it replaces (or of the source, for a new --output).
+    with atomic.replacing(target, "the results to", mode_from=target if target.exists() else source,
+                          hint="close the workbook in the spreadsheet program, or choose another --output "
+                               "folder, and run again") as handle:
+        _build_zip(source, handle, sheets, target)

@@ -25,7 +25,7 @@ import pytest
 from click.testing import CliRunner
 
 from conftest import valid_sheets, write_workbook
-from lanesolve import pipeline, reader, writeback
+from lanesolve import atomic, pipeline, reader, writeback
 from lanesolve.cli import main
 from lanesolve.errors import WriteError
 
@@ -65,7 +65,7 @@ def test_permission_denied_on_the_folder(book, monkeypatch):
     def denied(*_args, **_kwargs):
         raise PermissionError(errno.EACCES, "Permission denied")
 
-    monkeypatch.setattr(writeback.tempfile, "NamedTemporaryFile", denied)
+    monkeypatch.setattr(atomic.tempfile, "NamedTemporaryFile", denied)
     with pytest.raises(WriteError, match=r"cannot write into the folder .*Permission denied"):
         pipeline.run(book)
     assert book.read_bytes() == before
@@ -98,8 +98,8 @@ class _FullDisk:
 @pytest.mark.parametrize("room", [0, 3000])
 def test_disk_full_mid_write(book, monkeypatch, room):
     before = book.read_bytes()
-    real = writeback.tempfile.NamedTemporaryFile
-    monkeypatch.setattr(writeback.tempfile, "NamedTemporaryFile", lambda *a, **k: _FullDisk(real(*a, **k), room))
+    real = atomic.tempfile.NamedTemporaryFile
+    monkeypatch.setattr(atomic.tempfile, "NamedTemporaryFile", lambda *a, **k: _FullDisk(real(*a, **k), room))
     with pytest.raises(WriteError, match=r"No space left on device"):
         pipeline.run(book)
     assert book.read_bytes() == before

@@ -26,7 +26,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 import _workbooks as wbk  # noqa: E402
 
-from lanesolve import writeback  # noqa: E402
+from lanesolve import atomic, writeback  # noqa: E402
 from lanesolve.contract import RESULT_PREFIX  # noqa: E402
 from lanesolve.errors import LanesolveError, WriteError  # noqa: E402
 from lanesolve.network import Settings, make_network  # noqa: E402
@@ -477,7 +477,7 @@ def test_locked_target_says_close_the_workbook(tmp_path, rich, plan_sheets, monk
     def locked(src, dst):
         raise PermissionError(13, "Permission denied")
 
-    monkeypatch.setattr(writeback.os, "replace", locked)
+    monkeypatch.setattr(atomic.os, "replace", locked)
     with pytest.raises(WriteError, match="close the workbook"):
         write_results(rich, rich, plan_sheets)
     assert rich.read_bytes() == before and leftovers(tmp_path) == []
