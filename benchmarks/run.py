@@ -192,11 +192,26 @@ def outside_solver(doc: dict) -> float:
     return t["total"] - t.get("solver", doc.get("solve_seconds", 0.0))
 
 
+def _lanesolve_where() -> str:
+    """Which lanesolve the children import (version, folder, and git commit when the folder is a checkout)."""
+    proc = subprocess.run([sys.executable, "-c", "import lanesolve, os; print(lanesolve.__version__, "
+                           "os.path.dirname(os.path.dirname(lanesolve.__file__)))"], capture_output=True, text=True)
+    version, _, folder = proc.stdout.strip().partition(" ")
+    rev = subprocess.run(["git", "-C", folder, "rev-parse", "--short", "HEAD"], capture_output=True, text=True)
+    dirty = subprocess.run(["git", "-C", folder, "status", "--porcelain", "--", "lanesolve"],
+                           capture_output=True, text=True)
+    where = f"{version} in {folder}"
+    if rev.returncode == 0:
+        where += f", git {rev.stdout.strip()}" + (" with uncommitted changes" if dirty.stdout.strip() else "")
+    return where
+
+
 def print_report(sizes: list[int], rows: dict[int, dict], command: str, naive_limit: int) -> None:
     labels = [generate.size_label(n) for n in sizes]
     print(f"\nlanesolve benchmark  {dt.date.today().isoformat()}  {platform.system()} {platform.machine()}, "
           f"{os.cpu_count()} cores (shared), Python {platform.python_version()}")
     print(f"command: {command}")
+    print(f"lanesolve: {_lanesolve_where()}")
     print("instances: generate.py, seed as given, pure LP (no fixed charges); times in seconds, memory in MB\n")
 
     def line(name: str, values: list, spec: str = "9.2f") -> None:
