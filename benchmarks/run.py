@@ -206,7 +206,7 @@ def _lanesolve_where() -> str:
     return where
 
 
-def print_report(sizes: list[int], rows: dict[int, dict], command: str, naive_limit: int) -> None:
+def print_report(sizes: list[int], rows: dict[int, dict], command: str) -> None:
     labels = [generate.size_label(n) for n in sizes]
     print(f"\nlanesolve benchmark  {dt.date.today().isoformat()}  {platform.system()} {platform.machine()}, "
           f"{os.cpu_count()} cores (shared), Python {platform.python_version()}")
@@ -346,7 +346,7 @@ def main(argv: list[str] | None = None) -> int:
                 print(f"  {generate.size_label(n)}: {kind} ...", file=sys.stderr, flush=True)
                 rows[n][kind] = measure(kind, *margs)
     command = "python benchmarks/run.py " + " ".join(argv)
-    print_report(sizes, rows, command.strip(), naive_limit)
+    print_report(sizes, rows, command.strip())
     if args.json:
         Path(args.json).write_text(json.dumps({str(k): v for k, v in rows.items()}, indent=2))
     return 0
