@@ -10,7 +10,9 @@ Every check here is *certain*: when it fires, the model is infeasible (it never 
 3. A customer whose hard demand exceeds the total capacity of its active inbound lanes (it keeps at most what
    comes in).
 4. A customer with hard demand that no depot with supply can reach along active lanes of non-zero capacity (and
-   through no hub of zero capacity).
+   through no hub of zero capacity, and no closed depot or hub).
+5. Contract v2 structure (:func:`lanesolve.diagnose.structural_causes`): a customer with hard demand whose every
+   active inbound lane starts at a closed node; more nodes marked open than max_open_depots / max_open_hubs.
 
 Examples
 --------
@@ -83,6 +85,11 @@ def presolve_checks(network: Network) -> list[str]:
         elif node not in reachable:
             reasons.append(f"{where} needs {_num(demand)} {units} but no depot with supply can reach it along "
                            "active lanes with capacity (check the lanes leading to it and the hubs on the way).")
+    from .diagnose import structural_causes  # late import: diagnose builds on the solver
+
+    for cause in structural_causes(network)[0]:
+        if cause not in reasons:
+            reasons.append(cause)
     return reasons
 
 
@@ -96,8 +103,11 @@ def _reachable_from_supply(network: Network) -> set[str]:
     successors: dict[str, list[str]] = {}
     for origin, destination in zip(lanes["origin"].tolist(), lanes["destination"].tolist()):
         successors.setdefault(origin, []).append(destination)
-    blocked = set(network.hubs.loc[network.hubs["capacity"] <= 0, "id"])
-    start = network.depots.loc[network.depots["supply"] > 0, "id"].tolist()
+    from .model import closed_nodes
+
+    closed = closed_nodes(network)
+    blocked = set(network.hubs.loc[network.hubs["capacity"] <= 0, "id"]) | closed
+    start = [d for d in network.depots.loc[network.depots["supply"] > 0, "id"].tolist() if d not in closed]
     seen = set(start)
     queue = deque(start)
     while queue:
@@ -126,7 +136,10 @@ def no_plan_result(network: Network, reasons: list[str]) -> Result:
         Status ``infeasible``, ``messages`` = ``reasons``, total and breakdown NaN (there is no plan), no flows, and
         the node frame with every node at zero flow (unmet NaN, as no plan says what would go short).
     """
+    from .diagnose import Diagnosis, structural_causes
+
     return Result(
+        diagnosis=Diagnosis(structural=list(reasons), notes=structural_causes(network)[1]),
         status=SolveStatus.INFEASIBLE,
         total_cost=math.nan,
         cost_breakdown=dict.fromkeys(COST_COMPONENTS, math.nan),

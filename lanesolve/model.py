@@ -71,6 +71,39 @@ Further bounds (each holds for every feasible plan unless marked †, which hold
 
 :math:`M_l` is the minimum of (a)-(d); infinite terms (no limit) drop out.
 
+Design decisions (contract v2; only built when :attr:`~lanesolve.network.Network.has_design`)
+------------------------------------------------------------------------------------------
+Extra sets and variables: :math:`O` the depots and hubs with status ``decide``, :math:`w_n \\in \\{0, 1\\}` node
+:math:`n` open (``open_depot_<n>`` / ``open_hub_<n>``); :math:`T` the lanes with a trip capacity :math:`r_l` and a
+cost per trip :math:`e_l > 0`, :math:`t_l \\in \\mathbb{Z}_{\\ge 0}` trips (``trips_<n>``). A lane gets a yes/no
+:math:`y_l` also when it has a minimum volume :math:`m_l > 0` or ends at a single-sourced customer.
+
+Objective, added: :math:`\\sum_{n \\in O} F_n w_n + \\sum_{n\\ \\text{open}} F_n` (``fixed_node``; a node marked
+``open`` pays its fixed cost) :math:`+ \\sum_{l \\in T} e_l t_l` (``trips``).
+
+- closed node: every lane at it gets capacity 0 (and counts 0 in every bound below);
+- ``min_volume_<n>``: :math:`x_l \\ge m_l y_l`;
+- ``single_source_<n>``: :math:`\\sum_{l \\in \\delta^-(c)} y_l \\le 1` (with hard demand the balance row makes it 1);
+- ``trip_<n>``: :math:`x_l \\le r_l t_l`, :math:`t_l \\le \\lceil M_l / r_l \\rceil`. A lane with a trip capacity
+  but no cost per trip needs no variable: its trips are reported as :math:`\\lceil x_l / r_l \\rceil`;
+- ``open_out_depot_<n>``: :math:`\\sum_{\\delta^+(d)} x - \\sum_{\\delta^-(d)} x \\le s_d w_d`, and
+  ``open_in_depot_<n>``: :math:`\\sum_{\\delta^-(d)} x \\le M^{in}_d w_d` with :math:`M^{in}_d` bound (d);
+- ``open_out_hub_<n>``: :math:`\\sum_{\\delta^-(h)} x \\le \\min(k_h, M^{send}_h) w_h` with :math:`M^{send}_h` bound (c);
+- ``open_link_<kind>_<n>_<l>``: :math:`x_l \\le M_l w_n` for every lane :math:`l` at a decided node (the *linking
+  inequalities*). The aggregate rows alone are valid, but in the LP relaxation they let a node be opened by a
+  fraction equal to its utilisation; the per-lane rows force :math:`w_n \\ge x_l / M_l` lane by lane, the classic
+  strong formulation of facility location (the "strong" vs "weak" formulation, e.g. Cornuéjols, Nemhauser & Wolsey,
+  "The uncapacitated facility location problem", 1990). benchmarks/bench_linking.py measures the root bound, time
+  and nodes with and without them;
+- ``max_open_depots`` / ``max_open_hubs``: :math:`\\sum_{n \\in O} w_n \\le` the setting minus the nodes marked
+  ``open``.
+
+Every :math:`M_l` is the bound (a)-(d) above computed with closed nodes at capacity 0. The canonical-plan argument
+still holds with node decisions, trips and single sourcing (removing a cycle or a path ending at a depot only lowers
+flows, and a lane or node whose flow reaches 0 may drop its charge and trips). A minimum volume is the one
+exception: cutting a path may leave a lane between 0 and its minimum, so with ``min_volume`` the bounds marked † and
+the fallback (a) are proven only for plans that return no goods to a depot -- the plans a planner means.
+
 Examples
 --------
 >>> from lanesolve.network import make_network
@@ -125,11 +158,15 @@ class LaneModel:
     big_m: dict[int, float]
     costs: dict[str, pulp.LpAffineExpression]
     penalty: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    #: Contract v2: binary "node open" per depot / hub with status decide, keyed ("depot" | "hub", row index).
+    open: dict[tuple[str, int], pulp.LpVariable] = field(default_factory=dict)
+    #: Contract v2: integer trips per lane with a trip capacity and a cost per trip, keyed by lane index.
+    trips: dict[int, pulp.LpVariable] = field(default_factory=dict)
 
     @property
     def is_mip(self) -> bool:
-        """True when the model has yes/no variables (some active lane has a fixed charge)."""
-        return bool(self.use)
+        """True when the model has yes/no or whole-trip variables (a pure LP otherwise)."""
+        return bool(self.use) or bool(self.open) or bool(self.trips)
 
 
 def customer_penalties(network: Network) -> np.ndarray:
@@ -170,52 +207,83 @@ def _sum_by(keys: pd.Series, values: np.ndarray) -> dict:
     return pd.Series(values, index=keys.to_numpy()).groupby(level=0).sum().to_dict()
 
 
-def lane_big_m(network: Network) -> dict[int, float]:
-    """The :math:`M_l` of every active fixed-charge lane, keyed by lane index (derivation in the module docstring).
+def closed_nodes(network: Network) -> set[str]:
+    """Ids of depots and hubs with status ``closed`` (contract v2): they carry no flow."""
+    return set(network.depots.loc[network.depots["status"] == "closed", "id"]) | set(
+        network.hubs.loc[network.hubs["status"] == "closed", "id"])
 
-    Parameters
-    ----------
-    network : Network
 
-    Returns
-    -------
-    dict of int to float
-        Finite, non-negative bound per lane with ``fixed_cost > 0``.
-    """
+def effective_capacity(network: Network) -> np.ndarray:
+    """Capacity per active lane with every lane touching a closed node set to 0 (v1 networks: the capacities)."""
     lanes = network.active_lanes
-    fixed = lanes[lanes["fixed_cost"] > 0]
-    if fixed.empty:
-        return {}
     capacity = lanes["capacity"].to_numpy(dtype=float)
+    closed = closed_nodes(network)
+    if closed:
+        touches = lanes["origin"].isin(closed).to_numpy() | lanes["destination"].isin(closed).to_numpy()
+        capacity = np.where(touches, 0.0, capacity)
+    return capacity
+
+
+def _bounds(network: Network):
+    """(fallback, capacity per lane index, can_send(node), can_absorb(node)): bounds (a), (b), (c), (d) of the module
+    docstring. Lanes touching a closed node count with capacity 0, a closed node with supply or capacity 0."""
+    lanes = network.active_lanes
+    capacity = effective_capacity(network)
     inbound_cap = _sum_by(lanes["destination"], capacity)
     outbound_cap = _sum_by(lanes["origin"], capacity)
+    closed = closed_nodes(network)
     supply = dict(zip(network.depots["id"], network.depots["supply"].astype(float)))
     demand = dict(zip(network.customers["id"], network.customers["demand"].astype(float)))
     hub_cap = dict(zip(network.hubs["id"], network.hubs["capacity"].astype(float)))
+    for node in closed:
+        if node in supply:
+            supply[node] = 0.0
+        if node in hub_cap:
+            hub_cap[node] = 0.0
     # (a): always finite, so every M below is finite too.
     fallback = min(float(network.depots["supply"].sum()), float(network.customers["demand"].sum()))
 
     def can_send(node: str) -> float:
         into = inbound_cap.get(node, 0.0)
         if node in supply:
-            return supply[node] + into
+            return min(fallback, supply[node] + into)
         if node in hub_cap:
-            return min(hub_cap[node], into)
-        return into
+            return min(fallback, hub_cap[node], into)
+        return min(fallback, into)
 
     def can_absorb(node: str) -> float:
         out = outbound_cap.get(node, 0.0)
         if node in demand:
-            return demand[node] + out
+            return min(fallback, demand[node] + out)
         if node in hub_cap:
-            return min(hub_cap[node], out)
-        return out  # a depot, canonical plan (†)
+            return min(fallback, hub_cap[node], out)
+        return min(fallback, out)  # a depot, canonical plan (†)
 
-    bounds = {}
-    for index, origin, destination, lane_cap in zip(fixed.index.tolist(), fixed["origin"], fixed["destination"],
-                                                     fixed["capacity"].astype(float)):
-        bounds[index] = float(max(0.0, min(fallback, lane_cap, can_send(origin), can_absorb(destination))))
-    return bounds
+    return fallback, dict(zip(lanes.index.tolist(), capacity.tolist())), can_send, can_absorb
+
+
+def lane_big_m(network: Network, indices=None) -> dict[int, float]:
+    """The :math:`M_l` of active lanes, keyed by lane index (derivation in the module docstring).
+
+    Parameters
+    ----------
+    network : Network
+    indices : iterable of int, optional
+        Lane indices to bound; by default every active lane with ``fixed_cost > 0``.
+
+    Returns
+    -------
+    dict of int to float
+        Finite, non-negative bound per lane. Lanes touching a closed node count with capacity 0, and a closed
+        node with supply or capacity 0, so every bound stays valid for the v2 model.
+    """
+    lanes = network.active_lanes
+    chosen = lanes[lanes["fixed_cost"] > 0] if indices is None else lanes.loc[list(indices)]
+    if chosen.empty:
+        return {}
+    fallback, capacity, can_send, can_absorb = _bounds(network)
+    return {index: float(max(0.0, min(fallback, capacity[index], can_send(origin), can_absorb(destination))))
+            for index, origin, destination in zip(chosen.index.tolist(), chosen["origin"], chosen["destination"])}
 
 
 def add_depot_supply(problem: pulp.LpProblem, network: Network, out_terms: dict, in_terms: dict) -> None:
@@ -264,7 +332,128 @@ def add_fixed_charge_links(problem: pulp.LpProblem, flow: dict, use: dict, big_m
                                                 pulp.LpConstraintLE, f"link_{index}", 0.0))
 
 
-def build_model(network: Network) -> LaneModel:
+def _needs_use(network: Network, design: bool) -> np.ndarray:
+    """Per active lane: does it need a yes/no "used" variable? A fixed charge, and in v2 a minimum volume or a
+    single-sourced destination."""
+    lanes = network.active_lanes
+    need = lanes["fixed_cost"].to_numpy(dtype=float) > 0
+    if design:
+        single = set(network.customers.loc[network.customers["single_source"], "id"])
+        need = need | (lanes["min_volume"].to_numpy(dtype=float) > 0) | lanes["destination"].isin(single).to_numpy()
+    return need
+
+
+def add_design(problem: pulp.LpProblem, network: Network, flow: dict, use: dict, big_m: dict[int, float],
+               out_terms: dict, in_terms: dict, linking: bool = True):
+    """Contract v2 decisions (see "Design decisions" in the module docstring).
+
+    Returns ``(open, trips, fixed_node, trip_cost)``: the node-open binaries, the trip integers, and the affine
+    expressions of the fixed node charges and the trip costs.
+    """
+    new_variable = _variable_maker(problem)
+    lanes = network.active_lanes
+    fallback, capacity, can_send, can_absorb = _bounds(network)
+
+    # min_volume_<n>: a used lane carries at least its minimum.
+    minimum = lanes["min_volume"]
+    for index in minimum.index[minimum.to_numpy(dtype=float) > 0].tolist():
+        if index in use:
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(
+                [(flow[index], 1.0), (use[index], -float(minimum[index]))]), pulp.LpConstraintGE,
+                f"min_volume_{index}", 0.0))
+
+    # single_source_<n>: at most one inbound lane used (exactly one once any demand is delivered).
+    customers = network.customers
+    for index, node in zip(customers.index[customers["single_source"]].tolist(),
+                           customers.loc[customers["single_source"], "id"]):
+        inbound = [use[i] for i in lanes.index[lanes["destination"] == node].tolist() if i in use]
+        if inbound:
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression([(v, 1.0) for v in inbound]),
+                                                    pulp.LpConstraintLE, f"single_source_{index}", 1.0))
+
+    # trip_<n>: flow <= trip_capacity * trips, trips integer in [0, ceil(M_l / trip_capacity)].
+    trips: dict[int, pulp.LpVariable] = {}
+    trip_cap = lanes["trip_capacity"].to_numpy(dtype=float)
+    trip_cost = lanes["cost_per_trip"].to_numpy(dtype=float)
+    costed = np.isfinite(trip_cap) & (trip_cap > 0) & (trip_cost > 0)
+    if costed.any():
+        chosen = lanes.index[costed].tolist()
+        bound = lane_big_m(network, chosen)
+        for index, size in zip(chosen, trip_cap[costed].tolist()):
+            most = math.ceil(bound[index] / size - 1e-9)
+            trips[index] = new_variable(f"trips_{index}", lowBound=0, upBound=most, cat=pulp.LpInteger)
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(
+                [(flow[index], 1.0), (trips[index], -size)]), pulp.LpConstraintLE, f"trip_{index}", 0.0))
+    trip_expr = pulp.LpAffineExpression([(trips[i], c) for i, c in zip(lanes.index[costed].tolist(),
+                                                                        trip_cost[costed].tolist())])
+
+    # Nodes: decide -> binary; open -> its fixed cost is paid; closed -> its lanes already have capacity 0.
+    open_vars: dict[tuple[str, int], pulp.LpVariable] = {}
+    fixed_terms, fixed_constant = [], 0.0
+    decide = set(network.depots.loc[network.depots["status"] == "decide", "id"]) | set(
+        network.hubs.loc[network.hubs["status"] == "decide", "id"])
+    ends = lanes["origin"].isin(decide) | lanes["destination"].isin(decide)
+    lane_bounds = lane_big_m(network, lanes.index[ends].tolist()) if linking else {}
+    positions = lanes.index.to_numpy()[ends.to_numpy()]
+    touching = _group(lanes["origin"].to_numpy()[ends.to_numpy()], positions.tolist())
+    for node, more in _group(lanes["destination"].to_numpy()[ends.to_numpy()], positions.tolist()).items():
+        touching.setdefault(node, []).extend(more)
+    settings = network.settings
+    for kind, frame, limit in (("depot", network.depots, settings.max_open_depots),
+                               ("hub", network.hubs, settings.max_open_hubs)):
+        count_terms, forced_open = [], 0
+        for index, node, status, fixed in zip(frame.index.tolist(), frame["id"], frame["status"],
+                                              frame["fixed_cost"].astype(float)):
+            if status == "open":
+                forced_open += 1
+                fixed_constant += fixed
+                continue
+            if status != "decide":
+                continue
+            var = new_variable(f"open_{kind}_{index}", cat=pulp.LpBinary)
+            open_vars[(kind, index)] = var
+            count_terms.append((var, 1.0))
+            if fixed:
+                fixed_terms.append((var, fixed))
+            _link_node(problem, kind, index, node, var, network, out_terms, in_terms, can_send, can_absorb)
+            for lane in touching.get(node, []) if linking else ():
+                # open_link_<kind>_<n>_<l>: each lane at the node carries at most its own bound times the decision.
+                # Implied by the aggregate rows for integer decisions, but much tighter in the LP relaxation
+                # (benchmarks/bench_linking.py measures it).
+                problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(
+                    [(flow[lane], 1.0), (var, -lane_bounds[lane])]), pulp.LpConstraintLE,
+                    f"open_link_{kind}_{index}_{lane}", 0.0))
+        if limit is not None:
+            problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(count_terms), pulp.LpConstraintLE,
+                                                    f"max_open_{kind}s", float(limit) - forced_open))
+    fixed_expr = pulp.LpAffineExpression(fixed_terms, constant=fixed_constant)
+    return open_vars, trips, fixed_expr, trip_expr
+
+
+def _link_node(problem, kind, index, node, var, network, out_terms, in_terms, can_send, can_absorb):
+    """Aggregate rows tying a node's flow to its open decision ``var`` ("Design decisions", module docstring)."""
+    out_list, in_list = out_terms.get(node, []), in_terms.get(node, [])
+    if kind == "depot":
+        supply = float(network.depots.at[index, "supply"])
+        # open_out_<n>: net outflow <= supply * open (the supply row with the decision in it).
+        terms = out_list + [(v, -1.0) for v, _ in in_list] + [(var, -supply)]
+        problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms), pulp.LpConstraintLE,
+                                                f"open_out_depot_{index}", 0.0))
+        send = can_send(node)
+    else:
+        cap = float(network.hubs.at[index, "capacity"])
+        send = can_send(node)
+        bound = min(cap, send) if math.isfinite(cap) else send
+        # open_out_<n>: throughput <= min(capacity, what can come in) * open.
+        problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(in_list + [(var, -bound)]),
+                                                pulp.LpConstraintLE, f"open_out_hub_{index}", 0.0))
+    if kind == "depot" and in_list:
+        # open_in_depot_<n>: transfers in <= what the depot can pass on (bound (d), canonical plan) * open.
+        problem.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(in_list + [(var, -can_absorb(node))]),
+                                                pulp.LpConstraintLE, f"open_in_depot_{index}", 0.0))
+
+
+def build_model(network: Network, linking: bool = True) -> LaneModel:
     """Build the model of the module docstring for ``network``.
 
     Parameters
@@ -282,12 +471,17 @@ def build_model(network: Network) -> LaneModel:
     -----
     Built for size: lanes are grouped per node in one pass and every row's expression is made in one step from a
     list of ``(variable, coefficient)`` pairs, never by ``+=`` in a loop, which would be quadratic in pulp.
+    A v1 network (no contract v2 decision, :attr:`Network.has_design` false) builds exactly the v1 model.
+
+    ``linking`` (v2 only) adds the per-lane linking rows of "Design decisions"; switch it off only to measure what
+    they are worth (benchmarks/bench_linking.py).
     """
     problem = pulp.LpProblem(PROBLEM_NAME, pulp.LpMinimize)
     new_variable = _variable_maker(problem)
     lanes = network.active_lanes
+    design = network.has_design
     lane_index = lanes.index.to_numpy()
-    capacity = lanes["capacity"].to_numpy(dtype=float)
+    capacity = effective_capacity(network) if design else lanes["capacity"].to_numpy(dtype=float)
     flow_vars = [new_variable(f"flow_{i}", lowBound=0, upBound=None if math.isinf(u) else float(u))
                  for i, u in zip(lane_index.tolist(), capacity.tolist())]
     flow = dict(zip(lane_index.tolist(), flow_vars))
@@ -303,7 +497,7 @@ def build_model(network: Network) -> LaneModel:
     unmet = {index: new_variable(f"unmet_{index}", lowBound=0, upBound=float(demand[pos]))
              for pos, index in enumerate(network.customers.index.tolist()) if not np.isnan(penalty[pos])}
 
-    big_m = lane_big_m(network)
+    big_m = lane_big_m(network, lane_index[_needs_use(network, design)].tolist()) if design else lane_big_m(network)
     use = {index: new_variable(f"use_{index}", cat=pulp.LpBinary) for index in big_m}
 
     # Handling cost per lane: the origin depot's per-unit-out cost plus the destination hub's per-unit-through cost.
@@ -325,10 +519,16 @@ def build_model(network: Network) -> LaneModel:
     objective_terms = list(zip(flow_vars, (unit_cost + handling).tolist()))
     objective_terms += [(var, fixed_cost[i]) for i, var in use.items()]
     objective_terms += [(var, penalty_by_index[i]) for i, var in unmet.items()]
-    problem.setObjective(pulp.LpAffineExpression(objective_terms))
+    open_vars, trips = {}, {}
+    if design:
+        open_vars, trips, costs["fixed_node"], costs["trips"] = add_design(
+            problem, network, flow, use, big_m, out_terms, in_terms, linking)
+        objective_terms += list(costs["fixed_node"].items()) + list(costs["trips"].items())
+    problem.setObjective(pulp.LpAffineExpression(objective_terms,
+                                                 constant=costs["fixed_node"].constant if design else 0.0))
 
     add_depot_supply(problem, network, out_terms, in_terms)
     add_customer_balance(problem, network, out_terms, in_terms, unmet)
     add_hub_flow(problem, network, out_terms, in_terms)
     add_fixed_charge_links(problem, flow, use, big_m)
-    return LaneModel(problem, flow, unmet, use, big_m, costs, penalty)
+    return LaneModel(problem, flow, unmet, use, big_m, costs, penalty, open_vars, trips)

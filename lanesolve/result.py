@@ -26,6 +26,16 @@ NODE_COLUMNS = ["node", "kind", "supply", "demand", "shipped", "received", "unme
 UNMET_COLUMNS = ["customer", "quantity", "penalty"]
 #: Keys of :attr:`Result.cost_breakdown`, in report order.
 COST_COMPONENTS = ("transport", "handling", "fixed_lane", "unmet_penalty")
+#: Extra keys of :attr:`Result.cost_breakdown` for a contract v2 network (node decisions, whole trips); present only
+#: then, so v1 results keep exactly :data:`COST_COMPONENTS`.
+DESIGN_COST_COMPONENTS = ("fixed_node", "trips")
+#: Columns of :attr:`Result.open_nodes` (one row per depot and hub): ``open`` is whether the plan uses / keeps it,
+#: ``fixed_charge`` what it pays for that.
+OPEN_NODE_COLUMNS = ["node", "kind", "status", "open", "fixed_charge"]
+#: Columns of :attr:`Result.trips` (one row per lane with a trip capacity and flow > 0).
+TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips", "cost_per_trip", "trip_cost"]
+#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.sensitivity`).
+SENSITIVITY_COLUMNS = ["figure", "item", "value", "unique", "basis", "text"]
 
 
 class SolveStatus(str, enum.Enum):
@@ -50,8 +60,9 @@ class SolveStatus(str, enum.Enum):
 
 
 def empty_frame(columns: list[str]) -> pd.DataFrame:
-    return pd.DataFrame({c: pd.Series(dtype=object if c in ("origin", "destination", "mode", "node", "kind",
-                                                              "customer") else float) for c in columns})
+    text = ("origin", "destination", "mode", "node", "kind", "customer", "status", "figure", "item", "basis", "text")
+    return pd.DataFrame({c: pd.Series(dtype=object if c in text else bool if c in ("open", "unique") else float)
+                         for c in columns})
 
 
 @dataclass
@@ -81,6 +92,14 @@ class Result:
         Wall time spent in the solver.
     messages : list of str
         Plain-language notes for the planner (pre-solve findings, limits hit).
+    open_nodes : DataFrame
+        :data:`OPEN_NODE_COLUMNS`; every depot and hub with its status and whether the plan opens it.
+    trips : DataFrame
+        :data:`TRIP_COLUMNS`; lanes run in whole trips.
+    sensitivity : DataFrame
+        :data:`SENSITIVITY_COLUMNS` (see :mod:`lanesolve.sensitivity`); empty when not computed.
+    diagnosis : Diagnosis or None
+        Why no plan exists, when that was analysed (see :mod:`lanesolve.diagnose`).
     """
 
     status: SolveStatus
@@ -95,6 +114,10 @@ class Result:
     solve_seconds: float = 0.0
     messages: list[str] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
+    open_nodes: pd.DataFrame = field(default_factory=lambda: empty_frame(OPEN_NODE_COLUMNS))
+    trips: pd.DataFrame = field(default_factory=lambda: empty_frame(TRIP_COLUMNS))
+    sensitivity: pd.DataFrame = field(default_factory=lambda: empty_frame(SENSITIVITY_COLUMNS))
+    diagnosis: object = None
 
     def to_json(self) -> dict:
         """The ``--json`` document (without run metadata, which the pipeline adds)."""
@@ -121,4 +144,11 @@ class Result:
             "solver": self.solver,
             "solve_seconds": round(self.solve_seconds, 4),
             "messages": list(self.messages),
+            "open_nodes": [r.node for r in self.open_nodes.itertuples(index=False) if r.open],
+            "trips": [{"origin": r.origin, "destination": r.destination, "mode": r.mode, "trips": int(r.trips)}
+                      for r in self.trips.itertuples(index=False)],
+            "sensitivity": [{"figure": r.figure, "item": r.item, "value": num(r.value) if r.unique else None,
+                             "unique": bool(r.unique), "basis": r.basis, "text": r.text}
+                            for r in self.sensitivity.itertuples(index=False)],
+            "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
         }

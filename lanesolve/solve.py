@@ -46,8 +46,8 @@ import pulp
 from .errors import SolverError
 from .model import LaneModel, build_model
 from .network import Network
-from .result import (COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, Result, SolveStatus,
-                     empty_frame)
+from .result import (COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
+                     Result, SolveStatus, empty_frame)
 
 #: Values smaller than this in magnitude are solver noise and are reported as 0.
 NOISE = 1e-9
@@ -207,11 +207,12 @@ def _plan(network: Network, model: LaneModel, result: Result) -> None:
         use_var.varValue = 1.0 if carries[index] else 0.0
     for var, value in zip(model.flow.values(), flow):
         var.varValue = float(value)
+    _tidy_design(network, model, dict(zip(model.flow, flow)))
     unmet_values = _clean([var.varValue for var in model.unmet.values()])
     for var, value in zip(model.unmet.values(), unmet_values):
         var.varValue = float(value)
 
-    breakdown = {name: float(model.costs[name].value() or 0.0) for name in COST_COMPONENTS}
+    breakdown = {name: float(model.costs[name].value() or 0.0) for name in model.costs}
     for name, value in breakdown.items():
         breakdown[name] = 0.0 if abs(value) < NOISE else value
     result.cost_breakdown = breakdown
@@ -237,9 +238,73 @@ def _plan(network: Network, model: LaneModel, result: Result) -> None:
     rows = [(customers.at[i, "id"], q, q * model.penalty[customers.index.get_loc(i)])
             for i, q in zip(model.unmet, unmet_values) if q > 0]
     result.unmet = (pd.DataFrame(rows, columns=UNMET_COLUMNS) if rows else empty_frame(UNMET_COLUMNS))
+    if network.has_design:
+        result.open_nodes = open_node_frame(network, model, outflow, inflow)
+        result.trips = trip_frame(network, dict(zip(model.flow, flow)))
 
 
-def solve(network: Network, time_limit: float | None = None, solver: str = "cbc", msg: bool = False) -> Result:
+def _tidy_design(network: Network, model: LaneModel, flow: dict[int, float]) -> None:
+    """Make the v2 decisions follow the flows, as the contract charges them: a decided node carrying no flow is
+    not opened, and a lane runs ceil(flow / trip_capacity) trips. Both keep the plan feasible and cost no more than
+    the solver's values (a stopped run may leave a spare trip or an idle open node)."""
+    if not model.open and not model.trips:
+        return
+    lanes = network.active_lanes
+    carries = set()
+    for index, value in flow.items():
+        if value > 0:
+            carries.update((lanes.at[index, "origin"], lanes.at[index, "destination"]))
+    for (kind, index), var in model.open.items():
+        frame = network.depots if kind == "depot" else network.hubs
+        var.varValue = 1.0 if frame.at[index, "id"] in carries else 0.0
+    for index, var in model.trips.items():
+        var.varValue = float(trips_needed(flow[index], float(lanes.at[index, "trip_capacity"])))
+
+
+def trips_needed(flow: float, trip_capacity: float) -> int:
+    """Whole trips to carry ``flow`` (a relative 1e-9 of solver noise is forgiven: 20.0000000001 / 10 is 2 trips)."""
+    if flow <= 0 or not trip_capacity > 0:
+        return 0
+    return int(math.ceil(flow / trip_capacity - 1e-9))
+
+
+def open_node_frame(network: Network, model: LaneModel, outflow: dict, inflow: dict) -> pd.DataFrame:
+    """:data:`~lanesolve.result.OPEN_NODE_COLUMNS` for every depot and hub of a v2 network."""
+    rows = []
+    for kind, frame in (("depot", network.depots), ("hub", network.hubs)):
+        for index, node, status, fixed in zip(frame.index.tolist(), frame["id"], frame["status"],
+                                              frame["fixed_cost"].astype(float)):
+            if status == "decide":
+                is_open = bool(round(model.open[(kind, index)].varValue or 0.0))
+            else:
+                is_open = status == "open"
+            rows.append((node, kind, status, is_open, fixed if is_open else 0.0))
+    if not rows:
+        return empty_frame(OPEN_NODE_COLUMNS)
+    return pd.DataFrame(rows, columns=OPEN_NODE_COLUMNS)
+
+
+def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
+    """:data:`~lanesolve.result.TRIP_COLUMNS` for lanes with a trip capacity and flow > 0."""
+    lanes = network.active_lanes
+    rows = []
+    for index in lanes.index[lanes["trip_capacity"].notna()].tolist():
+        value = flow.get(index, 0.0)
+        if value <= 0:
+            continue
+        lane = lanes.loc[index]
+        trips = trips_needed(value, float(lane["trip_capacity"]))
+        rows.append((lane["origin"], lane["destination"], lane["mode"], value, float(lane["trip_capacity"]), trips,
+                     float(lane["cost_per_trip"]), trips * float(lane["cost_per_trip"])))
+    if not rows:
+        return empty_frame(TRIP_COLUMNS)
+    frame = pd.DataFrame(rows, columns=TRIP_COLUMNS)
+    frame["trips"] = frame["trips"].astype(int)
+    return frame
+
+
+def solve(network: Network, time_limit: float | None = None, solver: str | None = None, msg: bool = False,
+          sensitivity: bool = True, linking: bool = True, diagnose: bool = True) -> Result:
     """Build and solve the model of :mod:`lanesolve.model` for ``network``.
 
     Parameters
@@ -249,8 +314,16 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
     time_limit : float, optional
         Seconds the solver may run; overrides ``network.settings.time_limit_s``. A value of 0 or less, or None
         with a setting of 0, means no limit.
-    solver : {"cbc", "highs"}
+    solver : {"cbc", "highs"}, optional
         ``"cbc"``: the CBC binary in PuLP's wheel. ``"highs"``: HiGHS through ``highspy`` (optional extra).
+        None takes the ``solver`` setting (default ``"cbc"``).
+    sensitivity : bool
+        With an optimal plan, also fill ``Result.sensitivity`` (:mod:`lanesolve.sensitivity`).
+    diagnose : bool
+        When the solver finds no feasible plan, attach a :class:`~lanesolve.diagnose.Diagnosis` (a shortfall
+        re-solve, :mod:`lanesolve.diagnose`) to ``Result.diagnosis`` and its sentences to ``messages``.
+    linking : bool
+        Build the per-lane linking rows of contract v2 node decisions (off only to measure their worth).
     msg : bool
         Echo the solver's log to stderr.
 
@@ -277,12 +350,13 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
     ('optimal', 10.0, None)
     """
     settings = network.settings
+    solver = (solver or getattr(settings, "solver", None) or "cbc").lower()
     limit = time_limit if time_limit is not None else settings.time_limit_s
     limit = float(limit) if limit is not None and limit > 0 else None
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
 
     tick = time.perf_counter()
-    model = build_model(network)
+    model = build_model(network, linking=linking)
     build_seconds = time.perf_counter() - tick
 
     with tempfile.TemporaryDirectory(prefix="lanesolve-") as tmp:
@@ -310,9 +384,15 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
     result.timings["solver"] = seconds
 
     if not status.has_plan:
-        result.cost_breakdown = dict.fromkeys(COST_COMPONENTS, math.nan)
+        result.cost_breakdown = dict.fromkeys(model.costs, math.nan)
         result.nodes = node_balance(network, {}, {}, None)
         result.messages.append(_no_plan_message(status, limit, model.is_mip))
+        if diagnose and status is SolveStatus.INFEASIBLE:
+            from .diagnose import diagnose as explain  # late import: the diagnosis re-solves through here
+            tick = time.perf_counter()
+            result.diagnosis = explain(network, solver=solver, time_limit=limit)
+            result.messages.extend(result.diagnosis.sentences(settings.units or "units"))
+            result.timings["diagnose"] = time.perf_counter() - tick
         return result
 
     _plan(network, model, result)
@@ -331,6 +411,11 @@ def solve(network: Network, time_limit: float | None = None, solver: str = "cbc"
                                    "(raise time_limit_s in Settings or use --time-limit).")
     else:
         result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
+    if sensitivity and status is SolveStatus.OPTIMAL:
+        from .sensitivity import analyse  # late import: sensitivity builds on this module
+        tick = time.perf_counter()
+        result.sensitivity = analyse(network, model, solver=solver)
+        result.timings["sensitivity"] = time.perf_counter() - tick
     return result
 
 
