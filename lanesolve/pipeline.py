@@ -124,13 +124,13 @@ def scenario_networks(raw: reader.RawWorkbook, network: Network,
 
 
 def _solve_one(network: Network, time_limit: float | None, verbose: bool, progress: ProgressCallback,
-               stage: str) -> Result:
+               stage: str, solver: str | None = None) -> Result:
     """Run the cheap checks, then the solver when they find nothing."""
     reasons = checks.presolve_checks(network)
     if reasons:
         return checks.no_plan_result(network, reasons)
     progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
-    return solve.solve(network, time_limit=time_limit, msg=verbose)
+    return solve.solve(network, time_limit=time_limit, solver=solver, msg=verbose)
 
 
 def summary_path_for(output: str | Path) -> Path:
@@ -146,6 +146,7 @@ def run(
     verbose: bool = False,
     progress: ProgressCallback = no_progress,
     scenario_names: list[str] | None = None,
+    solver: str | None = None,
 ) -> RunOutcome:
     """Solve a workbook end to end and write the results back.
 
@@ -166,6 +167,8 @@ def run(
         :class:`lanesolve.progress.TerminalProgress`.
     scenario_names : list of str, optional
         Solve only these scenarios of the Scenarios sheet (default: every one). The baseline is always solved.
+    solver : {"cbc", "highs"}, optional
+        Overrides the workbook's ``solver`` setting (CBC, bundled, is the default).
 
     Returns
     -------
@@ -187,19 +190,19 @@ def run(
     output = Path(output) if output is not None else path
     try:
         if not write:
-            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names)
+            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names, solver)
         guard.check_write_target(path, output)
         for target in dict.fromkeys([path, output]):
             locking.refuse_if_open(target)
         with locking.workbook_lock(output):
             atomic.remove_stale_temporaries(output)
-            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names)
+            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names, solver)
     finally:
         progress(None, None)
 
 
 def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool, verbose: bool,
-                progress: ProgressCallback, scenario_names: list[str] | None) -> RunOutcome:
+                progress: ProgressCallback, scenario_names: list[str] | None, solver: str | None) -> RunOutcome:
     timings: dict[str, float] = {}
     tick = time.perf_counter()
     progress("reading", None)
@@ -215,8 +218,8 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
     tick = time.perf_counter()
 
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), file_checksum(path))
-    result = _solve_one(network, time_limit, verbose, progress, "solving")
-    scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}")
+    result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
+    scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
