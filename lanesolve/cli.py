@@ -107,8 +107,11 @@ def check(workbook: str) -> None:
 @click.option("-v", "--verbose", is_flag=True, help="Show the solver's log on stderr.")
 @click.option("--scenario", "scenario_names", multiple=True, metavar="NAME",
               help="Solve only this scenario of the Scenarios sheet beside the baseline (repeatable; default: all).")
+@click.option("--solver", type=click.Choice(["cbc", "highs"], case_sensitive=False), default=None,
+              help="Solver to use (overrides the solver setting): cbc, bundled, or highs (needs highspy).")
 def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, email_path: str | None,
-          attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...]) -> None:
+          attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...],
+          solver: str | None) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from .pipeline import run
     from .progress import TerminalProgress, no_progress
@@ -122,7 +125,8 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     try:
         try:
             outcome = run(workbook, output=output, time_limit=time_limit, verbose=verbose, progress=progress,
-                          scenario_names=list(scenario_names) or None)
+                          scenario_names=list(scenario_names) or None,
+                          solver=solver.lower() if solver else None)
         except NoPlanError as error:
             # The summary explains why there is no plan; the mail carries the same page.
             if email_path and error.result is not None:

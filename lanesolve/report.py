@@ -22,7 +22,8 @@ import jinja2
 
 from . import atomic
 from . import charts as _charts
-from .result import CAUTION, COST_COMPONENTS, Result, SolveStatus
+from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus
+from .sensitivity import FIXED_BASIS, TOP_FEW, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
     from .network import Network
@@ -39,6 +40,8 @@ COST_LABELS = {
     "handling": "Handling at depots and hubs",
     "fixed_lane": "Fixed lane charges",
     "unmet_penalty": "Penalties for unmet demand",
+    "fixed_node": "Fixed depot and hub charges",
+    "trips": "Whole trips (cost per trip)",
 }
 
 STATUS_TEXT = {
@@ -124,14 +127,26 @@ def _bar(value: object) -> float:
 # --------------------------------------------------------------------------------------------- view model
 
 
+def cost_keys(result: Result) -> list[str]:
+    """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
+
+    A v1 result has :data:`~lanesolve.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
+    over the keys the result has keeps every component in the breakdown, so the rows add up to the total.
+    """
+    order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
+    keys = list(result.cost_breakdown)
+    return [k for k in order if k in keys] + [k for k in keys if k not in order]
+
+
 def _cost_rows(result: Result, currency: str) -> list[dict]:
-    total = sum(max(_finite(result.cost_breakdown.get(k)) or 0.0, 0.0) for k in COST_COMPONENTS)
+    keys = cost_keys(result)
+    total = sum(max(_finite(result.cost_breakdown.get(k)) or 0.0, 0.0) for k in keys)
     rows = []
-    for key in COST_COMPONENTS:
+    for key in keys:
         amount = _finite(result.cost_breakdown.get(key)) or 0.0
         share = amount / total if total > 0 else 0.0
-        rows.append({"label": COST_LABELS[key], "amount": format_money(amount, currency),
-                     "share": format_share(share), "bar": _bar(share)})
+        rows.append({"label": COST_LABELS.get(key, key.replace("_", " ").capitalize()),
+                     "amount": format_money(amount, currency), "share": format_share(share), "bar": _bar(share)})
     return rows
 
 
@@ -216,6 +231,186 @@ def _node_rows(result: Result, kind: str, units: str) -> list[dict]:
     return rows
 
 
+def _design_rows(network: Network, result: Result, units: str, currency: str) -> list[dict]:
+    """The "Open and closed" table: every depot and hub, the status given, the decision and what it paid."""
+    if not network.has_design or result.open_nodes.empty:
+        return []
+    nodes = result.nodes.set_index("node") if not result.nodes.empty else None
+    rows = []
+    for node in result.open_nodes.itertuples(index=False):
+        used = limit = share = None
+        if nodes is not None and node.node in nodes.index:
+            facts = nodes.loc[node.node]
+            if node.kind == "depot":
+                used, limit = facts["shipped"] - facts["received"], facts["supply"]
+            else:
+                used, limit = facts["throughput"], facts["capacity"]
+            share = facts["utilisation"]
+        rows.append({
+            "node": str(node.node), "kind": str(node.kind), "status": str(node.status),
+            "decision": "open" if node.open else "closed",
+            "fixed_charge": format_money(node.fixed_charge, currency) if node.open else "–",
+            "used": format_quantity(used, units),
+            "limit": format_quantity(limit, units) if _finite(limit) is not None else "no limit",
+            "utilisation": format_share(share) if _finite(share) is not None else "–",
+        })
+    return rows
+
+
+def _trip_rows(result: Result, units: str, currency: str) -> list[dict]:
+    """The "Trips" table: lanes run in whole trips, their cost and how full the last and the average truck are."""
+    rows = []
+    for lane in result.trips.itertuples(index=False):
+        flow, size, trips = float(lane.flow), float(lane.trip_capacity), int(lane.trips)
+        full = trips > 0 and size > 0
+        rows.append({
+            "origin": str(lane.origin), "destination": str(lane.destination), "mode": str(lane.mode or ""),
+            "flow": format_quantity(flow, units), "trip_capacity": format_quantity(size, units),
+            "trips": f"{trips:,d}", "cost_per_trip": format_money(lane.cost_per_trip, currency),
+            "trip_cost": format_money(lane.trip_cost, currency),
+            # the last truck carries what the full ones leave; the average is flow over the room of every trip
+            "last_fill": format_share((flow - (trips - 1) * size) / size) if full else "–",
+            "average_fill": format_share(flow / (trips * size)) if full else "–",
+        })
+    return rows
+
+
+def singular(units: str) -> str:
+    """The label of one unit: "pallets" -> "pallet", "boxes" -> "box", "tonnes" -> "tonne" (plain English rules).
+
+    >>> [singular(u) for u in ("pallets", "boxes", "lorries", "kg", "units")]
+    ['pallet', 'box', 'lorry', 'kg', 'unit']
+    """
+    word = units.strip() or "units"
+    lower = word.lower()
+    if lower.endswith("ies") and len(word) > 3:
+        return word[:-3] + "y"
+    if lower.endswith(("sses", "xes", "ches", "shes", "zes")):
+        return word[:-2]
+    if lower.endswith("s") and not lower.endswith("ss") and len(word) > 1:
+        return word[:-1]
+    return word
+
+
+def _lane_words(label: str) -> str:
+    """A lane label "A -> B (mode)" as "A→B mode", the way a planner says it."""
+    if label.count(" -> ") == 1:
+        label = label.replace(" -> ", "→")
+        if label.endswith(")") and " (" in label:
+            head, _, mode = label.rpartition(" (")
+            label = f"{head} {mode[:-1]}"
+    return label
+
+
+def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str) -> str:
+    """One sensitivity figure in plain words, for the summary page and the mail.
+
+    Parameters
+    ----------
+    figure : str
+        The ``figure`` column of :attr:`Result.sensitivity` (see :mod:`lanesolve.sensitivity`).
+    item : str
+        The customer, depot, hub or lane label.
+    value : float
+        The figure (ignored when ``unique`` is false).
+    unique : bool
+        Whether the figure is the same in every optimal dual; when not, the sentence says so and shows no number.
+    units, currency : str
+        The workbook's labels.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> sensitivity_sentence("marginal_cost", "Runnelby", 43.339, True, "pallets", "EUR")
+    'One more pallet at Runnelby would cost 43.34 EUR.'
+    >>> sensitivity_sentence("reduced_cost", "Tarrowick -> Mellisford (rail)", 3.2, True, "pallets", "EUR")
+    'Tarrowick→Mellisford rail would need to be 3.20 EUR per pallet cheaper before the plan used it.'
+    """
+    one = singular(units or "units")
+    lane = _lane_words(item)
+    subject = {
+        "marginal_cost": f"one more {one} at {item}",
+        "supply_value": f"one more {one} of supply at depot {item}",
+        "hub_capacity_value": f"one more {one} of capacity at hub {item}",
+        "lane_capacity_value": f"one more {one} of capacity on {lane}",
+        "trip_capacity_value": f"one more {one} of room in the planned trips on {lane}",
+    }
+    if not unique:
+        if figure == "reduced_cost":
+            return (f"{lane} is unused; how much cheaper it would need to be is not unique at this plan (the plan "
+                    "is degenerate: more than one figure fits it), so none is shown.")
+        what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
+        return (f"What {what} is worth is not unique at this plan (the plan is degenerate: more than one figure "
+                "fits it), so none is shown.")
+    amount = format_money(abs(value), currency)
+    if figure == "reduced_cost":
+        if abs(value) < 0.005:
+            return f"{lane} is unused, but a plan using it would cost no more (an equally cheap alternative)."
+        return f"{lane} would need to be {amount} per {one} cheaper before the plan used it."
+    what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
+    if figure == "marginal_cost":
+        verb = "would cost" if value >= 0 else "would save"
+    else:
+        verb = "would save" if value >= 0 else "would cost"
+    return f"{what[0].upper()}{what[1:]} {verb} {amount}."
+
+
+#: Figures of the "What the plan is sensitive to" section, in order, each with its heading.
+SENSITIVITY_GROUPS = (
+    ("marginal_cost", "Cost of one more unit of demand"),
+    ("supply_value", "Value of more depot supply"),
+    ("hub_capacity_value", "Value of more hub capacity"),
+    ("lane_capacity_value", "Value of more lane capacity"),
+    ("trip_capacity_value", "Value of more room in the planned trips"),
+    ("reduced_cost", "Unused lanes: how much cheaper before they pay"),
+)
+
+
+def _sensitivity_context(result: Result, units: str, currency: str) -> dict:
+    """The top few figures of each kind in plain words, the basis they rest on and how many there are in all."""
+    frame = result.sensitivity
+    groups = []
+    if not frame.empty:
+        for figure, heading in SENSITIVITY_GROUPS:
+            rows = top_few(frame, figure, TOP_FEW)
+            if rows.empty:
+                continue
+            total = int((frame["figure"] == figure).sum())
+            groups.append({"heading": heading, "more": max(total - len(rows), 0), "sentences": [
+                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency)
+                for r in rows.itertuples(index=False)]})
+    bases = sorted({str(b) for b in frame["basis"]}) if not frame.empty else []
+    fixed = FIXED_BASIS in bases
+    basis = ("From the linear programme with the plan's yes/no and trip decisions fixed at the plan: valid for "
+             "small changes that keep those decisions, silent on whether a decision would flip." if fixed else
+             "From the linear programme of the plan: valid for small changes that keep the same lanes in use.")
+    return {"groups": groups, "basis": basis if groups else "",
+            "not_computed": result.status is SolveStatus.FEASIBLE and frame.empty}
+
+
+def _why_context(network: Network, result: Result, units: str) -> dict | None:
+    """The "Why no plan" section of an infeasible result: the diagnosis in sentences and its figures."""
+    diagnosis = result.diagnosis
+    if result.status is not SolveStatus.INFEASIBLE or diagnosis is None:
+        return None
+    short = [{"customer": str(r.customer), "demand": format_quantity(r.demand, units),
+              "short": format_quantity(r.short, units)} for r in diagnosis.short.itertuples(index=False)]
+    saturated = diagnosis.saturated
+    bottleneck = [{"kind": str(r.kind), "item": str(r.item), "capacity": format_quantity(r.capacity, units),
+                   "used": format_quantity(r.used, units), "cut": bool(r.bottleneck)}
+                  for r in saturated.itertuples(index=False)]
+    return {
+        "sentences": [str(s) for s in diagnosis.sentences(units or "units")],
+        "short": short,
+        "saturated": bottleneck,
+        "has_cut": any(row["cut"] for row in bottleneck),
+        "penalty": format_money(diagnosis.penalty) if diagnosis.penalty is not None else "",
+    }
+
+
 def _gap_text(result: Result) -> str:
     gap = _finite(result.mip_gap)
     if gap is None:
@@ -270,6 +465,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
     kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
              ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
+    messages = [str(m) for m in result.messages]
+    why = _why_context(network, result, units)
     return {
         "file_name": Path(info.input_path).name,
         "run_at": info.started,
@@ -292,7 +489,14 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "short": _short_rows(network, result, units, currency) if has_plan else [],
         "depots": _node_rows(result, "depot", units) if has_plan else [],
         "hubs": _node_rows(result, "hub", units) if has_plan else [],
-        "messages": [str(m) for m in result.messages],
+        "design": _design_rows(network, result, units, currency) if has_plan else [],
+        "trips": _trip_rows(result, units, currency) if has_plan else [],
+        "sensitivity": _sensitivity_context(result, units, currency) if has_plan else {
+            "groups": [], "basis": "", "not_computed": False},
+        "why": why,
+        # With a diagnosis the reasons it gives are shown in its own section, not twice in the box above it.
+        "reasons": [m for m in messages if m not in set(why["sentences"])] if why else messages,
+        "messages": messages,
         "warnings": [str(w) for w in warnings],
         "caution": CAUTION,
     }
@@ -444,14 +648,38 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list)
             lines += ["", "Depot and hub utilisation"]
             lines += [f"  {row['node']} ({kind}): {row['used']} of {row['limit']}"
                       + (f", {row['utilisation']}" if row["has_limit"] else "") for kind, row in nodes]
+        if c["design"]:
+            lines += ["", "Open and closed"]
+            lines += [f"  {row['node']} ({row['kind']}, given {row['status']}): {row['decision']}"
+                      + (f", fixed charge {row['fixed_charge']}" if row["decision"] == "open" else "")
+                      for row in c["design"]]
+        if c["trips"]:
+            lines += ["", "Trips"]
+            lines += [f"  {row['origin']} -> {row['destination']}" + (f" ({row['mode']})" if row["mode"] else "")
+                      + f": {row['trips']} trips of {row['trip_capacity']} for {row['flow']}, {row['trip_cost']};"
+                      f" last truck {row['last_fill']} full" for row in c["trips"]]
+        sensitivity = c["sensitivity"]
+        if sensitivity["groups"]:
+            lines += ["", "What the plan is sensitive to", f"  {sensitivity['basis']}"]
+            for group in sensitivity["groups"]:
+                lines += [f"  {group['heading']}"] + [f"    - {sentence}" for sentence in group["sentences"]]
+        elif sensitivity["not_computed"]:
+            lines += ["", "What the plan is sensitive to: not shown, as the plan is not proven optimal."]
         if c["lanes"]:
             shown = c["lanes"][:TEXT_LANES]
             rest = len(c["lanes"]) - len(shown) + c["more_lanes"]
             lines += ["", f"Dearest lanes ({len(shown)} of {len(shown) + rest})"]
             lines += [f"  {lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
                       + f": {lane['flow']}, {lane['total_cost']}" for lane in shown]
-    if c["messages"]:
-        lines += ["", "Messages" if c["has_plan"] else "Reasons"] + [f"  - {m}" for m in c["messages"]]
+    if c["has_plan"] and c["messages"]:
+        lines += ["", "Messages"] + [f"  - {m}" for m in c["messages"]]
+    elif c["reasons"]:
+        lines += ["", "Reasons"] + [f"  - {m}" for m in c["reasons"]]
+    if c["why"]:
+        lines += ["", "Why no plan"] + [f"  - {sentence}" for sentence in c["why"]["sentences"]]
+        if c["why"]["penalty"]:
+            lines.append(f"  (found by solving again with shortfall allowed at an internal penalty of "
+                         f"{c['why']['penalty']} per unit short)")
     if c["warnings"]:
         lines += ["", "Warnings from reading the workbook"] + [f"  - {w}" for w in c["warnings"]]
     lines += ["", f"Caution. {c['caution']}", ""]

@@ -43,7 +43,7 @@ import pandas as pd
 from . import atomic
 from .contract import RESULT_PREFIX
 from .errors import WriteError
-from .result import CAUTION, COST_COMPONENTS
+from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS
 
 #: Text written for an infinite value (a lane or hub capacity without limit).
 NO_LIMIT = "no limit"
@@ -51,6 +51,10 @@ NO_LIMIT = "no limit"
 SUMMARY_SHEET = RESULT_PREFIX + "Summary"
 FLOWS_SHEET = RESULT_PREFIX + "Lane flows"
 NODES_SHEET = RESULT_PREFIX + "Nodes"
+DESIGN_SHEET = RESULT_PREFIX + "Depots and hubs"
+TRIPS_SHEET = RESULT_PREFIX + "Trips"
+SENSITIVITY_SHEET = RESULT_PREFIX + "Sensitivity"
+WHY_SHEET = RESULT_PREFIX + "Why no plan"
 
 #: Built-in table style of the result tables (a style every spreadsheet program that reads tables knows by name).
 TABLE_STYLE = "TableStyleMedium2"
@@ -64,6 +68,18 @@ COST_WORDS = {
     "handling": "handling cost",
     "fixed_lane": "fixed lane charges",
     "unmet_penalty": "unmet demand penalties",
+    "fixed_node": "fixed depot and hub charges",
+    "trips": "trip costs",
+}
+
+#: Plain words for the ``figure`` column of :attr:`lanesolve.result.Result.sensitivity`.
+FIGURE_WORDS = {
+    "marginal_cost": "cost of one more unit of demand",
+    "supply_value": "saving from one more unit of depot supply",
+    "hub_capacity_value": "saving from one more unit of hub capacity",
+    "lane_capacity_value": "saving from one more unit of lane capacity",
+    "trip_capacity_value": "saving from one more unit of room in the planned trips",
+    "reduced_cost": "cut in cost per unit before an unused lane pays",
 }
 
 MAX_SHEET_NAME = 31  # the spreadsheet programs' limit on a sheet name's length
@@ -143,6 +159,17 @@ def _percent(fraction) -> float | None:
     return float(fraction) * 100.0
 
 
+def cost_keys(result) -> list[str]:
+    """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
+
+    A v1 result has :data:`~lanesolve.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
+    over the keys the result has (not a fixed list) keeps every component on the sheet, so they add up to the total.
+    """
+    order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
+    keys = list(result.cost_breakdown)
+    return [k for k in order if k in keys] + [k for k in keys if k not in order]
+
+
 def _summary_rows(network, result, info) -> list[list]:
     def money(x):
         x = _plain(x)
@@ -160,7 +187,7 @@ def _summary_rows(network, result, info) -> list[list]:
         ["status", result.status.value],
         ["total cost", money(result.total_cost)],
     ]
-    for key in COST_COMPONENTS:
+    for key in cost_keys(result):
         rows.append([COST_WORDS.get(key, key.replace("_", " ")), money(result.cost_breakdown.get(key, 0.0))])
     rows += [
         ["units", settings.units or None],
@@ -199,7 +226,8 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
     -------
     list of ResultSheet
         ``"LS Summary"`` (item/value rows), ``"LS Lane flows"`` (lanes with flow, then inactive lanes) and
-        ``"LS Nodes"`` (every node of ``result.nodes``), in that order.
+        ``"LS Nodes"`` (every node of ``result.nodes``), in that order, then the sheets of
+        :func:`insight_sheets` that apply (design decisions, trips, sensitivity, why no plan).
 
     Examples
     --------
@@ -211,7 +239,7 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
     >>> info = SimpleNamespace(input_path="in.xlsx", checksum="0" * 64, version="0.1.0",
     ...                        started="2024-01-01T00:00:00+00:00")
     >>> [s.name for s in result_sheets(net, Result(SolveStatus.INFEASIBLE), info)]
-    ['LS Summary', 'LS Lane flows', 'LS Nodes']
+    ['LS Summary', 'LS Lane flows', 'LS Nodes', 'LS Why no plan']
     """
     summary = ResultSheet(SUMMARY_SHEET, ["item", "value"], _summary_rows(network, result, info),
                           {"item": "text", "value": "number"})
@@ -252,7 +280,143 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
         for i in range(len(nodes)):
             node_rows.append([_plain(col[i]) for col in columns] + [_percent(utilisation[i])])
     nodes_sheet = ResultSheet(NODES_SHEET, node_columns, node_rows, node_kinds)
-    return [summary, flows_sheet, nodes_sheet]
+    return [summary, flows_sheet, nodes_sheet, *insight_sheets(network, result)]
+
+
+def insight_sheets(network, result) -> list[ResultSheet]:
+    """The sheets beyond summary, flows and nodes: design decisions, trips, sensitivity and why no plan.
+
+    Parameters
+    ----------
+    network : lanesolve.network.Network
+    result : lanesolve.result.Result
+
+    Returns
+    -------
+    list of ResultSheet
+        In this order, each only when it applies: ``"LS Depots and hubs"`` (a plan for a network with open/close
+        or other v2 decisions, :attr:`Network.has_design`), ``"LS Trips"`` (a plan with lanes run in whole trips),
+        ``"LS Sensitivity"`` (every plan; says so when no figures were computed) and ``"LS Why no plan"`` (an
+        infeasible result). A v1 plan thus gains only the sensitivity sheet. Sheets a run does not write are still
+        dropped from the workbook, as every sheet with the prefix is (see :func:`write_results`).
+    """
+    sheets = []
+    if result.status.has_plan:
+        if network.has_design and len(result.open_nodes):
+            sheets.append(design_sheet(result))
+        if len(result.trips):
+            sheets.append(trips_sheet(result))
+        sheets.append(sensitivity_sheet(result))
+    elif result.status.value == "infeasible":
+        sheets.append(why_no_plan_sheet(network, result))
+    return sheets
+
+
+def design_sheet(result) -> ResultSheet:
+    """``"LS Depots and hubs"``: every depot and hub with the status given, the plan's decision and its use.
+
+    Throughput is the net quantity shipped for a depot (what its supply bounds) and the quantity passing through
+    for a hub; capacity is the depot's supply or the hub's capacity (see :func:`lanesolve.solve.node_balance`).
+    """
+    columns = ["depot or hub", "kind", "status given", "decision", "fixed charge paid", "throughput", "capacity",
+               "utilisation %"]
+    kinds = {"depot or hub": "text", "kind": "text", "status given": "text", "decision": "text",
+             "fixed charge paid": "money", "throughput": "quantity", "capacity": "quantity",
+             "utilisation %": "percent"}
+    nodes = result.nodes.set_index("node") if len(result.nodes) else None
+    rows = []
+    for node in result.open_nodes.itertuples(index=False):
+        throughput = capacity = utilisation = None
+        if nodes is not None and node.node in nodes.index:
+            facts = nodes.loc[node.node]
+            if node.kind == "depot":
+                throughput, capacity = facts["shipped"] - facts["received"], facts["supply"]
+            else:
+                throughput, capacity = facts["throughput"], facts["capacity"]
+            utilisation = _percent(facts["utilisation"])
+        rows.append([_plain(node.node), _plain(node.kind), _plain(node.status), "open" if node.open else "closed",
+                     _plain(node.fixed_charge), _plain(throughput), _plain(capacity), utilisation])
+    return ResultSheet(DESIGN_SHEET, columns, rows, kinds)
+
+
+def trips_sheet(result) -> ResultSheet:
+    """``"LS Trips"``: lanes run in whole trips, with the trips, their cost and how full the trucks are.
+
+    The last truck carries what is left after the full ones: ``flow - (trips - 1) * trip_capacity``; the average
+    fill is ``flow / (trips * trip_capacity)``.
+    """
+    columns = ["origin", "destination", "mode", "flow", "trip capacity", "trips", "cost per trip", "trip cost",
+               "last truck fill %", "average fill %"]
+    kinds = {"origin": "text", "destination": "text", "mode": "text", "flow": "quantity",
+             "trip capacity": "quantity", "trips": "number", "cost per trip": "money", "trip cost": "money",
+             "last truck fill %": "percent", "average fill %": "percent"}
+    rows = []
+    for lane in result.trips.itertuples(index=False):
+        flow, size, trips = float(lane.flow), float(lane.trip_capacity), int(lane.trips)
+        last = average = None
+        if trips > 0 and size > 0:
+            last = _percent((flow - (trips - 1) * size) / size)
+            average = _percent(flow / (trips * size))
+        rows.append([_plain(lane.origin), _plain(lane.destination), _plain(lane.mode), flow, size, trips,
+                     _plain(lane.cost_per_trip), _plain(lane.trip_cost), last, average])
+    return ResultSheet(TRIPS_SHEET, columns, rows, kinds)
+
+
+def sensitivity_sheet(result) -> ResultSheet:
+    """``"LS Sensitivity"``: every row of ``result.sensitivity``, its figure in words, its sentence and its basis.
+
+    A figure that is not unique (a degenerate plan) has a blank value and ``unique`` "no"; its sentence says why.
+    With no figures (a plan not proven optimal, or the LP re-solve failed) the sheet holds one row saying so.
+    """
+    columns = ["figure", "item", "value", "unique", "basis", "in plain words"]
+    kinds = {"figure": "text", "item": "text", "value": "money", "unique": "text", "basis": "text",
+             "in plain words": "text"}
+    rows = []
+    for row in result.sensitivity.itertuples(index=False):
+        rows.append([FIGURE_WORDS.get(row.figure, str(row.figure).replace("_", " ")), _plain(row.item),
+                     _plain(row.value) if bool(row.unique) else None, "yes" if bool(row.unique) else "no",
+                     _plain(row.basis), _plain(row.text)])
+    if not rows:
+        why = ("the plan is not proven optimal, so its marginal costs could mislead"
+               if result.status.value != "optimal" else "the figures could not be computed for this plan")
+        rows.append(["none", None, None, None, None, f"No sensitivity figures: {why}."])
+    return ResultSheet(SENSITIVITY_SHEET, columns, rows, kinds)
+
+
+def why_no_plan_sheet(network, result) -> ResultSheet:
+    """``"LS Why no plan"``: the diagnosis of an infeasible result (:class:`lanesolve.diagnose.Diagnosis`).
+
+    One row per finding: causes found before solving, customers who would go short (and by how much), lanes,
+    depots and hubs used to their limit with the bottleneck (the minimum cut) marked, notes, and the internal
+    penalty per unit short the re-solve used. Without a diagnosis the result's messages are listed as reasons.
+    """
+    units = network.settings.units or "units"
+    columns = ["finding", "item", "demand", "short", "capacity", "used", "bottleneck", "penalty per unit",
+               "explanation"]
+    kinds = {"finding": "text", "item": "text", "demand": "quantity", "short": "quantity", "capacity": "quantity",
+             "used": "quantity", "bottleneck": "text", "penalty per unit": "money", "explanation": "text"}
+    blank = [None] * 7
+    rows: list[list] = []
+    diagnosis = result.diagnosis
+    if diagnosis is None:
+        rows += [["reason", *blank, str(m)] for m in result.messages]
+        return ResultSheet(WHY_SHEET, columns, rows, kinds)
+    rows += [["cause found before solving", *blank, str(c)] for c in diagnosis.structural]
+    for r in diagnosis.short.itertuples(index=False):
+        rows.append(["customer short", _plain(r.customer), _plain(r.demand), _plain(r.short), None, None, None, None,
+                     f"would be {float(r.short):.6g} {units} short of its demand of {float(r.demand):.6g} {units}"])
+    for r in diagnosis.saturated.itertuples(index=False):
+        cut = bool(r.bottleneck)
+        rows.append([f"{r.kind} at its limit", _plain(r.item), None, None, _plain(r.capacity), _plain(r.used),
+                     "yes" if cut else "no", None,
+                     "part of the bottleneck: the capacity that runs out (raise it, or add a route around it)" if cut
+                     else "used to its limit on the way; not part of the bottleneck found"])
+    rows += [["note", *blank, str(n)] for n in diagnosis.notes]
+    if diagnosis.penalty is not None:
+        rows.append(["internal penalty", None, None, None, None, None, None, _plain(diagnosis.penalty),
+                     "cost per unit short used only to find the least shortfall; larger than any plan can save, "
+                     "so the re-solve ships as much as the network allows"])
+    return ResultSheet(WHY_SHEET, columns, rows, kinds)
 
 
 SCENARIOS_SHEET = RESULT_PREFIX + "Scenarios"

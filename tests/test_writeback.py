@@ -41,7 +41,9 @@ except ImportError:  # pragma: no cover - depends on the state of the other stag
                                checksum=checksum, version=version, started=started)
 
 FORMULA_NAME = "=SUM(A1)"
-NEW_NAMES = ["LS Summary", "LS Lane flows", "LS Nodes"]
+# A v1 plan: the three basic sheets plus the sensitivity sheet (issue 3); design, trips and why-no-plan sheets
+# appear only when they apply (tests/test_insight_output.py).
+NEW_NAMES = ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity"]
 
 
 # ------------------------------------------------------------------------------------------------ fixtures
@@ -192,7 +194,7 @@ def test_every_original_member_is_byte_identical_except_index_parts(tmp_path, ri
     assert {"xl/charts/chart1.xml", "xl/media/image1.png", "xl/drawings/drawing1.xml", "xl/styles.xml",
             "xl/sharedStrings.xml", "xl/tables/table1.xml"} <= set(before)
     added = set(after) - set(before)
-    assert len(added) == 9  # per sheet: worksheet, its rels, its table
+    assert len(added) == 3 * len(NEW_NAMES)  # per sheet: worksheet, its rels, its table
     for name in added:
         ET.fromstring(after[name])  # well-formed XML (Python's parser as the reference)
 
@@ -204,7 +206,7 @@ def test_index_parts_only_gain_entries_and_keep_markup_compatibility(tmp_path, r
     after = wbk.members(out)
     # Removing what we added gives back the original text: the edits are insertions, nothing else moved.
     workbook = after["xl/workbook.xml"].decode()
-    assert re.sub(r'<sheet name="LS (Summary|Lane flows|Nodes)"[^>]*/>', "", workbook) == \
+    assert re.sub(r'<sheet name="LS (Summary|Lane flows|Nodes|Sensitivity)"[^>]*/>', "", workbook) == \
         before["xl/workbook.xml"].decode()
     assert 'mc:Ignorable="x15 xr"' in workbook and workbook.startswith("<?xml")
     rels = after["xl/_rels/workbook.xml.rels"].decode()
@@ -238,7 +240,7 @@ def test_input_sheet_values_are_identical(tmp_path, rich, plan_sheets):
 def test_result_sheets_read_back_in_openpyxl(tmp_path, rich, plan_sheets):
     write_results(rich, rich, plan_sheets)
     wb = openpyxl.load_workbook(rich)
-    assert wb.sheetnames[-3:] == NEW_NAMES
+    assert wb.sheetnames[-len(NEW_NAMES):] == NEW_NAMES
     for sheet in plan_sheets:
         ws = wb[sheet.name]
         rows = list(ws.iter_rows(values_only=True))
@@ -285,7 +287,7 @@ def test_rerun_replaces_result_sheets(tmp_path, rich, plan_sheets):
         if name not in wbk.INDEX_PARTS:
             assert second[name] == data
     tables = [n for n in second if n.startswith("xl/tables/")]
-    assert len(tables) == 4  # the user's table + our three
+    assert len(tables) == 1 + len(NEW_NAMES)  # the user's table + ours
 
 
 def test_sheets_that_merely_resemble_the_prefix_are_kept(tmp_path, rich, plan_sheets):
@@ -313,8 +315,8 @@ def test_stale_result_sheet_in_the_middle_is_dropped_and_local_names_renumbered(
     assert workbook.count("_xlnm.Print_Area") == 1 and 'localSheetId="2"' in workbook
     app = wbk.members(path)["docProps/app.xml"].decode()
     assert "LS Old results" not in app and all(f"<vt:lpstr>{n}</vt:lpstr>" in app for n in wb.sheetnames)
-    # its worksheet part went with it: three sheets added (3 members each), one dropped (a sheet without rels)
-    assert len(wbk.members(path)) == len(old_members) + 9 - 1
+    # its worksheet part went with it: our sheets added (3 members each), one dropped (a sheet without rels)
+    assert len(wbk.members(path)) == len(old_members) + 3 * len(NEW_NAMES) - 1
 
 
 def set_active_tab(path: Path, index: int) -> None:
@@ -355,7 +357,7 @@ def test_user_table_name_is_not_reused(tmp_path, plan_sheets):
     write_results(path, path, plan_sheets)
     wb = openpyxl.load_workbook(path)
     names = [t for ws in wb.worksheets for t in ws.tables]
-    assert len(names) == len({n.lower() for n in names}) == 5
+    assert len(names) == len({n.lower() for n in names}) == 2 + len(NEW_NAMES)  # customer table, user's, ours
     ids = [ws.tables[t].id for ws in wb.worksheets for t in ws.tables]
     assert len(set(ids)) == len(ids)
 
@@ -365,7 +367,7 @@ def test_unusual_relationship_prefix_is_used_for_new_sheets(tmp_path, plan_sheet
     write_results(path, path, plan_sheets)
     workbook = wbk.members(path)["xl/workbook.xml"].decode()
     assert '<sheet name="LS Summary" sheetId="' in workbook and ' r:id=' not in workbook
-    assert openpyxl.load_workbook(path).sheetnames[-3:] == NEW_NAMES
+    assert openpyxl.load_workbook(path).sheetnames[-len(NEW_NAMES):] == NEW_NAMES
 
 
 def test_xlsm_keeps_its_macro_part(tmp_path, plan_sheets):
@@ -378,7 +380,7 @@ def test_xlsm_keeps_its_macro_part(tmp_path, plan_sheets):
     assert "vbaProject" in after["xl/_rels/workbook.xml.rels"].decode()
     assert all(after[n] == d for n, d in before.items() if n not in wbk.INDEX_PARTS)
     wb = openpyxl.load_workbook(path, keep_vba=True)
-    assert wb.sheetnames[-3:] == NEW_NAMES
+    assert wb.sheetnames[-len(NEW_NAMES):] == NEW_NAMES
 
 
 def test_macro_workbook_to_xlsx_name_is_refused(tmp_path, plan_sheets):
@@ -489,7 +491,7 @@ def test_output_to_another_path_leaves_the_source_identical(tmp_path, rich, plan
     out.parent.mkdir()
     write_results(rich, out, plan_sheets)
     assert rich.read_bytes() == before
-    assert openpyxl.load_workbook(out).sheetnames[-3:] == NEW_NAMES
+    assert openpyxl.load_workbook(out).sheetnames[-len(NEW_NAMES):] == NEW_NAMES
     assert leftovers(out.parent) == []
 
 
@@ -497,7 +499,7 @@ def test_source_equal_to_target_works_and_keeps_permissions(tmp_path, rich, plan
     os.chmod(rich, 0o640)
     write_results(rich, rich, plan_sheets)
     assert stat.S_IMODE(os.stat(rich).st_mode) == 0o640  # not the temporary file's private 0600
-    assert openpyxl.load_workbook(rich).sheetnames[-3:] == NEW_NAMES
+    assert openpyxl.load_workbook(rich).sheetnames[-len(NEW_NAMES):] == NEW_NAMES
     assert leftovers(tmp_path) == []
 
 
