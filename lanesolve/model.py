@@ -532,3 +532,216 @@ def build_model(network: Network, linking: bool = True) -> LaneModel:
     add_hub_flow(problem, network, out_terms, in_terms)
     add_fixed_charge_links(problem, flow, use, big_m)
     return LaneModel(problem, flow, unmet, use, big_m, costs, penalty, open_vars, trips)
+
+
+# ------------------------------------------------------------------------------------------------ the array path
+@dataclass
+class LaneArrays:
+    """The pure LP of the module docstring as arrays: the same rows and columns, in the same order, as
+    :func:`build_model` gives PuLP, without one Python object per lane.
+
+    Columns are the flow of every active lane (in lane order) and then the units short of every customer with a
+    penalty; rows are ``supply_<n>``, ``balance_<n>`` and, per hub, ``hub_flow_<n>`` then ``hub_cap_<n>``. The
+    matrix is held column-wise (compressed sparse column): the nonzeros of column ``j`` are
+    ``coefficient[start[j]:start[j + 1]]`` in rows ``row_of[start[j]:start[j + 1]]``, rows ascending.
+
+    Attributes
+    ----------
+    lane_index : numpy.ndarray
+        Lane index (in ``network.lanes``) of each flow column.
+    unmet_index : numpy.ndarray
+        Customer index (in ``network.customers``) of each unmet column.
+    column_names, row_names : list of str
+        The names :func:`build_model` gives the same columns and rows (``flow_<n>``, ``balance_<n>``, ...).
+    upper : numpy.ndarray
+        Upper bound per column (``inf`` for none); every lower bound is 0.
+    objective : numpy.ndarray
+        Cost per unit per column.
+    sense : numpy.ndarray
+        ``"L"`` (at most) or ``"E"`` (equal) per row.
+    rhs : numpy.ndarray
+        Right-hand side per row.
+    start, row_of, coefficient : numpy.ndarray
+        The matrix, column-wise (see above).
+    costs : dict of str to numpy.ndarray
+        Cost per unit per column of each of :data:`lanesolve.result.COST_COMPONENTS`; they add up to ``objective``.
+    penalty : numpy.ndarray
+        Per-unit penalty per customer row (NaN for a hard demand), as :attr:`LaneModel.penalty`.
+    """
+
+    lane_index: np.ndarray
+    unmet_index: np.ndarray
+    column_names: list[str]
+    row_names: list[str]
+    upper: np.ndarray
+    objective: np.ndarray
+    sense: np.ndarray
+    rhs: np.ndarray
+    start: np.ndarray
+    row_of: np.ndarray
+    coefficient: np.ndarray
+    costs: dict[str, np.ndarray]
+    penalty: np.ndarray
+
+    @property
+    def n_columns(self) -> int:
+        return len(self.upper)
+
+    @property
+    def n_rows(self) -> int:
+        return len(self.rhs)
+
+    @property
+    def column_of(self) -> np.ndarray:
+        """Column of each nonzero (the expanded form of ``start``)."""
+        return np.repeat(np.arange(self.n_columns), np.diff(self.start))
+
+
+def array_path_applies(network: Network) -> bool:
+    """True when :func:`build_lp_arrays` can describe the model: a pure LP (no fixed charge on an active lane and no
+    contract v2 decision). Models with yes/no or trip decisions are built by :func:`build_model` only."""
+    return not network.has_design and not network.has_fixed_charges
+
+
+def _handling(network: Network, origins: np.ndarray, destinations: np.ndarray) -> np.ndarray:
+    """Handling cost per unit per lane: the origin depot's per-unit-out cost plus the destination hub's."""
+    depot_handling = dict(zip(network.depots["id"], network.depots["handling_cost"].astype(float)))
+    hub_handling = dict(zip(network.hubs["id"], network.hubs["handling_cost"].astype(float)))
+    return (pd.Series(origins, dtype=object).map(depot_handling).fillna(0.0).to_numpy(dtype=float)
+            + pd.Series(destinations, dtype=object).map(hub_handling).fillna(0.0).to_numpy(dtype=float))
+
+
+def build_lp_arrays(network: Network) -> LaneArrays:
+    """The pure LP of ``network`` as :class:`LaneArrays`, built with numpy in a few passes over the lanes.
+
+    Parameters
+    ----------
+    network : Network
+        A validated network for which :func:`array_path_applies` is true.
+
+    Returns
+    -------
+    LaneArrays
+        Row for row and column for column the problem :func:`build_model` builds (same names, same order, same
+        coefficients), so the solver sees the same LP either way.
+
+    Raises
+    ------
+    SolverError
+        The network has yes/no or trip decisions (use :func:`build_model`).
+
+    Examples
+    --------
+    >>> from lanesolve.network import make_network
+    >>> net = make_network([{"id": "D", "supply": 8}], [{"id": "C", "demand": 5}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
+    >>> arrays = build_lp_arrays(net)
+    >>> arrays.row_names, arrays.column_names, arrays.objective.tolist()
+    (['supply_0', 'balance_0'], ['flow_0'], [2.0])
+    """
+    if not array_path_applies(network):
+        from .errors import SolverError  # late import keeps the model module free of the error module otherwise
+        raise SolverError("the array model covers pure LPs only; this network has yes/no or trip decisions "
+                          "(build it with lanesolve.model.build_model)")
+    lanes = network.active_lanes
+    lane_index = lanes.index.to_numpy()
+    origins = lanes["origin"].to_numpy(dtype=object)
+    destinations = lanes["destination"].to_numpy(dtype=object)
+    n_lanes = len(lane_index)
+    depots, customers, hubs = network.depots, network.customers, network.hubs
+
+    # Node position per lane end, -1 where the end is not of that kind.
+    depot_ids = pd.Index(depots["id"])
+    customer_ids = pd.Index(customers["id"])
+    hub_ids = pd.Index(hubs["id"])
+    o_depot, d_depot = depot_ids.get_indexer(origins), depot_ids.get_indexer(destinations)
+    o_customer, d_customer = customer_ids.get_indexer(origins), customer_ids.get_indexer(destinations)
+    o_hub, d_hub = hub_ids.get_indexer(origins), hub_ids.get_indexer(destinations)
+
+    # Rows in build_model's order: supply (depots with a lane), balance (every customer), then per hub its flow row
+    # (hubs with a lane) followed by its capacity row (finite capacity and a lane in).
+    depot_has_lane = (np.bincount(o_depot[o_depot >= 0], minlength=len(depots))
+                      + np.bincount(d_depot[d_depot >= 0], minlength=len(depots))) > 0
+    hub_in = np.bincount(d_hub[d_hub >= 0], minlength=len(hubs)) > 0
+    hub_has_lane = hub_in | (np.bincount(o_hub[o_hub >= 0], minlength=len(hubs)) > 0)
+    hub_capacity = hubs["capacity"].to_numpy(dtype=float)
+    hub_has_cap = hub_in & np.isfinite(hub_capacity)
+
+    supply_row = np.full(len(depots), -1)
+    supply_row[depot_has_lane] = np.arange(int(depot_has_lane.sum()))
+    first_balance = int(depot_has_lane.sum())
+    balance_row = first_balance + np.arange(len(customers))
+    hub_rows_each = hub_has_lane.astype(int) + hub_has_cap.astype(int)
+    hub_first = first_balance + len(customers) + np.concatenate([[0], np.cumsum(hub_rows_each)[:-1]]).astype(int)
+    hub_flow_row = np.where(hub_has_lane, hub_first, -1)
+    hub_cap_row = np.where(hub_has_cap, hub_first + hub_has_lane.astype(int), -1)
+    n_rows = first_balance + len(customers) + int(hub_rows_each.sum())
+
+    row_names = [""] * n_rows
+    sense = np.empty(n_rows, dtype="<U1")
+    rhs = np.zeros(n_rows)
+    depot_index = depots.index.to_numpy()
+    for position in np.flatnonzero(depot_has_lane).tolist():
+        row_names[supply_row[position]] = f"supply_{depot_index[position]}"
+    sense[supply_row[depot_has_lane]] = "L"
+    rhs[supply_row[depot_has_lane]] = depots["supply"].to_numpy(dtype=float)[depot_has_lane]
+    for position, index in enumerate(customers.index.tolist()):
+        row_names[balance_row[position]] = f"balance_{index}"
+    sense[balance_row] = "E"
+    rhs[balance_row] = customers["demand"].to_numpy(dtype=float)
+    hub_index = hubs.index.to_numpy()
+    for position in range(len(hubs)):
+        if hub_has_lane[position]:
+            row_names[hub_flow_row[position]] = f"hub_flow_{hub_index[position]}"
+        if hub_has_cap[position]:
+            row_names[hub_cap_row[position]] = f"hub_cap_{hub_index[position]}"
+    sense[hub_flow_row[hub_has_lane]] = "E"
+    sense[hub_cap_row[hub_has_cap]] = "L"
+    rhs[hub_cap_row[hub_has_cap]] = hub_capacity[hub_has_cap]
+
+    # Nonzeros: out of an origin -1 in its balance / hub flow row, +1 in a depot's supply row (net outflow); into a
+    # destination the opposite, plus +1 in the hub's capacity row.
+    lane_column = np.arange(n_lanes)
+    pieces = []
+    for position, row_table, sign in ((o_depot, supply_row, 1.0), (o_customer, balance_row, -1.0),
+                                      (o_hub, hub_flow_row, -1.0), (d_depot, supply_row, -1.0),
+                                      (d_customer, balance_row, 1.0), (d_hub, hub_flow_row, 1.0),
+                                      (d_hub, hub_cap_row, 1.0)):
+        chosen = position >= 0
+        rows = row_table[position[chosen]]
+        keep = rows >= 0
+        pieces.append((rows[keep], lane_column[chosen][keep], np.full(int(keep.sum()), sign)))
+
+    penalty = customer_penalties(network)
+    soft = ~np.isnan(penalty)
+    unmet_index = customers.index.to_numpy()[soft]
+    unmet_column = n_lanes + np.arange(int(soft.sum()))
+    pieces.append((balance_row[soft], unmet_column, np.ones(int(soft.sum()))))
+
+    rows = np.concatenate([p[0] for p in pieces]).astype(np.int64)
+    columns = np.concatenate([p[1] for p in pieces]).astype(np.int64)
+    values = np.concatenate([p[2] for p in pieces])
+    # Column-major, rows ascending; a lane from a node to itself adds +1 and -1 to one row, summed as PuLP does.
+    order = np.lexsort((rows, columns))
+    rows, columns, values = rows[order], columns[order], values[order]
+    if len(rows):
+        new = np.r_[True, (rows[1:] != rows[:-1]) | (columns[1:] != columns[:-1])]
+        values = np.add.reduceat(values, np.flatnonzero(new))
+        rows, columns = rows[new], columns[new]
+    n_columns = n_lanes + len(unmet_index)
+    start = np.searchsorted(columns, np.arange(n_columns + 1)).astype(np.int64)
+
+    unit_cost = lanes["cost_per_unit"].to_numpy(dtype=float)
+    handling = _handling(network, origins, destinations)
+    zeros_unmet = np.zeros(len(unmet_index))
+    costs = {
+        "transport": np.r_[unit_cost, zeros_unmet],
+        "handling": np.r_[handling, zeros_unmet],
+        "fixed_lane": np.zeros(n_columns),
+        "unmet_penalty": np.r_[np.zeros(n_lanes), penalty[soft]],
+    }
+    upper = np.r_[lanes["capacity"].to_numpy(dtype=float), customers["demand"].to_numpy(dtype=float)[soft]]
+    column_names = [f"flow_{i}" for i in lane_index.tolist()] + [f"unmet_{i}" for i in unmet_index.tolist()]
+    objective = np.r_[unit_cost + handling, penalty[soft]]
+    return LaneArrays(lane_index, unmet_index, column_names, row_names, upper, objective, sense, rhs, start, rows,
+                      values, costs, penalty)

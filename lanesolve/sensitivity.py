@@ -25,6 +25,14 @@ cost 0 in every optimal dual, and a row with slack has dual 0 in every optimal d
 propagation (an equation with one unknown dual fixes it). A dual fixed that way is unique; any other is reported as
 ``unique = False`` with the text "not unique" and no figure. The test is sufficient, not necessary: a dual it cannot
 fix may still be unique, so "not unique" means "not determined by this plan" (said so in the text).
+
+Speed
+-----
+Everything is computed on arrays of the solved LP (:class:`SolvedLp`): row activities by one weighted count over
+the nonzeros, bound and slack tests elementwise, the sentences by column-wise string concatenation. The
+propagation runs in Python but only over columns strictly inside their bounds, which in a basic solution are basic:
+at most one per row. A pure LP solved by CBC on the array path (:func:`lanesolve.solve.solve`) hands its arrays and
+CBC's duals over directly (:func:`analyse_arrays`); a PuLP problem is turned into the same arrays first.
 """
 
 from __future__ import annotations
@@ -32,11 +40,13 @@ from __future__ import annotations
 import math
 import warnings
 from collections import deque
+from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 import pulp
 
-from .model import LaneModel, build_model
+from .model import LaneArrays, LaneModel, build_model
 from .network import Network
 from .result import SENSITIVITY_COLUMNS, empty_frame
 
@@ -44,15 +54,60 @@ from .result import SENSITIVITY_COLUMNS, empty_frame
 TOLERANCE = 1e-7
 #: How many rows of each figure the HTML summary should show (the sheet and JSON carry all).
 TOP_FEW = 5
+#: Values smaller than this in magnitude are reported as 0 (solver noise).
+NOISE = 1e-9
 
 LP_BASIS = "LP"
 FIXED_BASIS = "LP with the plan's yes/no and trip decisions fixed"
 
+_NOT_UNIQUE = "an amount that is not unique"
+_DEGENERATE = " (the plan is degenerate here: more than one figure fits it, so none is shown)."
 
-def _close(a: float, b: float) -> bool:
-    if not math.isfinite(b):
-        return False
-    return abs(a - b) <= TOLERANCE * max(1.0, abs(b))
+
+@dataclass
+class SolvedLp:
+    """A solved LP as arrays: what the figures and the uniqueness test read.
+
+    Attributes
+    ----------
+    row_names : list of str
+    sense : numpy.ndarray
+        ``"L"``, ``"G"`` or ``"E"`` per row.
+    rhs, dual : numpy.ndarray
+        Per row; ``dual`` is NaN where the solver gave none.
+    lower, upper, value, reduced_cost : numpy.ndarray
+        Per column; infinite bounds for none, ``reduced_cost`` NaN where the solver gave none.
+    start, row_of, coefficient : numpy.ndarray
+        The matrix column-wise, as in :class:`lanesolve.model.LaneArrays`.
+    """
+
+    row_names: list[str]
+    sense: np.ndarray
+    rhs: np.ndarray
+    dual: np.ndarray
+    lower: np.ndarray
+    upper: np.ndarray
+    value: np.ndarray
+    reduced_cost: np.ndarray
+    start: np.ndarray
+    row_of: np.ndarray
+    coefficient: np.ndarray
+
+    @property
+    def column_of(self) -> np.ndarray:
+        return np.repeat(np.arange(len(self.value)), np.diff(self.start))
+
+    def activity(self) -> np.ndarray:
+        """Left-hand side of every row at the plan."""
+        return np.bincount(self.row_of, weights=self.coefficient * self.value[self.column_of],
+                           minlength=len(self.rhs))
+
+
+def _close(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Elementwise: ``a`` within :data:`TOLERANCE` of a finite ``b`` (relative to max(1, |b|))."""
+    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(b) & (np.abs(a - b) <= TOLERANCE * np.maximum(1.0, np.abs(b)))
 
 
 def _rows(problem: pulp.LpProblem) -> dict[str, pulp.LpConstraint]:
@@ -60,6 +115,44 @@ def _rows(problem: pulp.LpProblem) -> dict[str, pulp.LpConstraint]:
     rows = problem.constraints
     listed = rows() if callable(rows) else list(rows.values())
     return {row.name: row for row in listed}
+
+
+def solved_from_problem(problem: pulp.LpProblem) -> tuple[SolvedLp, list[str]]:
+    """The :class:`SolvedLp` of a solved PuLP problem, and its column (variable) names."""
+    variables = problem.variables()
+    position = {var.name: j for j, var in enumerate(variables)}
+    rows = _rows(problem)
+    entries = [(position[var.name], i, coef) for i, row in enumerate(rows.values()) for var, coef in row.items()]
+    entries.sort()
+    columns = np.array([e[0] for e in entries], dtype=np.int64)
+    sense_code = {pulp.LpConstraintLE: "L", pulp.LpConstraintGE: "G", pulp.LpConstraintEQ: "E"}
+
+    def number(x, default):
+        return default if x is None else float(x)
+
+    solved = SolvedLp(
+        row_names=list(rows),
+        sense=np.array([sense_code[row.sense] for row in rows.values()], dtype="<U1"),
+        rhs=np.array([-row.constant for row in rows.values()], dtype=float),
+        dual=np.array([number(row.pi, math.nan) for row in rows.values()], dtype=float),
+        lower=np.array([number(var.lowBound, -math.inf) for var in variables], dtype=float),
+        upper=np.array([number(var.upBound, math.inf) for var in variables], dtype=float),
+        value=np.array([number(var.varValue, 0.0) for var in variables], dtype=float),
+        reduced_cost=np.array([number(var.dj, math.nan) for var in variables], dtype=float),
+        start=np.searchsorted(columns, np.arange(len(variables) + 1)).astype(np.int64),
+        row_of=np.array([e[1] for e in entries], dtype=np.int64),
+        coefficient=np.array([e[2] for e in entries], dtype=float),
+    )
+    return solved, [var.name for var in variables]
+
+
+def solved_from_arrays(arrays: LaneArrays, answer) -> SolvedLp:
+    """The :class:`SolvedLp` of ``arrays`` with CBC's answer (a :class:`lanesolve.solve.LpAnswer`), values
+    noise-cleaned as the plan reports them."""
+    value = answer.value.copy()
+    value[np.abs(value) < NOISE] = 0.0
+    return SolvedLp(arrays.row_names, arrays.sense, arrays.rhs, answer.dual, np.zeros(arrays.n_columns),
+                    arrays.upper, value, answer.reduced_cost, arrays.start, arrays.row_of, arrays.coefficient)
 
 
 def _fixed_lp(network: Network, model: LaneModel) -> LaneModel:
@@ -81,6 +174,39 @@ def _solve_lp(problem: pulp.LpProblem) -> bool:
     return problem.sol_status == pulp.LpSolutionOptimal
 
 
+def determined(solved: SolvedLp) -> np.ndarray:
+    """Per row: is its dual the same in every optimal dual solution? (the test of the module docstring)"""
+    n_rows = len(solved.rhs)
+    activity = solved.activity()
+    known = (solved.sense != "E") & ~_close(activity, solved.rhs)
+    value = solved.value
+    interior = ((solved.lower < solved.upper) & ~_close(value, solved.lower) & ~_close(value, solved.upper)
+                & (np.diff(solved.start) > 0))
+    equations = np.flatnonzero(interior)
+    if len(equations) == 0:
+        return known
+    # The rows of each interior column, and for each row the interior columns (equations) it appears in.
+    rows_of = [solved.row_of[solved.start[j]:solved.start[j + 1]].tolist() for j in equations.tolist()]
+    known_list = known.tolist()
+    unknown_count = [sum(not known_list[r] for r in rows) for rows in rows_of]
+    by_row: dict[int, list[int]] = {}
+    for position, rows in enumerate(rows_of):
+        for r in rows:
+            by_row.setdefault(r, []).append(position)
+    queue = deque(i for i, n in enumerate(unknown_count) if n == 1)
+    while queue:
+        position = queue.popleft()
+        if unknown_count[position] != 1:
+            continue
+        row = next(r for r in rows_of[position] if not known_list[r])
+        known_list[row] = True
+        for other in by_row.get(row, []):
+            unknown_count[other] -= 1
+            if unknown_count[other] == 1:
+                queue.append(other)
+    return np.fromiter(known_list, dtype=bool, count=n_rows)
+
+
 def determined_duals(problem: pulp.LpProblem) -> set[str]:
     """Names of the rows whose dual is the same in every optimal dual solution (see the module docstring).
 
@@ -94,41 +220,143 @@ def determined_duals(problem: pulp.LpProblem) -> set[str]:
     set of str
         Row names whose dual is fixed by complementary slackness with the plan.
     """
-    columns: dict[str, list[str]] = {}
-    known: set[str] = set()
-    for name, row in _rows(problem).items():
-        activity = sum(coef * (var.varValue or 0.0) for var, coef in row.items())
-        rhs = -row.constant
-        if row.sense != pulp.LpConstraintEQ and not _close(activity, rhs):
-            known.add(name)
-        for var, _ in row.items():
-            columns.setdefault(var.name, []).append(name)
-    equations: list[list[str]] = []
-    for var in problem.variables():
-        value = var.varValue or 0.0
-        low = -math.inf if var.lowBound is None else var.lowBound
-        high = math.inf if var.upBound is None else var.upBound
-        if low < high and not _close(value, low) and not _close(value, high):
-            rows = columns.get(var.name, [])
-            if rows:
-                equations.append(rows)
-    unknown_count = [sum(r not in known for r in eq) for eq in equations]
-    by_row: dict[str, list[int]] = {}
-    for position, eq in enumerate(equations):
-        for r in eq:
-            by_row.setdefault(r, []).append(position)
-    queue = deque(i for i, n in enumerate(unknown_count) if n == 1)
-    while queue:
-        position = queue.popleft()
-        if unknown_count[position] != 1:
-            continue
-        row = next(r for r in equations[position] if r not in known)
-        known.add(row)
-        for other in by_row.get(row, []):
-            unknown_count[other] -= 1
-            if unknown_count[other] == 1:
-                queue.append(other)
-    return known
+    solved, _ = solved_from_problem(problem)
+    return {name for name, sure in zip(solved.row_names, determined(solved).tolist()) if sure}
+
+
+def _value_text(values: np.ndarray, money: str) -> list[str]:
+    return [f"{v:,.4g}{money}" for v in values.tolist()]
+
+
+def _figure_frame(figure: str, items, values, unique, basis: str, prefix, suffix, money: str) -> pd.DataFrame:
+    """Rows of one figure: ``prefix + amount + suffix`` per item, the amount hidden where not unique."""
+    values = np.asarray(values, dtype=float)
+    unique = np.asarray(unique, dtype=bool)
+    with np.errstate(invalid="ignore"):
+        shown = np.where(unique, np.where(np.abs(values) < NOISE, 0.0, values), math.nan)
+    prefix, suffix = (pd.Series([part] * len(values), dtype=object) if isinstance(part, str)
+                      else pd.Series(part, dtype=object).reset_index(drop=True) for part in (prefix, suffix))
+    amount = pd.Series(_value_text(shown, money), dtype=object)
+    text = (prefix + amount + suffix).where(unique, prefix + _NOT_UNIQUE + suffix.str[:-1] + _DEGENERATE)
+    return pd.DataFrame({"figure": figure, "item": pd.Series(items, dtype=object).reset_index(drop=True),
+                         "value": shown, "unique": unique, "basis": basis, "text": text.to_numpy()},
+                        columns=SENSITIVITY_COLUMNS)
+
+
+def _lane_labels(lanes: pd.DataFrame) -> pd.Series:
+    mode = lanes["mode"].astype(str)
+    return (lanes["origin"].astype(str) + " -> " + lanes["destination"].astype(str)
+            + (" (" + mode + ")").where(mode != "", "")).reset_index(drop=True)
+
+
+def figures(network: Network, solved: SolvedLp, flow_column: np.ndarray, shut: np.ndarray, basis: str,
+            trip_index: list[int] = ()) -> pd.DataFrame:
+    """The sensitivity figures of the module docstring from a solved LP.
+
+    Parameters
+    ----------
+    network : Network
+    solved : SolvedLp
+        The LP at its optimum; its rows are named as in :mod:`lanesolve.model`.
+    flow_column : numpy.ndarray
+        Column of each active lane's flow, in ``network.active_lanes`` order.
+    shut : numpy.ndarray
+        Per active lane: shut by a fixed yes/no or zero-trip decision (no reduced cost is reported then).
+    basis : str
+        Text of column ``basis``.
+    trip_index : list of int
+        Lane indices with a trip variable (``trip_<n>`` rows), in report order.
+    """
+    units = network.settings.units or "units"
+    money = f" {network.settings.currency}" if network.settings.currency else ""
+    sure = determined(solved)
+    row = {name: i for i, name in enumerate(solved.row_names)}
+    binding = (solved.sense != "E") & _close(solved.activity(), solved.rhs)
+    dual = solved.dual
+    or_zero_dual = np.nan_to_num(dual, nan=0.0)
+    frames = []
+
+    def rows_named(frame: pd.DataFrame, prefix: str) -> tuple[np.ndarray, np.ndarray]:
+        position = np.array([row.get(f"{prefix}{i}", -1) for i in frame.index.tolist()], dtype=np.int64)
+        return position >= 0, position
+
+    customers = network.customers
+    has, position = rows_named(customers, "balance_")
+    ids = customers["id"].astype(str).to_numpy()[has]
+    frames.append(_figure_frame("marginal_cost", ids, dual[position[has]], sure[position[has]], basis,
+                                "One more unit of demand (" + units + ") at customer " + pd.Series(ids, dtype=object)
+                                + " costs ", ".", money))
+    for figure, frame, prefix, what in (("supply_value", network.depots, "supply_", "of supply at depot"),
+                                        ("hub_capacity_value", network.hubs, "hub_cap_", "of capacity at hub")):
+        has, position = rows_named(frame, prefix)
+        has[has] = binding[position[has]]
+        ids = frame["id"].astype(str).to_numpy()[has]
+        frames.append(_figure_frame(figure, ids, -or_zero_dual[position[has]], sure[position[has]], basis,
+                                    f"One more unit ({units}) {what} " + pd.Series(ids, dtype=object) + " saves ",
+                                    ".", money))
+
+    lanes = network.active_lanes
+    if len(lanes):
+        column_unknown = np.bincount(solved.column_of[~sure[solved.row_of]], minlength=len(solved.value))
+        unique = column_unknown[flow_column] == 0
+        value, high = solved.value[flow_column], solved.upper[flow_column]
+        reduced = solved.reduced_cost[flow_column]
+        at_capacity = np.isfinite(high) & (high > 0) & _close(value, high)
+        unused = ~at_capacity & (value <= TOLERANCE) & ~shut & (high > 0)
+        chosen = at_capacity | unused
+        labels = _lane_labels(lanes)[chosen].to_numpy()
+        amount = np.where(at_capacity, -np.nan_to_num(reduced, nan=0.0), reduced)[chosen]
+        capacity_row = at_capacity[chosen]
+        label = pd.Series(labels, dtype=object)
+        prefix = ("One more unit (" + units + ") of capacity on lane " + label + " saves ").where(
+            capacity_row, "Lane " + label + " is unused; its cost per unit would have to fall by ")
+        suffix = pd.Series(np.where(capacity_row, ".", " before the plan used it."), dtype=object)
+        frame = _figure_frame("reduced_cost", labels, amount, unique[chosen], basis, prefix, suffix, money)
+        frame["figure"] = np.where(capacity_row, "lane_capacity_value", "reduced_cost")
+        frames.append(frame)
+
+    trip_rows = []
+    for index in trip_index:
+        name = f"trip_{index}"
+        if name in row and binding[row[name]]:
+            lane = lanes.loc[index]
+            label = f"{lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
+            trip_rows.append((label, -or_zero_dual[row[name]], bool(sure[row[name]])))
+    if trip_rows:
+        labels = [r[0] for r in trip_rows]
+        frames.append(_figure_frame("trip_capacity_value", labels, [r[1] for r in trip_rows],
+                                    [r[2] for r in trip_rows], basis,
+                                    f"One more unit ({units}) of room in the planned trips on lane "
+                                    + pd.Series(labels, dtype=object) + " saves ", ".", money))
+    frames = [f for f in frames if len(f)]
+    if not frames:
+        return empty_frame(SENSITIVITY_COLUMNS)
+    out = pd.concat(frames, ignore_index=True)
+    out["unique"] = out["unique"].astype(bool)
+    out["value"] = out["value"].astype(float)
+    return out
+
+
+def analyse_arrays(network: Network, arrays: LaneArrays, answer) -> pd.DataFrame:
+    """Sensitivity figures of a pure LP solved on the array path (:func:`lanesolve.solve.solve`), from CBC's own
+    duals and reduced costs of that solve: no second solve, no PuLP objects.
+
+    Parameters
+    ----------
+    network : Network
+    arrays : LaneArrays
+        The LP as built by :func:`lanesolve.model.build_lp_arrays`.
+    answer : lanesolve.solve.LpAnswer
+        CBC's optimal answer for ``arrays``.
+
+    Returns
+    -------
+    DataFrame
+        As :func:`analyse`.
+    """
+    solved = solved_from_arrays(arrays, answer)
+    n_lanes = len(arrays.lane_index)
+    return figures(network, solved, np.arange(n_lanes), np.zeros(n_lanes, dtype=bool), LP_BASIS)
 
 
 def analyse(network: Network, model: LaneModel, solver: str = "cbc") -> pd.DataFrame:
@@ -152,84 +380,16 @@ def analyse(network: Network, model: LaneModel, solver: str = "cbc") -> pd.DataF
     lp = _fixed_lp(network, model) if model.is_mip or solver != "cbc" else model
     if lp is not model and not _solve_lp(lp.problem):
         return empty_frame(SENSITIVITY_COLUMNS)
-    problem = lp.problem
-    sure = determined_duals(problem)
-    constraints = _rows(problem)
-    slack_free = _binding(problem, constraints)
-    rows_of: dict[str, list[str]] = {}
-    for name, row in constraints.items():
-        for var, _ in row.items():
-            rows_of.setdefault(var.name, []).append(name)
-    units = network.settings.units or "units"
-    money = f" {network.settings.currency}" if network.settings.currency else ""
-    out: list[tuple] = []
-
-    def add(figure, item, value, unique, sentence):
-        value = float(value) if value is not None else math.nan
-        if unique:
-            value = 0.0 if abs(value) < 1e-9 else value
-            out.append((figure, item, value, True, basis, sentence.format(v=f"{value:,.4g}{money}")))
-        else:
-            out.append((figure, item, math.nan, False, basis,
-                        sentence.format(v="an amount that is not unique")[:-1] + " (the plan is degenerate here: "
-                        "more than one figure fits it, so none is shown)."))
-
-    for index, node in zip(network.customers.index.tolist(), network.customers["id"]):
-        name = f"balance_{index}"
-        if name in constraints:
-            add("marginal_cost", node, constraints[name].pi, name in sure,
-                f"One more unit of demand ({units}) at customer {node} costs {{v}}.")
-    for index, node in zip(network.depots.index.tolist(), network.depots["id"]):
-        name = f"supply_{index}"
-        if name in slack_free:
-            add("supply_value", node, -(constraints[name].pi or 0.0), name in sure,
-                f"One more unit ({units}) of supply at depot {node} saves {{v}}.")
-    for index, node in zip(network.hubs.index.tolist(), network.hubs["id"]):
-        name = f"hub_cap_{index}"
-        if name in slack_free:
-            add("hub_capacity_value", node, -(constraints[name].pi or 0.0), name in sure,
-                f"One more unit ({units}) of capacity at hub {node} saves {{v}}.")
-
+    solved, names = solved_from_problem(lp.problem)
+    position = {name: j for j, name in enumerate(names)}
     lanes = network.active_lanes
+    flow_column = np.array([position[lp.flow[i].name] for i in lanes.index.tolist()], dtype=np.int64)
     # Lanes shut by a fixed yes/no or zero-trip decision: their LP reduced cost says nothing about the decision.
-    shut = {index for index, var in list(lp.use.items()) + list(lp.trips.items())
-            if var.upBound is not None and var.upBound < 0.5}
-    for index, origin, destination, mode in zip(lanes.index.tolist(), lanes["origin"], lanes["destination"],
-                                                lanes["mode"]):
-        var = lp.flow[index]
-        label = f"{origin} -> {destination}" + (f" ({mode})" if mode else "")
-        unique = all(r in sure for r in rows_of.get(var.name, []))
-        value, high = var.varValue or 0.0, var.upBound
-        if high is not None and high > 0 and _close(value, high):
-            add("lane_capacity_value", label, -(var.dj or 0.0), unique,
-                f"One more unit ({units}) of capacity on lane {label} saves {{v}}.")
-        elif value <= TOLERANCE and index not in shut and (high is None or high > 0):
-            add("reduced_cost", label, var.dj, unique,
-                f"Lane {label} is unused; its cost per unit would have to fall by {{v}} before the plan used it.")
-    for index in lp.trips:
-        name = f"trip_{index}"
-        if index in shut:
-            continue
-        if name in slack_free:
-            lane = lanes.loc[index]
-            label = f"{lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
-            add("trip_capacity_value", label, -(constraints[name].pi or 0.0), name in sure,
-                f"One more unit ({units}) of room in the planned trips on lane {label} saves {{v}}.")
-    if not out:
-        return empty_frame(SENSITIVITY_COLUMNS)
-    return pd.DataFrame(out, columns=SENSITIVITY_COLUMNS)
-
-
-def _binding(problem: pulp.LpProblem, constraints: dict) -> set[str]:
-    """Names of the inequality rows with no slack at the plan."""
-    binding = set()
-    for name, row in constraints.items():
-        if row.sense == pulp.LpConstraintEQ:
-            continue
-        activity = sum(coef * (var.varValue or 0.0) for var, coef in row.items())
-        if _close(activity, -row.constant):
-            binding.add(name)
-    return binding
+    shut_set = {index for index, var in list(lp.use.items()) + list(lp.trips.items())
+                if var.upBound is not None and var.upBound < 0.5}
+    shut = np.array([i in shut_set for i in lanes.index.tolist()], dtype=bool)
+    trip_index = [i for i in lp.trips if i not in shut_set]
+    return figures(network, solved, flow_column, shut, basis, trip_index)
 
 
 def top_few(sensitivity: pd.DataFrame, figure: str, count: int = TOP_FEW) -> pd.DataFrame:

@@ -30,13 +30,16 @@ objective as the bound.
 from __future__ import annotations
 
 import contextlib
+import io
 import math
 import os
 import re
+import subprocess
 import sys
 import tempfile
 import time
 import warnings
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -44,7 +47,7 @@ import pandas as pd
 import pulp
 
 from .errors import SolverError
-from .model import LaneModel, build_model
+from .model import LaneArrays, LaneModel, array_path_applies, build_lp_arrays, build_model
 from .network import Network
 from .result import (COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
                      Result, SolveStatus, empty_frame)
@@ -184,21 +187,29 @@ def _best_bound(solver: str, problem: pulp.LpProblem, log_text: str, total_cost:
 
 def _status(problem: pulp.LpProblem, is_mip: bool) -> SolveStatus:
     """Map PuLP's (status, solution status) to :class:`SolveStatus`; see the module docstring."""
-    if problem.sol_status == pulp.LpSolutionOptimal:
+    return status_from_codes(problem.status, problem.sol_status, is_mip)
+
+
+def status_from_codes(status: int, sol_status: int, is_mip: bool) -> SolveStatus:
+    """Map PuLP's status and solution status codes to :class:`SolveStatus` (table in the module docstring).
+
+    Both solve paths use it: the PuLP path with ``problem.status`` / ``problem.sol_status``, the array path with
+    the codes PuLP's own CBC solution-file reader returns for the same file.
+    """
+    if sol_status == pulp.LpSolutionOptimal:
         return SolveStatus.OPTIMAL
-    if problem.sol_status == pulp.LpSolutionIntegerFeasible:
+    if sol_status == pulp.LpSolutionIntegerFeasible:
         # A stopped simplex run is not known to hold a feasible point, so an LP is only trusted when optimal.
         return SolveStatus.FEASIBLE if is_mip else SolveStatus.NOT_SOLVED
-    if problem.status == pulp.LpStatusInfeasible or problem.sol_status == pulp.LpSolutionInfeasible:
+    if status == pulp.LpStatusInfeasible or sol_status == pulp.LpSolutionInfeasible:
         return SolveStatus.INFEASIBLE
-    if problem.status == pulp.LpStatusUnbounded or problem.sol_status == pulp.LpSolutionUnbounded:
+    if status == pulp.LpStatusUnbounded or sol_status == pulp.LpSolutionUnbounded:
         return SolveStatus.UNBOUNDED
     return SolveStatus.NOT_SOLVED
 
 
 def _plan(network: Network, model: LaneModel, result: Result) -> None:
     """Fill ``result`` with the flows, node balance, unmet demand and cost breakdown of the solved ``model``."""
-    lanes = network.lanes.loc[list(model.flow)]
     flow = _clean([var.varValue for var in model.flow.values()])
     # The charge follows the contract ("charged once if the lane carries any flow"): a solver may leave a use
     # variable at 1 on an empty lane in a stopped run; switching it off keeps the plan feasible and is cheaper.
@@ -213,6 +224,27 @@ def _plan(network: Network, model: LaneModel, result: Result) -> None:
         var.varValue = float(value)
 
     breakdown = {name: float(model.costs[name].value() or 0.0) for name in model.costs}
+    _fill_plan(network, np.fromiter(model.flow, dtype=np.int64, count=len(model.flow)), flow,
+               np.fromiter(model.unmet, dtype=np.int64, count=len(model.unmet)), unmet_values, model.penalty,
+               breakdown, result)
+    if network.has_design:
+        lanes = network.lanes.loc[list(model.flow)]
+        outflow = pd.Series(flow, index=lanes["origin"].to_numpy()).groupby(level=0).sum().to_dict() if len(
+            flow) else {}
+        inflow = (pd.Series(flow, index=lanes["destination"].to_numpy()).groupby(level=0).sum().to_dict()
+                  if len(flow) else {})
+        result.open_nodes = open_node_frame(network, model, outflow, inflow)
+        result.trips = trip_frame(network, dict(zip(model.flow, flow)))
+
+
+def _fill_plan(network: Network, lane_index: np.ndarray, flow: np.ndarray, unmet_index: np.ndarray,
+               unmet_values: np.ndarray, penalty: np.ndarray, breakdown: dict[str, float], result: Result) -> None:
+    """Flows, node balance, unmet demand and cost breakdown from plain arrays (shared by both solve paths).
+
+    ``flow`` is per lane of ``lane_index``, ``unmet_values`` per customer of ``unmet_index`` (both noise-cleaned),
+    ``penalty`` per customer row, ``breakdown`` the cost per component before noise rounding.
+    """
+    lanes = network.lanes.loc[lane_index]
     for name, value in breakdown.items():
         breakdown[name] = 0.0 if abs(value) < NOISE else value
     result.cost_breakdown = breakdown
@@ -232,15 +264,12 @@ def _plan(network: Network, model: LaneModel, result: Result) -> None:
     inflow = (pd.Series(flow, index=lanes["destination"].to_numpy()).groupby(level=0).sum().to_dict()
               if len(flow) else {})
     customers = network.customers
-    short = dict(zip(customers.loc[list(model.unmet), "id"], unmet_values))
+    short = dict(zip(customers.loc[unmet_index, "id"], unmet_values))
     result.nodes = node_balance(network, outflow, inflow, short)
 
-    rows = [(customers.at[i, "id"], q, q * model.penalty[customers.index.get_loc(i)])
-            for i, q in zip(model.unmet, unmet_values) if q > 0]
+    rows = [(customers.at[i, "id"], q, q * penalty[customers.index.get_loc(i)])
+            for i, q in zip(unmet_index.tolist(), unmet_values.tolist()) if q > 0]
     result.unmet = (pd.DataFrame(rows, columns=UNMET_COLUMNS) if rows else empty_frame(UNMET_COLUMNS))
-    if network.has_design:
-        result.open_nodes = open_node_frame(network, model, outflow, inflow)
-        result.trips = trip_frame(network, dict(zip(model.flow, flow)))
 
 
 def _tidy_design(network: Network, model: LaneModel, flow: dict[int, float]) -> None:
@@ -304,7 +333,7 @@ def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
 
 
 def solve(network: Network, time_limit: float | None = None, solver: str | None = None, msg: bool = False,
-          sensitivity: bool = True, linking: bool = True, diagnose: bool = True) -> Result:
+          sensitivity: bool = True, linking: bool = True, diagnose: bool = True, fast: bool = True) -> Result:
     """Build and solve the model of :mod:`lanesolve.model` for ``network``.
 
     Parameters
@@ -326,6 +355,9 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         Build the per-lane linking rows of contract v2 node decisions (off only to measure their worth).
     msg : bool
         Echo the solver's log to stderr.
+    fast : bool
+        Allow the array path for pure LPs with CBC (see Notes); False always builds the PuLP problem (tests
+        compare the two).
 
     Returns
     -------
@@ -339,6 +371,18 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     SolverError
         Unknown solver name, solver missing (with how to install it), the solver crashed, or its answer could not
         be read.
+
+    Notes
+    -----
+    Two paths, one model. A pure LP (no fixed charge, no contract v2 decision) solved with CBC takes the *array
+    path*: :func:`lanesolve.model.build_lp_arrays` builds the rows and columns :func:`~lanesolve.model.build_model`
+    would give PuLP, :func:`write_mps` writes them, the same bundled CBC program runs with the options PuLP would
+    pass (:func:`cbc_command`), and :func:`read_cbc_solution` reads values, duals and reduced costs back with
+    pandas, the status line through PuLP's own reader. At 100k lanes that saves PuLP's object building, its MPS
+    writer and its solution reader, about 3 s of 5 (benchmarks/README.md). Everything else -- MIPs, HiGHS, and
+    ``fast=False`` -- goes through a :class:`pulp.LpProblem`, which stays the model for export and for MIP extras
+    (:func:`~lanesolve.model.build_model` builds it for any network). tests/test_model_speedpath.py checks that
+    both paths give the same optimum, duals and status.
 
     Examples
     --------
@@ -354,6 +398,8 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     limit = time_limit if time_limit is not None else settings.time_limit_s
     limit = float(limit) if limit is not None and limit > 0 else None
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
+    if fast and solver == "cbc" and array_path_applies(network):
+        return _solve_by_arrays(network, limit, msg, sensitivity, diagnose)
 
     tick = time.perf_counter()
     model = build_model(network, linking=linking)
@@ -385,14 +431,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
 
     if not status.has_plan:
         result.cost_breakdown = dict.fromkeys(model.costs, math.nan)
-        result.nodes = node_balance(network, {}, {}, None)
-        result.messages.append(_no_plan_message(status, limit, model.is_mip))
-        if diagnose and status is SolveStatus.INFEASIBLE:
-            from .diagnose import diagnose as explain  # late import: the diagnosis re-solves through here
-            tick = time.perf_counter()
-            result.diagnosis = explain(network, solver=solver, time_limit=limit)
-            result.messages.extend(result.diagnosis.sentences(settings.units or "units"))
-            result.timings["diagnose"] = time.perf_counter() - tick
+        _no_plan(network, result, status, limit, model.is_mip, diagnose, solver)
         return result
 
     _plan(network, model, result)
@@ -417,6 +456,191 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         result.sensitivity = analyse(network, model, solver=solver)
         result.timings["sensitivity"] = time.perf_counter() - tick
     return result
+
+
+# ------------------------------------------------------------------------------------------------ the array path
+@dataclass
+class LpAnswer:
+    """What CBC's solution file says about an LP given as :class:`~lanesolve.model.LaneArrays`.
+
+    Attributes
+    ----------
+    status : SolveStatus
+    value, reduced_cost : numpy.ndarray
+        Per column (0 where the file is silent, as PuLP does).
+    activity, dual : numpy.ndarray
+        Per row: the row's left-hand side at the plan and its dual (shadow price).
+    """
+
+    status: SolveStatus
+    value: np.ndarray
+    reduced_cost: np.ndarray
+    activity: np.ndarray
+    dual: np.ndarray
+
+
+def _number_text(values: np.ndarray) -> list[str]:
+    """Shortest round-trip text of each float (``repr``): exact, and short for the many 1.0 and -1.0 of a network."""
+    return list(map(repr, values.tolist()))
+
+
+def write_mps(arrays: LaneArrays, path: str | Path) -> None:
+    """Write ``arrays`` as an MPS file for CBC: rows ``R<i>``, columns ``X<j>`` (the order of ``arrays``).
+
+    Written with a few list operations over the nonzeros rather than an object per term: this replaces PuLP's
+    ``writeMPS``, which at 100k lanes took 1.5 s of a 3 s solve stage (benchmarks/README.md). The content is what
+    PuLP writes with ``rename=1`` for the problem :func:`lanesolve.model.build_model` builds, but with numbers in
+    full precision (PuLP prints 13 significant digits).
+    """
+    n_rows, n_columns = arrays.n_rows, arrays.n_columns
+    row_name = np.array([f"R{i}" for i in range(n_rows)] + ["OBJ"], dtype=object)
+    column_name = np.array([f"X{j}" for j in range(n_columns)], dtype=object)
+    # Objective entries go after each column's rows (row key n_rows sorts last), as PuLP writes them; an empty column
+    # gets a 0 objective entry so that the column exists for its bound.
+    column_count = np.diff(arrays.start)
+    with_objective = np.flatnonzero((arrays.objective != 0) | (column_count == 0))
+    rows = np.r_[arrays.row_of, np.full(len(with_objective), n_rows)]
+    columns = np.r_[arrays.column_of, with_objective]
+    values = np.r_[arrays.coefficient, arrays.objective[with_objective]]
+    order = np.lexsort((rows, columns))
+    entries = map("    {} {} {}\n".format, column_name[columns[order]], row_name[rows[order]],
+                  _number_text(values[order]))
+    bounded = np.flatnonzero(np.isfinite(arrays.upper))
+    with open(path, "w", encoding="ascii") as fh:
+        fh.write("NAME          lanesolve\nROWS\n N  OBJ\n")
+        fh.writelines(map(" {}  {}\n".format, arrays.sense.tolist(), row_name[:n_rows]))
+        fh.write("COLUMNS\n")
+        fh.writelines(entries)
+        fh.write("RHS\n")
+        fh.writelines(map("    RHS {} {}\n".format, row_name[:n_rows], _number_text(arrays.rhs)))
+        fh.write("BOUNDS\n")
+        fh.writelines(map(" UP BND {} {}\n".format, column_name[bounded], _number_text(arrays.upper[bounded])))
+        fh.write("ENDATA\n")
+
+
+def read_cbc_solution(path: str | Path, backend: pulp.LpSolver, n_rows: int, n_columns: int,
+                      is_mip: bool = False) -> LpAnswer:
+    """Read a CBC solution file written for :func:`write_mps` names, in one pass with pandas' C parser.
+
+    The status line is read by PuLP's own reader (``get_status`` of ``backend``), so both paths map CBC's words
+    to a status in one place. Lines are ``index name value dual-or-reduced-cost``, with a ``**`` in front of a row
+    or column that violates its bounds (infeasible plans).
+    """
+    status, sol_status = backend.get_status(str(path))
+    answer = LpAnswer(status_from_codes(status, sol_status, is_mip), np.zeros(n_columns), np.zeros(n_columns),
+                      np.zeros(n_rows), np.zeros(n_rows))
+    with open(path) as fh:
+        fh.readline()
+        body = fh.read().replace("**", "  ")
+    if not body.strip():
+        return answer
+    table = pd.read_csv(io.StringIO(body), sep=r"\s+", header=None, names=["i", "name", "value", "dual"],
+                        usecols=["name", "value", "dual"], dtype={"name": str, "value": float, "dual": float})
+    names = table["name"].str
+    kind = names[0].to_numpy()
+    number = names[1:].astype(np.int64).to_numpy()
+    values, duals = table["value"].to_numpy(), table["dual"].to_numpy()
+    is_row = kind == "R"
+    is_column = kind == "X"
+    answer.activity[number[is_row]] = values[is_row]
+    answer.dual[number[is_row]] = duals[is_row]
+    answer.value[number[is_column]] = values[is_column]
+    answer.reduced_cost[number[is_column]] = duals[is_column]
+    return answer
+
+
+def cbc_command(backend: pulp.LpSolver, mps_path: str | Path, solution_path: str | Path) -> list[str]:
+    """The CBC command line PuLP's ``PULP_CBC_CMD.solve_CBC`` builds for an LP read from an MPS file: the same
+    program (``backend.path``) and the same options in the same order (time limit, ``timeMode``, ``-initialSolve``,
+    ``-printingOptions all``, ``-solution``)."""
+    command = [backend.path, str(mps_path)]
+    if backend.timeLimit is not None:
+        command += ["-sec", str(backend.timeLimit)]
+    for option in list(backend.options) + backend.getOptions():
+        command += ("-" + option).split()
+    command += ["-solve" if backend.mip else "-initialSolve", "-printingOptions", "all", "-solution",
+                str(solution_path)]
+    return command
+
+
+def solve_arrays(arrays: LaneArrays, backend: pulp.LpSolver, folder: str | Path, log_path: str | Path) -> LpAnswer:
+    """Solve ``arrays`` with the CBC program of ``backend`` through files in ``folder``; the log goes to
+    ``log_path``.
+
+    Raises
+    ------
+    SolverError
+        CBC could not be started, failed, or left no solution file.
+    """
+    folder = Path(folder)
+    mps_path, solution_path = folder / "lanesolve.mps", folder / "lanesolve.sol"
+    write_mps(arrays, mps_path)
+    command = cbc_command(backend, mps_path, solution_path)
+    try:
+        with open(log_path, "w") as log:
+            code = subprocess.run(command, stdout=log, stderr=log, stdin=subprocess.DEVNULL).returncode
+    except OSError as exc:
+        raise SolverError(f"the CBC program could not be started ({exc}); reinstall PuLP: "
+                          "pip install --force-reinstall pulp") from exc
+    if code != 0 or not solution_path.exists():
+        raise SolverError(f"the CBC solver failed (exit code {code}) (rerun with the solver log shown to see why; a "
+                          "damaged PuLP install is fixed by: pip install --force-reinstall pulp)")
+    try:
+        return read_cbc_solution(solution_path, backend, arrays.n_rows, arrays.n_columns)
+    except (OSError, ValueError, IndexError) as exc:
+        raise SolverError(f"the CBC solver's answer could not be read: {exc}") from exc
+
+
+def _solve_by_arrays(network: Network, limit: float | None, msg: bool, sensitivity: bool,
+                     diagnose: bool) -> Result:
+    """:func:`solve` for a pure LP with CBC, without PuLP objects (see "Two paths" in :func:`solve`)."""
+    tick = time.perf_counter()
+    arrays = build_lp_arrays(network)
+    build_seconds = time.perf_counter() - tick
+    with tempfile.TemporaryDirectory(prefix="lanesolve-") as tmp:
+        log_path = Path(tmp) / "solver.log"
+        backend = _make_solver("cbc", False, limit, None, msg, log_path)
+        tick = time.perf_counter()
+        answer = solve_arrays(arrays, backend, tmp, log_path)
+        seconds = time.perf_counter() - tick
+        log_text = log_path.read_text(errors="replace") if log_path.exists() else ""
+    if msg and log_text:
+        sys.stderr.write(log_text)
+    status = answer.status
+    result = Result(status=status, solver=_solver_name("cbc", None, log_text), solve_seconds=seconds)
+    result.timings["build_model"] = build_seconds
+    result.timings["solver"] = seconds
+    if not status.has_plan:
+        result.cost_breakdown = dict.fromkeys(arrays.costs, math.nan)
+        _no_plan(network, result, status, limit, False, diagnose, "cbc")
+        return result
+
+    n_lanes = len(arrays.lane_index)
+    flow = _clean(answer.value[:n_lanes])
+    unmet_values = _clean(answer.value[n_lanes:])
+    values = np.r_[flow, unmet_values]
+    breakdown = {name: float(coefficients @ values) for name, coefficients in arrays.costs.items()}
+    _fill_plan(network, arrays.lane_index, flow, arrays.unmet_index, unmet_values, arrays.penalty, breakdown, result)
+    result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
+    if sensitivity and status is SolveStatus.OPTIMAL:
+        from .sensitivity import analyse_arrays  # late import: sensitivity builds on this module
+        tick = time.perf_counter()
+        result.sensitivity = analyse_arrays(network, arrays, answer)
+        result.timings["sensitivity"] = time.perf_counter() - tick
+    return result
+
+
+def _no_plan(network: Network, result: Result, status: SolveStatus, limit: float | None, is_mip: bool,
+             diagnose: bool, solver: str) -> None:
+    """Fill a no-plan ``result``: zero node balance, the message and, when infeasible, the diagnosis."""
+    result.nodes = node_balance(network, {}, {}, None)
+    result.messages.append(_no_plan_message(status, limit, is_mip))
+    if diagnose and status is SolveStatus.INFEASIBLE:
+        from .diagnose import diagnose as explain  # late import: the diagnosis re-solves through here
+        tick = time.perf_counter()
+        result.diagnosis = explain(network, solver=solver, time_limit=limit)
+        result.messages.extend(result.diagnosis.sentences(network.settings.units or "units"))
+        result.timings["diagnose"] = time.perf_counter() - tick
 
 
 def _no_plan_message(status: SolveStatus, limit: float | None, is_mip: bool) -> str:

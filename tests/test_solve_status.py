@@ -250,4 +250,4 @@ def test_solver_crash_is_a_solver_error(monkeypatch):
 
     monkeypatch.setattr(pulp.LpProblem, "solve", crash)
     with pytest.raises(SolverError, match="CBC solver failed"):
-        solve(beer_network())
+        solve(beer_network(), fast=False)  # the PuLP path; the array path: tests/test_model_speedpath.py
