@@ -140,8 +140,9 @@ LANES = Sheet(
     columns=(
         Column("origin", ID, required=True, doc="Id of the node the lane starts at (a depot, hub or customer)."),
         Column("destination", ID, required=True, doc="Id of the node the lane ends at (a depot, hub or customer)."),
-        Column("cost_per_unit", NUMBER, required=True, minimum=0, unit="currency per unit",
-               doc="Transport cost per unit moved on the lane."),
+        Column("cost_per_unit", NUMBER, minimum=0, unit="currency per unit",
+               doc="Transport cost per unit moved on the lane. Required unless the Settings give rate_per_distance: "
+                   "then a blank cost is rate_per_distance times the lane's distance (see distance)."),
         Column("mode", TEXT, default="", doc="Optional label (road, rail, carrier name). Origin, destination and "
                                               "mode together must be unique."),
         Column("capacity", NUMBER, minimum=0, unit="units",
@@ -156,6 +157,9 @@ LANES = Sheet(
         Column("cost_per_trip", NUMBER, default=0.0, minimum=0, unit="currency per trip",
                doc="Cost of each whole trip, on top of cost_per_unit (which may be 0). Needs trip_capacity. Blank "
                    "means 0."),
+        Column("distance", NUMBER, minimum=0, unit="distance unit (Settings distance_unit)",
+               doc="Road distance of the lane, used only when cost_per_unit is blank. Blank: the great-circle "
+                   "distance between the two ends' latitude/longitude times the Settings circuity_factor."),
         Column("active", FLAG, default=True,
                doc="yes or no (blank means yes). Lanes marked no are left out of the plan but still reported."),
     ),
@@ -189,6 +193,20 @@ SETTINGS_ROWS = (
     Setting("solver", CHOICE, "cbc", choices=("cbc", "highs"),
             doc="cbc (default, bundled with PuLP) or highs (needs the optional highspy package: "
                 "pip install \"lanesolve[highs]\"). The command line option --solver overrides it."),
+    Setting("rate_per_distance", NUMBER, None, minimum=0, unit="currency per unit per distance unit",
+            doc="Transport rate used for lanes whose cost_per_unit is blank: cost = rate x distance. Blank means "
+                "every lane needs its cost_per_unit."),
+    Setting("distance_unit", CHOICE, "km", choices=("km", "mi"),
+            doc="km (default) or mi (international mile, 1.609344 km): the unit of the Lanes distance column and "
+                "of rate_per_distance."),
+    Setting("circuity_factor", NUMBER, 1.2, minimum=1, unit="ratio",
+            doc="Road distance over great-circle distance, applied only to distances computed from coordinates, "
+                "never to a distance typed in. Default 1.2: around 1.2 is common practice (a value recalled from "
+                "memory); measure it on your own lanes when you can."),
+    Setting("lanes_file", TEXT, None,
+            doc="A CSV (.csv) or Parquet (.parquet) file with the Lanes columns, read in addition to the Lanes "
+                "sheet (which may then be empty or absent). The path is relative to the workbook's folder. "
+                "Parquet needs pyarrow: pip install \"lanesolve[parquet]\"."),
     Setting("units", TEXT, "units", doc="Label for quantities in the results (pallets, tonnes, cases)."),
     Setting("currency", TEXT, "", doc="Label for money in the results (EUR, USD)."),
 )

@@ -127,26 +127,29 @@ def lane_costs_from_distance(
     """
     lanes = network_lanes_frame
     problems: list[Problem] = []
-    cost = lanes["cost_per_unit"].astype(float)
-    given_distance = (lanes["distance"].astype(float) if "distance" in lanes.columns
-                      else pd.Series(math.nan, index=lanes.index))
-    filled = pd.DataFrame({"cost_per_unit": cost, "distance": given_distance, "cost_source": COST_GIVEN},
-                          index=lanes.index)
-    blank = cost.isna()
+    cost = lanes["cost_per_unit"].to_numpy(dtype=float)
+    given_distance = (lanes["distance"].to_numpy(dtype=float) if "distance" in lanes.columns
+                      else np.full(len(lanes), math.nan))
+    source = np.full(len(lanes), COST_GIVEN, dtype=object)
+    distance = given_distance.copy()
+    blank = np.isnan(cost)
     if not blank.any():
-        return filled, problems
+        return _filled(lanes, cost, distance, source), problems
 
+    rows = lanes["row"].to_numpy()
+    sheets = lanes["sheet"].to_numpy() if "sheet" in lanes.columns else np.full(len(lanes), "Lanes", dtype=object)
+    if rate_per_distance is None or not math.isfinite(rate_per_distance) or rate_per_distance < 0:
+        # One problem for the setting; the validator names each lane row itself before it gets here.
+        problems.append(Problem("Settings", None, "value", rate_per_distance,
+                                f"{int(blank.sum())} lane(s) have a blank cost_per_unit, so the setting "
+                                "rate_per_distance is needed and must be a number >= 0",
+                                "add a Settings row rate_per_distance, or fill in the lanes' cost_per_unit"))
+        return _filled(lanes, cost, distance, source), problems
     unit = str(distance_unit).strip().lower()
     settings_ok = True
     if unit not in DISTANCE_UNITS:
         problems.append(Problem("Settings", None, "value", distance_unit, "distance_unit must be km or mi",
                                 "write km or mi"))
-        settings_ok = False
-    if rate_per_distance is None or not math.isfinite(rate_per_distance) or rate_per_distance < 0:
-        problems.append(Problem("Settings", None, "value", rate_per_distance,
-                                f"{int(blank.sum())} lane(s) have a blank cost_per_unit, so the setting "
-                                "rate_per_distance is needed and must be a number >= 0",
-                                "add a Settings row rate_per_distance, or fill in the lanes' cost_per_unit"))
         settings_ok = False
     if not math.isfinite(circuity_factor) or circuity_factor < 1:
         # A road can never be shorter than the great circle between its ends.
@@ -155,41 +158,45 @@ def lane_costs_from_distance(
                                 "around 1.2 is common practice"))
         settings_ok = False
 
+    negative = blank & (given_distance < 0)
+    for pos in np.flatnonzero(negative):
+        problems.append(Problem(sheets[pos], int(rows[pos]), "distance", float(given_distance[pos]),
+                                f"lane {lanes['origin'].iat[pos]} > {lanes['destination'].iat[pos]}: distance "
+                                "must be >= 0", "correct the distance"))
+    need_geometry = blank & np.isnan(given_distance)
     coords = _coordinate_table(node_coords)
-    need_geometry = blank & given_distance.isna()
-    origin = coords.reindex(lanes["origin"].astype(str)).to_numpy()
-    destination = coords.reindex(lanes["destination"].astype(str)).to_numpy()
-    km = great_circle_km(origin[:, 0], origin[:, 1], destination[:, 0], destination[:, 1])
-    factor = DISTANCE_UNITS.get(unit, 1.0)
-    computed = pd.Series(np.atleast_1d(km), index=lanes.index) / factor * circuity_factor
-
-    for idx in lanes.index[blank]:
-        row = int(lanes.at[idx, "row"])
-        lane = f"{lanes.at[idx, 'origin']} > {lanes.at[idx, 'destination']}"
-        if not need_geometry[idx]:
-            if given_distance[idx] < 0:
-                problems.append(Problem("Lanes", row, "distance", given_distance[idx],
-                                        f"lane {lane}: distance must be >= 0", "correct the distance"))
-            continue
-        missing = [end for end, values in (("origin", origin), ("destination", destination))
-                   if np.isnan(values[lanes.index.get_loc(idx)]).any()]
-        if missing:
-            names = " and ".join(f"{end} '{lanes.at[idx, end]}'" for end in missing)
-            problems.append(Problem("Lanes", row, "cost_per_unit", None,
-                                    f"lane {lane} has no cost_per_unit and no distance, and its {names} has no "
-                                    "latitude/longitude, so its cost cannot be computed",
-                                    "fill in cost_per_unit or distance, or the node's latitude and longitude"))
-
+    # Look coordinates up only for the lanes that need them: one vectorised reindex per end.
+    ends = {}
+    for end in ("origin", "destination"):
+        ids = lanes[end].to_numpy()[need_geometry].astype(str)
+        ends[end] = coords.reindex(ids).to_numpy().reshape(-1, 2)
+    missing = {end: np.isnan(values).any(axis=1) for end, values in ends.items()}
+    geometry_pos = np.flatnonzero(need_geometry)
+    for k in np.flatnonzero(missing["origin"] | missing["destination"]):
+        pos = geometry_pos[k]
+        names = " and ".join(f"{end} '{lanes[end].iat[pos]}'" for end in ("origin", "destination")
+                             if missing[end][k])
+        problems.append(Problem(sheets[pos], int(rows[pos]), "cost_per_unit", None,
+                                f"lane {lanes['origin'].iat[pos]} > {lanes['destination'].iat[pos]} has no "
+                                f"cost_per_unit and no distance, and its {names} has no latitude/longitude, so its "
+                                "cost cannot be computed",
+                                "fill in cost_per_unit or distance, or the node's latitude and longitude"))
     if not settings_ok:
-        return filled, problems
-    bad_rows = {p.row for p in problems if p.sheet == "Lanes"}
-    for idx in lanes.index[blank]:
-        if int(lanes.at[idx, "row"]) in bad_rows:
-            continue
-        if need_geometry[idx]:
-            filled.at[idx, "distance"] = computed[idx]
-            filled.at[idx, "cost_source"] = COST_FROM_GREAT_CIRCLE
-        else:
-            filled.at[idx, "cost_source"] = COST_FROM_DISTANCE
-        filled.at[idx, "cost_per_unit"] = rate_per_distance * filled.at[idx, "distance"]
-    return filled, problems
+        return _filled(lanes, cost, distance, source), problems
+
+    km = np.atleast_1d(great_circle_km(ends["origin"][:, 0], ends["origin"][:, 1],
+                                       ends["destination"][:, 0], ends["destination"][:, 1]))
+    # Circuity turns a great-circle distance into an estimated road distance; a distance typed in is already one.
+    distance[geometry_pos] = km / DISTANCE_UNITS[unit] * circuity_factor
+    from_given = blank & ~need_geometry & ~negative
+    source[from_given] = COST_FROM_DISTANCE
+    source[geometry_pos] = COST_FROM_GREAT_CIRCLE
+    computed = from_given.copy()
+    computed[geometry_pos] = True
+    cost = np.where(computed, rate_per_distance * distance, cost)
+    # Lanes with a problem keep a NaN cost (and the validator raises); their source stays "given" only in name.
+    return _filled(lanes, cost, distance, source), problems
+
+
+def _filled(lanes: pd.DataFrame, cost, distance, source) -> pd.DataFrame:
+    return pd.DataFrame({"cost_per_unit": cost, "distance": distance, "cost_source": source}, index=lanes.index)

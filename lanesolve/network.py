@@ -9,11 +9,19 @@ customers  id, demand, unmet_penalty, single_source, latitude, longitude, row
 hubs       id, capacity, handling_cost, fixed_cost, status, latitude, longitude, row
 lanes      origin, destination, mode, cost_per_unit, capacity, fixed_cost, min_volume, trip_capacity, cost_per_trip,
            active, row
+lane_sources  distance, cost_source, sheet (same index as lanes)
 
 Contract v2 columns, resolved: ``status`` is ``"open"``, ``"closed"`` or ``"decide"`` (a blank status is already
 ``decide`` when the node has a fixed cost, else ``open``); ``single_source`` is a bool (a blank one already takes
 the Settings default); ``trip_capacity`` is NaN when the lane is not run in whole trips; ``min_volume`` and
 ``cost_per_trip`` are 0 when not given.
+
+Rates from distance: ``cost_per_unit`` is always a number. :attr:`Network.lane_sources` says, per lane, where it
+came from: ``cost_source`` (``"given"``, ``"rate x distance"`` or ``"rate x great circle x circuity"``, see
+:mod:`lanesolve.geo`), ``distance`` (in the Settings ``distance_unit``: given, or computed when the cost was; NaN
+otherwise) and ``sheet`` (``"Lanes"`` or the Settings ``lanes_file`` the lane was read from; the lane's ``row`` is
+the row there, header = row 1, in a CSV file its line number). It is a frame of its own so the lanes frame keeps
+the columns every stage already reads.
 
 Every frame uses a default RangeIndex. Ids are unique across the three node frames.
 """
@@ -31,6 +39,8 @@ CUSTOMER_COLUMNS = ["id", "demand", "unmet_penalty", "single_source", "latitude"
 HUB_COLUMNS = ["id", "capacity", "handling_cost", "fixed_cost", "status", "latitude", "longitude", "row"]
 LANE_COLUMNS = ["origin", "destination", "mode", "cost_per_unit", "capacity", "fixed_cost", "min_volume",
                 "trip_capacity", "cost_per_trip", "active", "row"]
+#: Columns of :attr:`Network.lane_sources`: where each lane and its cost came from.
+LANE_SOURCE_COLUMNS = ["distance", "cost_source", "sheet"]
 #: Columns holding text (everything else is a number, except the bool ``active`` / ``single_source`` and ``row``).
 TEXT_COLUMNS = frozenset({"id", "origin", "destination", "mode", "status"})
 BOOL_COLUMNS = frozenset({"active", "single_source"})
@@ -56,6 +66,10 @@ class Settings:
     max_open_hubs: float | None = None
     single_source: bool = False
     solver: str = "cbc"
+    rate_per_distance: float | None = None
+    distance_unit: str = "km"
+    circuity_factor: float = 1.2
+    lanes_file: str | None = None
 
 
 @dataclass
@@ -68,6 +82,15 @@ class Network:
     lanes: pd.DataFrame
     settings: Settings = field(default_factory=Settings)
     source: str = ""
+    lane_sources: pd.DataFrame | None = None
+
+    def cost_sources(self) -> pd.DataFrame:
+        """:attr:`lane_sources` aligned with :attr:`lanes`; lanes built without one count as given on sheet Lanes."""
+        sources = self.lane_sources
+        if sources is not None and sources.index.equals(self.lanes.index):
+            return sources
+        return pd.DataFrame({"distance": math.nan, "cost_source": "given", "sheet": "Lanes"},
+                            index=self.lanes.index)[LANE_SOURCE_COLUMNS]
 
     @property
     def active_lanes(self) -> pd.DataFrame:

@@ -32,11 +32,11 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import contract
+from . import contract, geo, lanes_file
 from .contract import CHOICE, FLAG, ID, NUMBER, TEXT, Column, Sheet
 from .errors import Problem, WorkbookError
-from .network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS, TEXT_COLUMNS, Network,
-                      Settings, resolve_status)
+from .network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS, LANE_SOURCE_COLUMNS,
+                      TEXT_COLUMNS, Network, Settings, resolve_status)
 from .reader import RawSheet, RawWorkbook
 
 _NETWORK_COLUMNS = {
@@ -95,25 +95,43 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     (['101'], [inf], [])
     """
     found = _Findings()
-    matched = _match_sheets(raw, found)
+    # Settings first: lanes_file decides whether the Lanes sheet is required.
+    matched = _match_sheets(raw, found, deferred=(contract.LANES.name,))
+    settings = _read_settings(matched.get(contract.SETTINGS.name), found)
+    if contract.LANES.name not in matched and not settings.lanes_file:
+        _report_missing_sheet(contract.LANES, raw, found)
+    lanes_sheet = matched.get(contract.LANES.name)
+    if settings.lanes_file and lanes_sheet is not None and not lanes_sheet.bad_cells and \
+            not any(not _is_blank(cell) for row in lanes_sheet.rows for cell in row):
+        del matched[contract.LANES.name]  # with a lanes file, a Lanes sheet left completely empty counts as absent
     tables = {spec.name: _read_table(spec, matched.get(spec.name), found)
               for spec in contract.INPUT_SHEETS if spec is not contract.SETTINGS}
-    settings = _read_settings(matched.get(contract.SETTINGS.name), found)
+    _require_cost_column(tables[contract.LANES.name], settings, found)
+    if settings.lanes_file:
+        tables[contract.LANES.name] = _with_lanes_file(tables[contract.LANES.name], raw.path, settings, found)
     node_ids = _check_node_ids(tables, found)
     _check_lanes(tables[contract.LANES.name], node_ids, found)
     _check_lane_design(tables[contract.LANES.name], found)
+    _check_lane_costs(tables[contract.LANES.name], settings, found)
 
+    frames = None
+    if all(table.complete for table in tables.values()):
+        # Frames are built before raising so that lane costs from distance are checked in the same pass.
+        frames = {name: _network_frame(table, settings) for name, table in tables.items()}
+        frames[contract.LANES.name], lane_sources = _costs_from_distance(frames, tables[contract.LANES.name],
+                                                                          settings, found)
     errors = found.sorted("error")
     warnings = found.sorted("warning")
-    if errors:
+    if errors or frames is None:
         raise WorkbookError(errors, warnings)
     network = Network(
-        depots=_network_frame(tables[contract.DEPOTS.name], settings),
-        customers=_network_frame(tables[contract.CUSTOMERS.name], settings),
-        hubs=_network_frame(tables[contract.HUBS.name], settings),
-        lanes=_network_frame(tables[contract.LANES.name], settings),
+        depots=frames[contract.DEPOTS.name],
+        customers=frames[contract.CUSTOMERS.name],
+        hubs=frames[contract.HUBS.name],
+        lanes=frames[contract.LANES.name],
         settings=settings,
         source=raw.path,
+        lane_sources=lane_sources,
     )
     return network, warnings
 
@@ -177,8 +195,12 @@ def _did_you_mean(word: str, candidates: dict[str, str], cutoff: float = 0.6) ->
 # sheets and headers
 
 
-def _match_sheets(raw: RawWorkbook, found: _Findings) -> dict[str, RawSheet]:
-    """Contract sheet name -> the workbook's sheet of that name (case and spacing ignored)."""
+def _match_sheets(raw: RawWorkbook, found: _Findings, deferred: tuple[str, ...] = ()) -> dict[str, RawSheet]:
+    """Contract sheet name -> the workbook's sheet of that name (case and spacing ignored).
+
+    A missing required sheet is reported here unless its name is in ``deferred`` (the caller decides later, see
+    :func:`_report_missing_sheet`).
+    """
     by_norm: dict[str, list[RawSheet]] = {}
     for sheet in raw.sheets.values():
         by_norm.setdefault(contract.normalize(sheet.name), []).append(sheet)
@@ -196,11 +218,8 @@ def _match_sheets(raw: RawWorkbook, found: _Findings) -> dict[str, RawSheet]:
                       "rename or delete one of them")
             continue
         if not candidates:
-            if spec.required:
-                near = _did_you_mean(spec.name, spare)
-                hint = (f"did you mean sheet '{near}'? Rename it to '{spec.name}'" if near else
-                        f"add a sheet named '{spec.name}' with its headers in row 1")
-                found.add(spec.name, None, None, None, f"the workbook has no sheet named '{spec.name}'", hint)
+            if spec.required and spec.name not in deferred:
+                _report_missing_sheet(spec, raw, found)
             continue
         sheet = candidates[0]
         if not spec.required and not any(not _is_blank(cell) for row in sheet.rows for cell in row) \
@@ -211,6 +230,18 @@ def _match_sheets(raw: RawWorkbook, found: _Findings) -> dict[str, RawSheet]:
                       "unhide it to review what lanesolve reads", severity="warning")
         matched[spec.name] = sheet
     return matched
+
+
+def _report_missing_sheet(spec: Sheet, raw: RawWorkbook, found: _Findings) -> None:
+    contract_norms = {contract.normalize(s.name) for s in contract.INPUT_SHEETS}
+    spare = {contract.normalize(s.name): s.name for s in raw.sheets.values()
+             if contract.normalize(s.name) not in contract_norms}
+    near = _did_you_mean(spec.name, spare)
+    hint = (f"did you mean sheet '{near}'? Rename it to '{spec.name}'" if near else
+            f"add a sheet named '{spec.name}' with its headers in row 1")
+    if spec is contract.LANES:
+        hint += ", or name a CSV or Parquet file of lanes in the Settings row lanes_file"
+    found.add(spec.name, None, None, None, f"the workbook has no sheet named '{spec.name}'", hint)
 
 
 @dataclass
@@ -224,12 +255,33 @@ class _Table:
     values: dict[str, pd.Series] = field(default_factory=dict)  # contract column -> parsed values
     invalid: dict[str, np.ndarray] = field(default_factory=dict)  # contract column -> cell already reported
     complete: bool = True  # False when a required column or the sheet itself could not be read
+    #: When records come from more than one place (the Lanes sheet and the lanes file): the sheet or file of each
+    #: record, and each place's headers as written. None for a table read from one sheet.
+    sources: np.ndarray | None = None
+    source_headers: dict[str, dict[str, str]] = field(default_factory=dict)
+    raw_header: list = field(default_factory=list)  # row 1 as written (for did-you-mean on a missing column)
 
     def __len__(self) -> int:
         return len(self.rows)
 
     def column_label(self, name: str) -> str:
         return self.headers.get(name, name)
+
+    def sheet_of(self, pos: int) -> str | None:
+        """The sheet (or lanes file) record ``pos`` was read from."""
+        return self.sheet_name if self.sources is None else self.sources[pos]
+
+    def where(self, pos: int, name: str) -> tuple[str | None, int, str]:
+        """Sheet, row and column header as written, for a problem in column ``name`` of record ``pos``."""
+        sheet = self.sheet_of(pos)
+        headers = self.headers if self.sources is None else self.source_headers.get(sheet, {})
+        return sheet, int(self.rows[pos]), headers.get(name, name)
+
+    def sheet_names(self) -> np.ndarray:
+        """The sheet (or lanes file) of every record."""
+        if self.sources is not None:
+            return self.sources
+        return np.full(len(self), self.sheet_name or self.spec.name, dtype=object)
 
 
 def _header_text(cell) -> str:
@@ -493,15 +545,19 @@ class _ColumnParser:
         return values
 
 
-def _read_table(spec: Sheet, sheet: RawSheet | None, found: _Findings) -> _Table:
+def _read_table(spec: Sheet, sheet: RawSheet | None, found: _Findings, data: pd.DataFrame | None = None) -> _Table:
+    """Parse a sheet's contract columns; ``data`` (records by column position) replaces ``sheet.rows[1:]`` when
+    given, so a lanes file read straight into a frame goes through the same checks as a sheet."""
     table = _Table(spec)
     if sheet is None:
         table.complete = not spec.required
         return table
     table.sheet_name = sheet.name
     index_of, table.headers, table.complete = _match_headers(spec, sheet, found)
+    table.raw_header = list(sheet.rows[0]) if sheet.rows else []
 
-    data = pd.DataFrame(sheet.rows[1:], dtype=object) if len(sheet.rows) > 1 else pd.DataFrame(dtype=object)
+    if data is None:
+        data = pd.DataFrame(sheet.rows[1:], dtype=object) if len(sheet.rows) > 1 else pd.DataFrame(dtype=object)
     n_rows = len(data)
     raw_cols: dict[str, pd.Series] = {}
     bad_cols: dict[str, np.ndarray] = {}
@@ -716,7 +772,7 @@ def _check_lanes(lanes: _Table, node_ids: set[str] | None, found: _Findings) -> 
             for pos in np.flatnonzero(unknown):
                 value = values.iloc[pos]
                 near = suggest(value)
-                found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label(name), value,
+                found.add(*lanes.where(pos, name), value,
                           f"'{value}' is not a depot, hub or customer",
                           f"did you mean '{near}'?" if near else
                           "add it to Depots, Customers or Hubs, or correct the id")
@@ -725,22 +781,25 @@ def _check_lanes(lanes: _Table, node_ids: set[str] | None, found: _Findings) -> 
     both = ok_origin & ok_destination
     loop = both & (origin == destination).to_numpy()
     for pos in np.flatnonzero(loop):
-        found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("origin"), origin.iloc[pos],
+        found.add(*lanes.where(pos, "origin"), origin.iloc[pos],
                   f"origin and destination are both '{origin.iloc[pos]}'",
                   "a lane joins two different places: correct one end or delete the row")
     mode = lanes.values.get("mode")
     mode = mode if mode is not None else pd.Series("", index=origin.index, dtype=object)
-    keyed = pd.DataFrame({"origin": origin, "destination": destination, "mode": mode, "row": lanes.rows})[both & ~loop]
+    keyed = pd.DataFrame({"origin": origin, "destination": destination, "mode": mode, "row": lanes.rows,
+                          "pos": np.arange(len(lanes)), "sheet": lanes.sheet_names()})[both & ~loop]
     dup = keyed.duplicated(["origin", "destination", "mode"], keep="first").to_numpy()
     if dup.any():
-        first = keyed.drop_duplicates(["origin", "destination", "mode"]).set_index(
-            ["origin", "destination", "mode"])["row"]
+        first = keyed.drop_duplicates(["origin", "destination", "mode"]).set_index(["origin", "destination", "mode"])
         for record in keyed[dup].itertuples(index=False):
             mode_text = f" with mode '{record.mode}'" if record.mode else " with no mode"
-            found.add(lanes.sheet_name, record.row, lanes.column_label("origin"),
+            earlier = first.loc[(record.origin, record.destination, record.mode)]
+            # Across the Lanes sheet and the lanes file, name both places; within one, the row is enough.
+            place = f"row {earlier['row']}" if earlier["sheet"] == record.sheet else \
+                f"{earlier['sheet']} row {earlier['row']}"
+            found.add(*lanes.where(record.pos, "origin"),
                       f"{record.origin} -> {record.destination}",
-                      f"lane {record.origin} -> {record.destination}{mode_text} already appears in row "
-                      f"{first[(record.origin, record.destination, record.mode)]}",
+                      f"lane {record.origin} -> {record.destination}{mode_text} already appears in {place}",
                       "merge the two rows, or give them different modes")
 
 
@@ -763,21 +822,142 @@ def _check_lane_design(lanes: _Table, found: _Findings) -> None:
     trip_cost, ok_cost = usable("cost_per_trip")
     if minimum is not None and capacity is not None:
         for pos in np.flatnonzero(ok_min & ok_cap & (minimum > capacity)):
-            found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("min_volume"), float(minimum[pos]),
+            found.add(*lanes.where(pos, "min_volume"), float(minimum[pos]),
                       f"min_volume {_show(float(minimum[pos]))} is more than the lane's capacity "
                       f"{_show(float(capacity[pos]))}, so the lane could never be used",
                       "lower min_volume or raise capacity")
     if trip_cap is not None:
         for pos in np.flatnonzero(ok_trip & (trip_cap <= 0)):
-            found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("trip_capacity"), float(trip_cap[pos]),
+            found.add(*lanes.where(pos, "trip_capacity"), float(trip_cap[pos]),
                       "trip_capacity is 0, so no trip could carry anything",
                       "enter the units one trip carries, or leave it blank if the lane is not run in trips")
     if trip_cost is not None:
         no_trips = ~np.isfinite(trip_cap) if trip_cap is not None else np.ones(len(lanes), dtype=bool)
         for pos in np.flatnonzero(ok_cost & (trip_cost > 0) & no_trips & (ok_trip if trip_cap is not None else True)):
-            found.add(lanes.sheet_name, lanes.rows[pos], lanes.column_label("cost_per_trip"), float(trip_cost[pos]),
+            found.add(*lanes.where(pos, "cost_per_trip"), float(trip_cost[pos]),
                       "cost_per_trip is given but trip_capacity is blank",
                       "enter trip_capacity (units per trip), or clear cost_per_trip")
+
+
+def _check_lane_costs(lanes: _Table, settings: Settings, found: _Findings) -> None:
+    """Without Settings rate_per_distance every lane needs its cost_per_unit: name each blank one (the column
+    itself missing is reported by :func:`_require_cost_column`)."""
+    cost = lanes.values.get("cost_per_unit")
+    if settings.rate_per_distance is not None or cost is None or len(lanes) == 0:
+        return
+    blank = np.isnan(cost.to_numpy(dtype=float)) & ~lanes.invalid["cost_per_unit"]
+    for pos in np.flatnonzero(blank):
+        found.add(*lanes.where(pos, "cost_per_unit"), None, "cost_per_unit is blank",
+                  "fill in cost_per_unit (currency per unit), or add a Settings row rate_per_distance so blank "
+                  "costs are computed from distance")
+
+
+def _require_cost_column(table: _Table, settings: Settings, found: _Findings) -> None:
+    """cost_per_unit is optional in the contract only because a rate can stand in for it: without
+    rate_per_distance a lanes sheet or file lacking the column is an error, as for any required column."""
+    if table.sheet_name is None or table.values.get("cost_per_unit") is not None or \
+            settings.rate_per_distance is not None:
+        return
+    unmatched = {contract.normalize(h): _header_text(h) for h in table.raw_header
+                 if contract.normalize(h) and contract.normalize(h) not in {c.name for c in table.spec.columns}}
+    near = _did_you_mean("cost_per_unit", unmatched, cutoff=0.75)
+    found.add(table.sheet_name, 1, "cost_per_unit", None, "required column 'cost_per_unit' is missing",
+              f"did you mean '{near}'? Rename that header to 'cost_per_unit'" if near else
+              "add a column headed 'cost_per_unit' in row 1, or add a Settings row rate_per_distance so costs are "
+              "computed from distance")
+    table.complete = False
+
+
+def _costs_from_distance(frames: dict[str, pd.DataFrame], table: _Table, settings: Settings,
+                         found: _Findings) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Fill blank lane costs from distance (:func:`lanesolve.geo.lane_costs_from_distance`, vectorised) for the
+    lanes whose cells are otherwise usable; problems (a node without coordinates) join ``found``.
+
+    Returns the lanes frame and its :attr:`~lanesolve.network.Network.lane_sources`."""
+    lanes = frames[contract.LANES.name]
+    distance = table.values.get("distance")
+    sources = pd.DataFrame({
+        "distance": (distance.to_numpy(dtype=float) if distance is not None else np.full(len(lanes), math.nan)),
+        "cost_source": geo.COST_GIVEN, "sheet": table.sheet_names()}, index=lanes.index)[LANE_SOURCE_COLUMNS]
+    if settings.rate_per_distance is None or len(lanes) == 0:
+        return lanes, sources
+    usable = lanes["cost_per_unit"].isna().to_numpy().copy()
+    for name in ("cost_per_unit", "origin", "destination", "distance"):
+        if table.values.get(name) is not None:
+            usable &= ~table.invalid[name]  # already reported: computing a cost from it would only add noise
+    if not usable.any():
+        return lanes, sources
+    nodes = pd.concat([frames[name][["id", "latitude", "longitude"]]
+                       for name in (contract.DEPOTS.name, contract.CUSTOMERS.name, contract.HUBS.name)],
+                      ignore_index=True).drop_duplicates("id")
+    subset = pd.concat([lanes[["origin", "destination", "cost_per_unit", "row"]], sources[["distance", "sheet"]]],
+                       axis=1)[usable]
+    filled, problems = geo.lane_costs_from_distance(subset, nodes, float(settings.rate_per_distance),
+                                                    settings.distance_unit, float(settings.circuity_factor))
+    for problem in problems:
+        found.add(problem.sheet, problem.row, problem.column, problem.value, problem.message, problem.hint,
+                  problem.severity)
+    lanes = lanes.copy()
+    lanes.loc[usable, "cost_per_unit"] = filled["cost_per_unit"].to_numpy()
+    sources.loc[usable, "distance"] = filled["distance"].to_numpy()
+    sources.loc[usable, "cost_source"] = filled["cost_source"].to_numpy()
+    return lanes, sources
+
+
+def _with_lanes_file(sheet_table: _Table, workbook_path: str, settings: Settings, found: _Findings) -> _Table:
+    """The Lanes sheet's records followed by the lanes file's, checked by the same column parsers."""
+    try:
+        cells = lanes_file.read_lanes_file(workbook_path, settings.lanes_file)
+    except WorkbookError as exc:
+        found.extend(exc.problems)
+        return sheet_table
+    raw = RawSheet(cells.label, [cells.header])
+    file_table = _read_table(contract.LANES, raw, found, data=cells.data)
+    _require_cost_column(file_table, settings, found)
+    if sheet_table.sheet_name is None:
+        return file_table
+    return _concat_tables(sheet_table, file_table)
+
+
+def _concat_tables(first: _Table, second: _Table) -> _Table:
+    """One table of both tables' records; a column absent from one of them takes its contract default there."""
+    spec = first.spec
+    merged = _Table(spec, sheet_name=first.sheet_name, headers=dict(first.headers),
+                    rows=np.concatenate([first.rows, second.rows]),
+                    complete=first.complete and second.complete)
+    merged.sources = np.concatenate([np.full(len(first), first.sheet_name, dtype=object),
+                                     np.full(len(second), second.sheet_name, dtype=object)])
+    merged.source_headers = {first.sheet_name: first.headers, second.sheet_name: second.headers}
+    for col in spec.columns:
+        parts = [table.values.get(col.name) for table in (first, second)]
+        if all(part is None for part in parts):
+            merged.values[col.name] = None
+            merged.invalid[col.name] = np.ones(len(merged), dtype=bool)
+            continue
+        values, invalid = [], []
+        for table, part in zip((first, second), parts):
+            if part is None:
+                part = _default_values(col, len(table))
+                bad = np.zeros(len(table), dtype=bool)
+            else:
+                bad = table.invalid[col.name]
+            values.append(part.reset_index(drop=True))
+            invalid.append(bad)
+        merged.values[col.name] = pd.concat(values, ignore_index=True)
+        merged.invalid[col.name] = np.concatenate(invalid)
+    return merged
+
+
+def _default_values(col: Column, n: int) -> pd.Series:
+    """What a blank cell of ``col`` parses to, for ``n`` records (as :meth:`_ColumnParser.parse` fills blanks)."""
+    if col.kind == NUMBER:
+        fill = math.inf if col.name in _BLANK_MEANS_NO_LIMIT else (
+            math.nan if col.default is None else float(col.default))
+        return pd.Series(np.full(n, fill), dtype=float)
+    if col.kind == FLAG:
+        return (pd.Series([None] * n, dtype=object) if col.default is None
+                else pd.Series(np.full(n, bool(col.default)), dtype=bool))
+    return pd.Series([col.default if col.default is not None else ""] * n, dtype=object)
 
 
 class _IdSuggester:

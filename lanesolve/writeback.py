@@ -265,6 +265,7 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
         for lane in inactive.itertuples(index=False):
             flow_rows.append([lane.origin, lane.destination, lane.mode, 0.0, _plain(lane.cost_per_unit), 0.0, 0.0,
                               _plain(lane.capacity), None, "inactive, left out"])
+    flow_columns, flow_kinds = _with_cost_sources(network, flow_columns, flow_kinds, flow_rows)
     flows_sheet = ResultSheet(FLOWS_SHEET, flow_columns, flow_rows, flow_kinds)
 
     node_columns = ["node", "kind", "supply", "demand", "shipped", "received", "unmet", "capacity", "throughput",
@@ -417,6 +418,22 @@ def why_no_plan_sheet(network, result) -> ResultSheet:
                      "cost per unit short used only to find the least shortfall; larger than any plan can save, "
                      "so the re-solve ships as much as the network allows"])
     return ResultSheet(WHY_SHEET, columns, rows, kinds)
+
+
+def _with_cost_sources(network, columns: list[str], kinds: dict[str, str], rows: list[list]):
+    """Add ``distance`` and ``cost_source`` to the lane flow rows (in place) when any lane has a distance or a cost
+    computed from one, so the planner sees where each cost came from; otherwise the sheet keeps its columns."""
+    sources = network.cost_sources() if hasattr(network, "cost_sources") else None
+    if sources is None or not len(sources) or not (sources["distance"].notna().any()
+                                                    or (sources["cost_source"] != "given").any()):
+        return columns, kinds
+    lanes = network.lanes
+    key = zip(lanes["origin"].tolist(), lanes["destination"].tolist(), lanes["mode"].tolist())
+    found = dict(zip(key, zip(sources["distance"].tolist(), sources["cost_source"].tolist())))
+    for row in rows:  # origin, destination and mode lead every row and are unique per lane (validated)
+        distance, source = found.get((row[0], row[1], row[2]), (None, None))
+        row += [_plain(distance) if distance == distance else None, source]
+    return columns + ["distance", "cost_source"], {**kinds, "distance": "number", "cost_source": "text"}
 
 
 SCENARIOS_SHEET = RESULT_PREFIX + "Scenarios"
