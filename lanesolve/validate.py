@@ -703,8 +703,11 @@ def _setting_value(setting: contract.Setting, cell, sheet_name, row, column, fou
                   f"enter an ordinary number for '{setting.name}', or leave it blank for the default")
         return _INVALID
     if setting.minimum is not None and number < setting.minimum:
-        found.add(sheet_name, row, column, cell, f"{_show(cell)} is negative; '{setting.name}' must be "
-                  f"{_show(float(setting.minimum))} or more", "enter 0 or a positive number")
+        low = "is negative" if number < 0 else "is too small"  # circuity_factor's minimum is 1, not 0
+        found.add(sheet_name, row, column, cell, f"{_show(cell)} {low}; '{setting.name}' must be "
+                  f"{_show(float(setting.minimum))} or more",
+                  "enter 0 or a positive number" if setting.minimum == 0 else
+                  f"enter {_show(float(setting.minimum))} or more")
         return _INVALID
     return number
 
