@@ -170,7 +170,7 @@ def _failure(path: str, error: BaseException, seconds: float) -> BatchRun:
                     LanesolveError.exit_code)
 
 
-def solve_one(path: str, time_limit: float | None = None) -> BatchRun:
+def solve_one(path: str, time_limit: float | None = None, solver: str | None = None) -> BatchRun:
     """Solve one workbook as ``lanesolve solve`` would and return its :class:`BatchRun`; never raises."""
     tick = time.perf_counter()
     try:
@@ -178,14 +178,14 @@ def solve_one(path: str, time_limit: float | None = None) -> BatchRun:
             raise WorkbookError(f"{path}: no such file (check the name and folder)")
         from . import pipeline  # imported here so a batch can start before the solver stack is loaded
 
-        outcome = pipeline.run(path, time_limit=time_limit)
+        outcome = pipeline.run(path, time_limit=time_limit, solver=solver)
     except Exception as error:  # noqa: BLE001 -- one workbook must never stop the batch
         return _failure(str(path), error, time.perf_counter() - tick)
     return BatchRun(str(path), outcome.result.status.value, float(outcome.result.total_cost),
                     time.perf_counter() - tick, "", 0, outcome.to_json())
 
 
-def solve_bytes(name: str, data: bytes, time_limit: float | None = None) -> dict:
+def solve_bytes(name: str, data: bytes, time_limit: float | None = None, solver: str | None = None) -> dict:
     """Dask task: solve a workbook given as bytes; return the run and the written files as bytes.
 
     Parameters
@@ -196,6 +196,8 @@ def solve_bytes(name: str, data: bytes, time_limit: float | None = None) -> dict
         The workbook's contents.
     time_limit : float, optional
         Seconds the solver may run.
+    solver : {"cbc", "highs"}, optional
+        Overrides the workbook's ``solver`` setting.
 
     Returns
     -------
@@ -208,7 +210,7 @@ def solve_bytes(name: str, data: bytes, time_limit: float | None = None) -> dict
     with tempfile.TemporaryDirectory(prefix="lanesolve-") as folder:
         path = Path(folder) / Path(name).name
         path.write_bytes(data)
-        run = solve_one(str(path), time_limit)
+        run = solve_one(str(path), time_limit, solver)
         summary = summary_path_for(path)
         written = summary.exists()  # the summary is written last, after the workbook
         return {"run": asdict(run), "workbook": path.read_bytes() if written else None,
@@ -245,6 +247,7 @@ def run_batch(
     dask_address: str | None = None,
     progress: bool = True,
     time_limit: float | None = None,
+    solver: str | None = None,
 ) -> BatchReport:
     """Solve many workbooks; one failure never stops the rest.
 
@@ -260,6 +263,8 @@ def run_batch(
         Show a one-line progress counter on stderr when it is a terminal.
     time_limit : float, optional
         Seconds the solver may run on each workbook (overrides their ``time_limit_s`` setting).
+    solver : {"cbc", "highs"}, optional
+        Overrides each workbook's ``solver`` setting.
 
     Returns
     -------
@@ -294,16 +299,16 @@ def run_batch(
         bar.step(runs[index])
     try:
         if dask_address is not None:
-            workers = _run_dask(paths, todo, dask_address, time_limit, runs, bar.step)
+            workers = _run_dask(paths, todo, dask_address, time_limit, solver, runs, bar.step)
             backend = "dask"
         elif workers == 1 or len(todo) <= 1:
             for index in todo:
-                runs[index] = solve_one(paths[index], time_limit)
+                runs[index] = solve_one(paths[index], time_limit, solver)
                 bar.step(runs[index])
             backend = "local"
         else:
             with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
-                futures = {pool.submit(solve_one, paths[index], time_limit): index for index in todo}
+                futures = {pool.submit(solve_one, paths[index], time_limit, solver): index for index in todo}
                 for future in as_completed(futures):
                     index = futures[future]
                     try:
@@ -374,7 +379,7 @@ def _collect(path: str, sent_checksum: str, answer: dict) -> BatchRun:
     return run
 
 
-def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float | None,
+def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float | None, solver: str | None,
               runs: dict[int, BatchRun], step: Callable[[BatchRun], None]) -> int:
     """Run the batch on the cluster at ``address``, filling ``runs``; return how many workers it had."""
     client = _dask_client(address)  # first: it turns a missing dask into a clear LanesolveError
@@ -393,7 +398,7 @@ def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float
                 step(runs[index])
                 continue
             checksums[index] = _sha256(data)
-            future = client.submit(solve_bytes, Path(paths[index]).name, data, time_limit, pure=False)
+            future = client.submit(solve_bytes, Path(paths[index]).name, data, time_limit, solver, pure=False)
             futures[future] = index
         for future in dask_completed(list(futures)):
             index = futures[future]

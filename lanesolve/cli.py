@@ -163,11 +163,13 @@ def _write_email(path: str, outcome, attach_workbook: bool) -> None:
               help="Run on this Dask scheduler (tcp://host:8786) instead of local processes.")
 @click.option("--time-limit", type=click.FloatRange(min=0), metavar="S",
               help="Seconds the solver may run on each workbook (overrides their time_limit_s settings).")
+@click.option("--solver", type=click.Choice(["cbc", "highs"]),
+              help="Solver for every workbook (overrides their solver settings; highs needs lanesolve[highs]).")
 @click.option("--summary", "summary_csv", type=click.Path(dir_okay=False), default="batch-summary.csv",
               show_default=True, help="Write the batch summary as CSV here (a .json beside it holds the same).")
 @click.option("--json", "as_json", is_flag=True, help="Print the batch summary as JSON on stdout.")
 def batch(paths: tuple[str, ...], workers: int, dask_address: str | None, time_limit: float | None,
-          summary_csv: str, as_json: bool) -> None:
+          solver: str | None, summary_csv: str, as_json: bool) -> None:
     """Solve many workbooks (each with its scenarios), writing each one's results as solve does."""
     from pathlib import Path
 
@@ -175,7 +177,7 @@ def batch(paths: tuple[str, ...], workers: int, dask_address: str | None, time_l
 
     try:
         report = run_batch(paths, workers=workers, dask_address=dask_address, progress=not as_json,
-                           time_limit=time_limit)
+                           time_limit=time_limit, solver=solver)
     except LanesolveError as error:
         _fail(error, as_json)
     report.to_csv(summary_csv)

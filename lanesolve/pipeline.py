@@ -235,7 +235,7 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
         writeback.write_results(path, output, sheets)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()
-        report.write_html(summary_path_for(output), network, result, info, warnings)
+        report.write_html(summary_path_for(output), network, result, info, warnings, comparison)
         result.timings["report"] = time.perf_counter() - tick
 
     if result.status is SolveStatus.NOT_SOLVED:

@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Callable
 
 import jinja2
+import pandas as pd
 
 from . import atomic
 from . import charts as _charts
@@ -420,7 +421,8 @@ def _gap_text(result: Result) -> str:
 
 def build_context(network: Network, result: Result, info: RunInfo, warnings: list,
                   charts: list[_charts.Drawing] | None = None,
-                  image_src: Callable[[_charts.Drawing], str] | None = None) -> dict:
+                  image_src: Callable[[_charts.Drawing], str] | None = None,
+                  comparison: pd.DataFrame | None = None) -> dict:
     """Everything the template shows, already formatted as text (the template only lays it out).
 
     Parameters
@@ -437,6 +439,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         The charts to show; by default :func:`lanesolve.charts.summary_charts`.
     image_src : callable, optional
         Maps a chart to its ``<img src>``; by default an SVG ``data:`` URI (the mail passes ``cid:`` references).
+    comparison : DataFrame, optional
+        The baseline and every scenario side by side (:func:`lanesolve.scenarios.compare`); shown when given.
 
     Returns
     -------
@@ -493,6 +497,7 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "trips": _trip_rows(result, units, currency) if has_plan else [],
         "sensitivity": _sensitivity_context(result, units, currency) if has_plan else {
             "groups": [], "basis": "", "not_computed": False},
+        "scenarios": _scenario_rows(comparison, units, currency),
         "why": why,
         # With a diagnosis the reasons it gives are shown in its own section, not twice in the box above it.
         "reasons": [m for m in messages if m not in set(why["sentences"])] if why else messages,
@@ -500,6 +505,31 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "warnings": [str(w) for w in warnings],
         "caution": CAUTION,
     }
+
+
+def _scenario_rows(comparison: pd.DataFrame | None, units: str, currency: str) -> list[dict]:
+    """The what-if comparison, formatted: one row per scenario, the baseline first."""
+    if comparison is None or not len(comparison):
+        return []
+    rows = []
+    for row in comparison.itertuples(index=False):
+        delta = row.delta_cost
+        known = isinstance(delta, (int, float)) and math.isfinite(delta)
+        rows.append({
+            "scenario": row.scenario,
+            "status": row.status,
+            "total_cost": format_money(row.total_cost, currency) if math.isfinite(row.total_cost) else "no plan",
+            "delta": ("+" if known and delta > 0 else "") + format_money(delta, currency) if known else "–",
+            "delta_pct": f"{row.delta_pct:+.1f} %" if math.isfinite(row.delta_pct) else "–",
+            "unmet": format_quantity(row.unmet_units, units) if math.isfinite(row.unmet_units) else "–",
+            "opened": row.lanes_opened or "–",
+            "closed": row.lanes_closed or "–",
+            "nodes": "; ".join(part for part in (
+                f"now used: {row.nodes_opened}" if row.nodes_opened else "",
+                f"no longer used: {row.nodes_closed}" if row.nodes_closed else "") if part) or "–",
+            "shifts": row.largest_shifts or "–",
+        })
+    return rows
 
 
 # --------------------------------------------------------------------------------------------- render and write
@@ -531,7 +561,8 @@ def _environment() -> jinja2.Environment:
 
 def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
                 charts: list[_charts.Drawing] | None = None,
-                image_src: Callable[[_charts.Drawing], str] | None = None) -> str:
+                image_src: Callable[[_charts.Drawing], str] | None = None,
+                comparison: pd.DataFrame | None = None) -> str:
     """Render the HTML summary of one run.
 
     Parameters
@@ -544,8 +575,9 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
         Run facts (input file, run time stamp, version, checksum).
     warnings : list of Problem or str
         Warnings found while reading the workbook; listed in the page.
-    charts, image_src : optional
-        As for :func:`build_context`: which charts, and how the page refers to each (``data:`` URI by default).
+    charts, image_src, comparison : optional
+        As for :func:`build_context`: which charts, how the page refers to each (``data:`` URI by default), and
+        the what-if comparison.
 
     Returns
     -------
@@ -566,7 +598,7 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
     True
     """
     template = _environment().get_template(TEMPLATE_NAME)
-    return template.render(**build_context(network, result, info, warnings, charts, image_src))
+    return template.render(**build_context(network, result, info, warnings, charts, image_src, comparison))
 
 
 def terminal_lines(network: Network, result: Result, info: RunInfo) -> list[str]:
@@ -686,7 +718,8 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list)
     return "\n".join(lines)
 
 
-def write_html(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list) -> None:
+def write_html(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list,
+               comparison: pd.DataFrame | None = None) -> None:
     """Write the HTML summary to ``path`` atomically.
 
     The page is written to a temporary file in the same folder and moved over ``path`` with :func:`os.replace`,
@@ -696,7 +729,7 @@ def write_html(path: str | os.PathLike, network: Network, result: Result, info: 
     ----------
     path : path-like
         Where the summary goes (by convention ``<stem>-summary.html`` beside the workbook).
-    network, result, info, warnings
+    network, result, info, warnings, comparison
         As for :func:`render_html`.
 
     Raises
@@ -705,7 +738,7 @@ def write_html(path: str | os.PathLike, network: Network, result: Result, info: 
         The folder does not exist or the file cannot be written or replaced.
     """
     path = Path(path)
-    page = render_html(network, result, info, warnings)
+    page = render_html(network, result, info, warnings, comparison=comparison)
     with atomic.replacing(path, "the HTML summary",
                           hint="check that the folder exists and the file is not open in another program") as handle:
         handle.write(page.encode("utf-8"))

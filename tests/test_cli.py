@@ -172,3 +172,20 @@ def test_ods_workbook_is_refused_before_solving_with_a_clear_message(tmp_path, m
     result = CliRunner().invoke(main, ["solve", str(path)])
     assert result.exit_code == 1
     assert "save it as .xlsx" in result.output
+
+
+def test_batch_passes_the_solver_choice_to_every_run(small, monkeypatch):
+    import lanesolve.pipeline
+
+    seen = []
+    real = lanesolve.pipeline.run
+
+    def spy(*args, **kwargs):
+        seen.append(kwargs.get("solver"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(lanesolve.pipeline, "run", spy)
+    result = CliRunner().invoke(main, ["batch", str(small), "--solver", "cbc", "--summary",
+                                       str(small.parent / "b.csv")])
+    assert result.exit_code == 0, result.output
+    assert seen == ["cbc"]

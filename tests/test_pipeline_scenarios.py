@@ -84,3 +84,21 @@ def test_comparison_sheet_is_written_back(book):
     sheet = openpyxl.load_workbook(book)["LS Scenarios"]
     names = [row[0] for row in sheet.iter_rows(min_row=2, values_only=True)]
     assert names == ["baseline", "peak", "cut"]
+
+
+def test_summary_page_has_the_scenario_table(book):
+    run(book)
+    page = (book.parent / "what-if-summary.html").read_text(encoding="utf-8")
+    section = page.split('id="scenarios"', 1)[1].split("</table>", 1)[0]
+    for name in ("baseline", "peak", "cut"):
+        assert f"<td>{name}</td>" in section
+    # The 'cut' scenario moves 10 units off D2>C2 onto D1>C2 (cost 3 instead of 2): +10.00, by hand from BASE.
+    assert "+10.00" in section
+
+
+def test_scenario_names_are_escaped_in_the_page(tmp_path):
+    hostile = [SCENARIOS[0], ["<b>x</b>", "Customers", "*", "demand", "scale", 1.1]]
+    path = write_workbook(tmp_path / "hostile.xlsx", {**BASE, "Scenarios": hostile})
+    run(path)
+    page = (tmp_path / "hostile-summary.html").read_text(encoding="utf-8")
+    assert "<b>x</b>" not in page and "&lt;b&gt;x&lt;/b&gt;" in page
