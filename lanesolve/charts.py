@@ -58,6 +58,11 @@ MAX_UTILISATION_ROWS = 30
 MAX_LINE = 10.0
 #: Narrowest line drawn, so a lane with a tiny flow is still visible (its width is then no longer proportional).
 MIN_LINE = 1.0
+#: Big networks: at most this many lanes with flow are drawn (the largest flows), and unused lanes only when there
+#: are at most this many of them. Past that a map shows lines no reader can tell apart, and each line costs time and
+#: bytes in the page (100k lanes: 94k dashed unused lanes made a 14 MB SVG); the legend says what was left out.
+MAX_FLOW_LANES = 3000
+MAX_UNUSED_LANES = 400
 #: Capacity bands use the flow lines' scale but are capped at this width, so one huge capacity cannot cover the map.
 MAX_BAND = 18.0
 #: Customers are labelled on the map only up to this many; beyond that the names would cover each other.
@@ -407,6 +412,11 @@ def map_chart(network: Network, result: Result, units: str = "") -> Drawing | No
       the light margin either side is the unused capacity;
     - active lanes without flow are thin dashed lines; customers short of demand are hollow red rings.
 
+    Thinning for big networks (what a planner reads is kept: every node, the lanes that carry the plan): only the
+    :data:`MAX_FLOW_LANES` lanes with the largest flows are drawn, and unused lanes only when there are at most
+    :data:`MAX_UNUSED_LANES` of them; the legend and the alt text say how many lanes were left out and, for lanes
+    with flow, what share of the total flow the drawn ones carry.
+
     Returns None when fewer than two nodes have coordinates (the page then says the map needs them).
     """
     placed = _coordinates(network)
@@ -436,7 +446,9 @@ def map_chart(network: Network, result: Result, units: str = "") -> Drawing | No
     skipped = 0
     for lane in flows.itertuples(index=False):
         used_keys.add((str(lane.origin), str(lane.destination), str(lane.mode or "")))
-    for lane in network.active_lanes.itertuples(index=False):
+    unused_count = len(network.active_lanes) - len(used_keys)
+    unused_left_out = unused_count if unused_count > MAX_UNUSED_LANES else 0
+    for lane in network.active_lanes.itertuples(index=False) if not unused_left_out else ():
         key = (str(lane.origin), str(lane.destination), str(lane.mode or ""))
         if key in used_keys:
             continue
@@ -444,6 +456,11 @@ def map_chart(network: Network, result: Result, units: str = "") -> Drawing | No
         if a and b:
             drawing.line(*a, *b, 1.0, UNUSED, dashed=True)
 
+    total_flow = float(flows["flow"].sum()) if not flows.empty else 0.0
+    flow_left_out = max(len(flows) - MAX_FLOW_LANES, 0)
+    if flow_left_out:
+        flows = flows.nlargest(MAX_FLOW_LANES, "flow")
+    drawn_share = float(flows["flow"].sum()) / total_flow if total_flow > 0 else 1.0
     drawn = []
     for lane in flows.itertuples(index=False):
         a, b = where.get(str(lane.origin)), where.get(str(lane.destination))
@@ -504,10 +521,22 @@ def map_chart(network: Network, result: Result, units: str = "") -> Drawing | No
     drawing.text(col[0], y3, scale_text, 11, MUTED)
     if skipped:
         drawing.text(WIDTH - 12, y3, f"{skipped} lane(s) not drawn: no coordinates", 11, SHORT, anchor="end")
+    left_out = []
+    if flow_left_out:
+        left_out.append(f"only the {MAX_FLOW_LANES:,d} largest of {MAX_FLOW_LANES + flow_left_out:,d} lanes with "
+                        f"flow drawn ({drawn_share:.0%} of the flow)")
+    if unused_left_out:
+        left_out.append(f"{unused_left_out:,d} unused lanes not drawn")
+    if left_out:
+        drawing.height += 18  # one more legend line
+        drawing.text(col[0], y3 + 18, "; ".join(left_out) + "; the result sheets list every lane with flow", 11,
+                     MUTED)
     missing = len(network.depots) + len(network.hubs) + len(network.customers) - len(placed)
     drawing.alt = (f"Network map of {len(placed)} nodes and {len(drawn)} lanes with flow"
                    + (f" ({missing} nodes without coordinates not shown)" if missing else "")
-                   + f"; the widest line carries {_fmt(max_flow)} {units}".rstrip() + ".")
+                   + f"; the widest line carries {_fmt(max_flow)} {units}".rstrip()
+                   + (f"; {flow_left_out:,d} smaller lanes with flow not drawn" if flow_left_out else "")
+                   + (f"; {unused_left_out:,d} unused lanes not drawn" if unused_left_out else "") + ".")
     return drawing
 
 
