@@ -363,20 +363,41 @@ def trips_sheet(result) -> ResultSheet:
     return ResultSheet(TRIPS_SHEET, columns, rows, kinds)
 
 
-def sensitivity_sheet(result) -> ResultSheet:
-    """``"LS Sensitivity"``: every row of ``result.sensitivity``, its figure in words, its sentence and its basis.
+#: The sensitivity sheet lists at most this many unused lanes' reduced costs, the nearest to being used first: on a
+#: large network nearly every lane is unused, and a row for each would echo the input, not inform (``--json`` keeps
+#: them all).
+MAX_REDUCED_COST_ROWS = 500
 
+
+def sensitivity_sheet(result) -> ResultSheet:
+    """``"LS Sensitivity"``: the figures of ``result.sensitivity``, each in words, with its sentence and basis.
+
+    Every marginal cost and capacity value is listed; of the unused lanes' reduced costs, the
+    :data:`MAX_REDUCED_COST_ROWS` smallest (the lanes closest to being worth using), then one row counting the rest.
     A figure that is not unique (a degenerate plan) has a blank value and ``unique`` "no"; its sentence says why.
     With no figures (a plan not proven optimal, or the LP re-solve failed) the sheet holds one row saying so.
     """
     columns = ["figure", "item", "value", "unique", "basis", "in plain words"]
     kinds = {"figure": "text", "item": "text", "value": "money", "unique": "text", "basis": "text",
              "in plain words": "text"}
+    frame = result.sensitivity
+    reduced = frame["figure"] == "reduced_cost" if len(frame) else None
+    left_out = 0
+    if reduced is not None and int(reduced.sum()) > MAX_REDUCED_COST_ROWS:
+        lanes = frame[reduced]
+        # Unique figures first, smallest first; a stable sort keeps the model's order among equals.
+        order = lanes.assign(_unsure=~lanes["unique"].astype(bool)).sort_values(["_unsure", "value"], kind="stable")
+        left_out = len(lanes) - MAX_REDUCED_COST_ROWS
+        frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS].drop(columns="_unsure")])
     rows = []
-    for row in result.sensitivity.itertuples(index=False):
+    for row in frame.itertuples(index=False):
         rows.append([FIGURE_WORDS.get(row.figure, str(row.figure).replace("_", " ")), _plain(row.item),
                      _plain(row.value) if bool(row.unique) else None, "yes" if bool(row.unique) else "no",
                      _plain(row.basis), _plain(row.text)])
+    if left_out:
+        rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None,
+                     f"... and {left_out:,} more unused lanes, each further from being worth using than those above "
+                     "(lanesolve solve --json lists every figure)."])
     if not rows:
         why = ("the plan is not proven optimal, so its marginal costs could mislead"
                if result.status.value != "optimal" else "the figures could not be computed for this plan")
