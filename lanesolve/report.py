@@ -23,7 +23,7 @@ import pandas as pd
 
 from . import atomic
 from . import charts as _charts
-from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus
+from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus, node_decisions
 from .sensitivity import FIXED_BASIS, TOP_FEW, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
@@ -236,17 +236,9 @@ def _design_rows(network: Network, result: Result, units: str, currency: str) ->
     """The "Open and closed" table: every depot and hub, the status given, the decision and what it paid."""
     if not network.has_design or result.open_nodes.empty:
         return []
-    nodes = result.nodes.set_index("node") if not result.nodes.empty else None
     rows = []
-    for node in result.open_nodes.itertuples(index=False):
-        used = limit = share = None
-        if nodes is not None and node.node in nodes.index:
-            facts = nodes.loc[node.node]
-            if node.kind == "depot":
-                used, limit = facts["shipped"] - facts["received"], facts["supply"]
-            else:
-                used, limit = facts["throughput"], facts["capacity"]
-            share = facts["utilisation"]
+    for node in node_decisions(result).itertuples(index=False):
+        used, limit, share = node.used, node.limit, node.utilisation
         rows.append({
             "node": str(node.node), "kind": str(node.kind), "status": str(node.status),
             "decision": "open" if node.open else "closed",

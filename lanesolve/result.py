@@ -38,6 +38,25 @@ TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips
 SENSITIVITY_COLUMNS = ["figure", "item", "value", "unique", "basis", "text"]
 
 
+def node_decisions(result: "Result") -> pd.DataFrame:
+    """Every depot and hub with its decision and how much of it the plan uses, for the sheet and the report.
+
+    Columns: those of :data:`OPEN_NODE_COLUMNS`, then ``used`` (net units shipped by a depot, units through a hub),
+    ``limit`` (a depot's supply, a hub's capacity; inf for no limit) and ``utilisation`` (their ratio, NaN without
+    a limit). Nodes missing from ``result.nodes`` have NaN figures.
+    """
+    decisions = result.open_nodes.reset_index(drop=True)
+    if decisions.empty:
+        return decisions.assign(used=pd.Series(dtype=float), limit=pd.Series(dtype=float),
+                                utilisation=pd.Series(dtype=float))
+    nodes = result.nodes.drop_duplicates("node").set_index("node")
+    facts = nodes.reindex(decisions["node"]).reset_index(drop=True)
+    is_depot = (decisions["kind"] == "depot").to_numpy()
+    used = (facts["shipped"] - facts["received"]).where(is_depot, facts["throughput"])
+    limit = facts["supply"].where(is_depot, facts["capacity"])
+    return decisions.assign(used=used.to_numpy(), limit=limit.to_numpy(), utilisation=facts["utilisation"].to_numpy())
+
+
 class SolveStatus(str, enum.Enum):
     """Outcome of a solve.
 

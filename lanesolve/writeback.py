@@ -43,7 +43,7 @@ import pandas as pd
 from . import atomic
 from .contract import RESULT_PREFIX
 from .errors import WriteError
-from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS
+from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, node_decisions
 
 #: Text written for an infinite value (a lane or hub capacity without limit).
 NO_LIMIT = "no limit"
@@ -324,17 +324,9 @@ def design_sheet(result) -> ResultSheet:
     kinds = {"depot or hub": "text", "kind": "text", "status given": "text", "decision": "text",
              "fixed charge paid": "money", "throughput": "quantity", "capacity": "quantity",
              "utilisation %": "percent"}
-    nodes = result.nodes.set_index("node") if len(result.nodes) else None
     rows = []
-    for node in result.open_nodes.itertuples(index=False):
-        throughput = capacity = utilisation = None
-        if nodes is not None and node.node in nodes.index:
-            facts = nodes.loc[node.node]
-            if node.kind == "depot":
-                throughput, capacity = facts["shipped"] - facts["received"], facts["supply"]
-            else:
-                throughput, capacity = facts["throughput"], facts["capacity"]
-            utilisation = _percent(facts["utilisation"])
+    for node in node_decisions(result).itertuples(index=False):
+        throughput, capacity, utilisation = node.used, node.limit, _percent(node.utilisation)
         rows.append([_plain(node.node), _plain(node.kind), _plain(node.status), "open" if node.open else "closed",
                      _plain(node.fixed_charge), _plain(throughput), _plain(capacity), utilisation])
     return ResultSheet(DESIGN_SHEET, columns, rows, kinds)
