@@ -92,6 +92,18 @@ class Network:
         return pd.DataFrame({"distance": math.nan, "cost_source": "given", "sheet": "Lanes"},
                             index=self.lanes.index)[LANE_SOURCE_COLUMNS]
 
+    def cost_source_by_lane(self) -> dict[tuple[str, str, str], tuple[float, str]] | None:
+        """Where each lane's cost came from, keyed by (origin, destination, mode): (distance, cost source).
+
+        ``None`` when every cost was typed in and no lane has a distance, so results need not show the columns.
+        """
+        sources = self.cost_sources()
+        if not len(sources) or not (sources["distance"].notna().any() or (sources["cost_source"] != "given").any()):
+            return None
+        lanes = self.lanes
+        keys = zip(lanes["origin"].tolist(), lanes["destination"].tolist(), lanes["mode"].tolist())
+        return dict(zip(keys, zip(sources["distance"].tolist(), sources["cost_source"].tolist())))
+
     @property
     def active_lanes(self) -> pd.DataFrame:
         """Lanes that take part in the model (``active`` true)."""

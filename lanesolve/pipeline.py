@@ -58,6 +58,12 @@ class RunOutcome:
 
     def to_json(self) -> dict:
         doc = self.result.to_json()
+        sources = self.network.cost_source_by_lane()
+        if sources is not None:
+            for flow in doc["flows"]:
+                distance, source = sources.get((flow["origin"], flow["destination"], flow["mode"]), (None, None))
+                flow["distance"] = distance if distance == distance else None  # NaN -> null
+                flow["cost_source"] = source
         if self.scenario_results:
             doc["scenarios"] = [{"scenario": name, **result.to_json()}
                                 for name, result in self.scenario_results.items()]

@@ -436,13 +436,9 @@ def why_no_plan_sheet(network, result) -> ResultSheet:
 def _with_cost_sources(network, columns: list[str], kinds: dict[str, str], rows: list[list]):
     """Add ``distance`` and ``cost_source`` to the lane flow rows (in place) when any lane has a distance or a cost
     computed from one, so the planner sees where each cost came from; otherwise the sheet keeps its columns."""
-    sources = network.cost_sources() if hasattr(network, "cost_sources") else None
-    if sources is None or not len(sources) or not (sources["distance"].notna().any()
-                                                    or (sources["cost_source"] != "given").any()):
+    found = network.cost_source_by_lane()
+    if found is None:
         return columns, kinds
-    lanes = network.lanes
-    key = zip(lanes["origin"].tolist(), lanes["destination"].tolist(), lanes["mode"].tolist())
-    found = dict(zip(key, zip(sources["distance"].tolist(), sources["cost_source"].tolist())))
     for row in rows:  # origin, destination and mode lead every row and are unique per lane (validated)
         distance, source = found.get((row[0], row[1], row[2]), (None, None))
         row += [_plain(distance) if distance == distance else None, source]

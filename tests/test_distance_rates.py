@@ -209,3 +209,30 @@ def test_lane_flows_sheet_shows_distance_and_cost_source(make_workbook, tmp_path
         assert record[-1] == source
         if distance == distance:
             assert record[-2] == pytest.approx(distance, rel=1e-6)
+
+
+def test_json_flows_show_distance_and_cost_source(make_workbook):
+    outcome = pipeline.run(make_workbook(sheets()), write=False)
+    sources = outcome.network.cost_sources()
+    lanes = outcome.network.lanes
+    expected = {(o, d, m): (dist, src) for o, d, m, dist, src in
+                zip(lanes["origin"], lanes["destination"], lanes["mode"], sources["distance"], sources["cost_source"])}
+    flows = outcome.to_json()["flows"]
+    assert flows
+    for flow in flows:
+        distance, source = expected[(flow["origin"], flow["destination"], flow["mode"])]
+        assert flow["cost_source"] == source
+        if distance == distance:
+            assert flow["distance"] == pytest.approx(distance, rel=1e-12)
+        else:
+            assert flow["distance"] is None
+
+
+def test_json_flows_without_distances_keep_their_fields(make_workbook):
+    typed = sheets(rate_per_distance=None, circuity_factor=None)
+    for record in typed["Lanes"][1:]:
+        record[2] = 10.0
+        if len(record) > 3:
+            record[3:] = [None] * (len(record) - 3)
+    outcome = pipeline.run(make_workbook(typed, "typed.xlsx"), write=False)
+    assert all("distance" not in flow for flow in outcome.to_json()["flows"])
