@@ -90,8 +90,12 @@ def file_checksum(path: str | Path) -> str:
 
 
 def load(path: str | Path) -> tuple[Network, list[Problem]]:
-    """Read and validate a workbook; raise :class:`~lanesolve.errors.WorkbookError` listing every problem."""
-    return validate.validate(reader.read_workbook(path))
+    """Read and validate a workbook, its Scenarios sheet included; raise :class:`~lanesolve.errors.WorkbookError`
+    listing every problem."""
+    raw = reader.read_workbook(path)
+    network, warnings = validate.validate(raw)
+    scenario_networks(raw, network)
+    return network, warnings
 
 
 def scenario_networks(raw: reader.RawWorkbook, network: Network,

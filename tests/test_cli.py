@@ -189,3 +189,16 @@ def test_batch_passes_the_solver_choice_to_every_run(small, monkeypatch):
                                        str(small.parent / "b.csv")])
     assert result.exit_code == 0, result.output
     assert seen == ["cbc"]
+
+
+def test_check_reports_scenario_problems_too(tmp_path):
+    path = _workbook(tmp_path / "whatif.xlsx", [["D1", 20]], [["C1", 10, None]], [["D1", "C1", 1, None]])
+    book = openpyxl.load_workbook(path)
+    sheet = book.create_sheet("Scenarios")
+    for row in (["scenario", "sheet", "match", "column", "change", "value"],
+                ["typo", "Customers", "C9", "demand", "scale", 2]):
+        sheet.append(row)
+    book.save(path)
+    result = CliRunner().invoke(main, ["check", str(path)])
+    assert result.exit_code == 1
+    assert "Scenarios row 2" in result.output and "C9" in result.output
