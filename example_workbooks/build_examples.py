@@ -20,12 +20,16 @@ The data is chosen so the plan is worth reading:
 - Runnelby, at the far corner, has an unmet-demand penalty: the capped lane through Vantry hub is worth using, the
   long direct haul costs more than the penalty, so part of its demand is rationally left undelivered;
 - Orlenby -> Dapplemere is marked inactive (a closed bridge), Tarrowick -> Quistmoor is a depot-to-depot transfer;
-- a "notes" column shows that extra columns are kept.
+- a "notes" column shows that extra columns are kept;
+- a Scenarios sheet tries five what-ifs: peak season (+20 % demand), diesel up 8 %, Mellisford hub closed, a carrier
+  halving the Quistmoor -> Harrowquay capacity, and peak season with the Tarrowick rail shuttle's charge cut to a
+  quarter.
 """
 
 from __future__ import annotations
 
 import argparse
+import copy
 import math
 import random
 import sys
@@ -164,6 +168,32 @@ def _write_rows(ws, sheet: contract.Sheet, records: list[dict], extra: tuple[str
     ws.column_dimensions["A"].width = max(ws.column_dimensions["A"].width or 0, width)
 
 
+#: What-ifs a planner at the distributor would try; each row is one change, rows with one name make one scenario.
+SCENARIOS = (
+    ("peak season", "Customers", "*", "demand", "scale", 1.2),
+    ("diesel up 8 %", "Lanes", "*", "cost_per_unit", "scale", 1.08),
+    ("Mellisford hub closed", "Hubs", "Mellisford hub", "capacity", "set", 0),
+    ("carrier cuts Quistmoor-Harrowquay", "Lanes", "Quistmoor depot>Harrowquay", "capacity", "scale", 0.5),
+    ("peak with rail shuttle cheaper", "Customers", "*", "demand", "scale", 1.2),
+    ("peak with rail shuttle cheaper", "Lanes", "Tarrowick depot>Mellisford hub>rail", "fixed_cost", "scale", 0.25),
+)
+
+
+def _write_scenarios(book: openpyxl.Workbook) -> None:
+    """Add the Scenarios sheet (see README "Scenarios"), styled like the template's input sheets."""
+    ws = book.create_sheet("Scenarios")
+    header = ("scenario", "sheet", "match", "column", "change", "value")
+    ws.append(header)
+    for record in SCENARIOS:
+        ws.append(record)
+    source = book[contract.LANES.name]["A1"]
+    for cell in ws[1]:
+        cell.font, cell.fill = copy.copy(source.font), copy.copy(source.fill)
+    ws.freeze_panes = "A2"
+    for column, width in zip("ABCDEF", (34, 12, 36, 16, 10, 10)):
+        ws.column_dimensions[column].width = width
+
+
 def build_example(path: Path) -> None:
     """Write the invented distributor's workbook to ``path`` on top of the blank template."""
     rng = random.Random(SEED)
@@ -199,6 +229,8 @@ def build_example(path: Path) -> None:
             settings.cell(row=row, column=2, value="pallets")
         elif name == "currency":
             settings.cell(row=row, column=2, value="EUR")
+
+    _write_scenarios(book)
 
     guide = book[GUIDE_SHEET]
     row = guide.max_row + 2

@@ -229,3 +229,45 @@ def test_blank_template_is_the_template():
     assert committed.sheetnames == fresh.sheetnames
     for sheet in fresh.sheetnames:
         assert list(committed[sheet].values) == list(fresh[sheet].values), sheet
+
+
+def _edited_copy(tmp_path: Path, name: str, edit) -> Path:
+    """The example edited by hand with openpyxl (its Scenarios sheet removed), as a planner would for a what-if."""
+    book = openpyxl.load_workbook(EXAMPLE)
+    del book["Scenarios"]
+    edit(book)
+    path = tmp_path / f"{name}.xlsx"
+    book.save(path)
+    return path
+
+
+def _scale_column(book, sheet: str, column: str, factor: float, only=None) -> None:
+    ws = book[sheet]
+    headers = [c.value for c in ws[1]]
+    col = headers.index(column) + 1
+    for row in range(2, ws.max_row + 1):
+        cell = ws.cell(row=row, column=col)
+        if cell.value is not None and (only is None or only(ws, row)):
+            cell.value = float(cell.value) * factor
+
+
+HAND_EDITS = {
+    # Each what-if on the example's Scenarios sheet, done by hand the same way (issue 6: a scenario's result equals
+    # solving a workbook edited by hand); the edited copy is solved by the SciPy milp reference above.
+    "peak season": lambda book: _scale_column(book, "Customers", "demand", 1.2),
+    "diesel up 8 %": lambda book: _scale_column(book, "Lanes", "cost_per_unit", 1.08),
+    "Mellisford hub closed": lambda book: _scale_column(
+        book, "Hubs", "capacity", 0.0, only=lambda ws, row: ws.cell(row=row, column=1).value == "Mellisford hub"),
+}
+
+
+@pytest.mark.parametrize("scenario", sorted(HAND_EDITS))
+def test_example_scenarios_equal_the_workbook_edited_by_hand(tmp_path, scenario):
+    pipeline = pytest.importorskip("lanesolve.pipeline")
+    outcome = pipeline.run(EXAMPLE, write=False)
+    assert scenario in outcome.scenario_results
+    result = outcome.scenario_results[scenario]
+    reference = reference_model(_edited_copy(tmp_path, "edited", HAND_EDITS[scenario]))
+    assert result.status.value == "optimal"
+    assert result.total_cost == pytest.approx(reference["cost"], rel=1e-6)
+    assert result.total_cost > outcome.result.total_cost  # each what-if costs more than the baseline
