@@ -245,9 +245,10 @@ def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
 
 
 def _copy(network: Network) -> Network:
+    sources = network.lane_sources.copy(deep=True) if network.lane_sources is not None else None
     return Network(depots=network.depots.copy(deep=True), customers=network.customers.copy(deep=True),
                    hubs=network.hubs.copy(deep=True), lanes=network.lanes.copy(deep=True),
-                   settings=dataclasses.replace(network.settings), source=network.source)
+                   settings=dataclasses.replace(network.settings), source=network.source, lane_sources=sources)
 
 
 def _matched_rows(network: Network, change: Change) -> tuple[pd.Index, list[Problem]]:
@@ -404,6 +405,12 @@ def apply_scenario(network: Network, scenario: Scenario) -> tuple[Network, list[
                     f"{column.name} must be " + (" and ".join(limit) if limit else "a number")))
                 continue
         frame.loc[rows, column.name] = values
+        if change.sheet == "Lanes" and column.name == "cost_per_unit":
+            # Say where the changed cost came from, so the results do not credit it to the workbook or a rate.
+            sources = new.cost_sources().copy()
+            value = f"{change.value:g}" if isinstance(change.value, (int, float)) else str(change.value or "blank")
+            sources.loc[rows, "cost_source"] = f"scenario {scenario.name}: {change.change} {value}"
+            new.lane_sources = sources
     return new, problems
 
 

@@ -434,3 +434,17 @@ def test_compare_a_scenario_without_plan():
     assert row["status"] == "infeasible"
     assert math.isnan(row["total_cost"]) and math.isnan(row["delta_cost"]) and math.isnan(row["unmet_units"])
     assert row["lanes_closed"] == "" and row["largest_shifts"] == ""
+
+
+def test_a_scenario_cost_change_is_credited_to_the_scenario():
+    from lanesolve.network import make_network
+
+    base = make_network([{"id": "D", "supply": 10}], [{"id": "C", "demand": 8}],
+                        [{"origin": "D", "destination": "C", "cost_per_unit": 2},
+                         {"origin": "D", "destination": "C", "mode": "rail", "cost_per_unit": 3}])
+    dearer = Scenario("dearer", [Change("Lanes", "D>C>rail", "cost_per_unit", "scale", 1.5, 2)])
+    changed, problems = apply_scenario(base, dearer)
+    assert problems == []
+    sources = changed.cost_sources()["cost_source"].tolist()
+    assert sources == ["given", "scenario dearer: scale 1.5"]
+    assert base.cost_sources()["cost_source"].tolist() == ["given", "given"]  # the baseline is untouched
