@@ -12,7 +12,7 @@ import sys
 import click
 
 from . import __version__
-from .errors import LanesolveError, NoPlanError, Problem, WorkbookError
+from .errors import LanesolveError, NoPlanError, Problem, SolverError, WorkbookError, WriteError
 
 #: At most this many problems are printed; the rest are counted.
 MAX_PRINTED_PROBLEMS = 50
@@ -42,7 +42,9 @@ def _fail(error: LanesolveError, as_json: bool) -> None:
     else:
         _say(f"Error: {error}")
     if as_json:
-        doc = {"status": {1: "input_error", 3: "infeasible", 4: "solver_error"}.get(error.exit_code, "error"),
+        kinds = ((WorkbookError, "input_error"), (WriteError, "write_error"), (NoPlanError, "infeasible"),
+                 (SolverError, "solver_error"))
+        doc = {"status": next((word for kind, word in kinds if isinstance(error, kind)), "error"),
                "error": str(error)}
         if isinstance(error, WorkbookError):
             doc["problems"] = [str(p) for p in error.problems]

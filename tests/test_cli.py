@@ -202,3 +202,11 @@ def test_check_reports_scenario_problems_too(tmp_path):
     result = CliRunner().invoke(main, ["check", str(path)])
     assert result.exit_code == 1
     assert "Scenarios row 2" in result.output and "C9" in result.output
+
+
+def test_json_names_a_write_failure_as_such(small, tmp_path):
+    (tmp_path / "~$small.xlsx").write_bytes(b"owner")  # as if a spreadsheet program had the workbook open
+    result = CliRunner().invoke(main, ["solve", str(small), "--json"])
+    assert result.exit_code == 1
+    doc = json.loads(result.stdout)
+    assert doc["status"] == "write_error" and "open in a spreadsheet program" in doc["error"]
