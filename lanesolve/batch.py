@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import csv
 import hashlib
-import json
 import math
 import os
 import sys

@@ -49,7 +49,7 @@ import pulp
 from .errors import SolverError
 from .model import LaneArrays, LaneModel, array_path_applies, build_lp_arrays, build_model
 from .network import Network
-from .result import (COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
+from .result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
                      Result, SolveStatus, empty_frame)
 
 #: Values smaller than this in magnitude are solver noise and are reported as 0.

@@ -204,9 +204,6 @@ def _match_sheets(raw: RawWorkbook, found: _Findings, deferred: tuple[str, ...] 
     by_norm: dict[str, list[RawSheet]] = {}
     for sheet in raw.sheets.values():
         by_norm.setdefault(contract.normalize(sheet.name), []).append(sheet)
-    contract_norms = {contract.normalize(spec.name) for spec in contract.INPUT_SHEETS}
-    spare = {contract.normalize(s.name): s.name for s in raw.sheets.values()
-             if contract.normalize(s.name) not in contract_norms}
 
     matched: dict[str, RawSheet] = {}
     for spec in contract.INPUT_SHEETS:

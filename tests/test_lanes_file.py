@@ -9,7 +9,6 @@ Places and companies are invented.
 
 from __future__ import annotations
 
-import copy
 import importlib.util
 
 import pytest

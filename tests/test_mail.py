@@ -78,9 +78,9 @@ def test_text_part_has_the_key_figures(mailed):
     text = message.get_body(preferencelist=("plain",)).get_content()
     # The figures from --json (the plan), formatted as a planner reads them.
     assert f"{doc['total_cost']:,.2f} EUR" in text
-    assert f"Lanes used:" in text and f" {len(doc['flows'])}" in text
+    assert "Lanes used:" in text and f" {len(doc['flows'])}" in text
     unmet = sum(u["quantity"] for u in doc["unmet"])
-    assert f"Unmet demand:" in text and f"{unmet:,.0f} pallets" in text
+    assert "Unmet demand:" in text and f"{unmet:,.0f} pallets" in text
     assert "licensed professionals take precedence" in text
 
 
