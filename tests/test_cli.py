@@ -6,23 +6,17 @@ import pathlib
 import openpyxl
 import pytest
 from click.testing import CliRunner
+from conftest import write_workbook
 
 from lanesolve.cli import main
 
 
 def _workbook(path, depots, customers, lanes, settings=None):
-    wb = openpyxl.Workbook()
     sheets = {"Depots": [["depot", "supply"], *depots], "Customers": [["customer", "demand", "unmet_penalty"],
               *customers], "Lanes": [["origin", "destination", "cost_per_unit", "capacity"], *lanes]}
     if settings:
         sheets["Settings"] = [["setting", "value"], *settings]
-    wb.remove(wb.active)
-    for name, rows in sheets.items():
-        ws = wb.create_sheet(name)
-        for row in rows:
-            ws.append(row)
-    wb.save(path)
-    return path
+    return write_workbook(path, sheets)
 
 
 @pytest.fixture

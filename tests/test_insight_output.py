@@ -15,6 +15,7 @@ import openpyxl
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from conftest import write_workbook
 
 from lanesolve import report, writeback
 from lanesolve.cli import main
@@ -223,8 +224,6 @@ def no_plan_workbook(path, hub_capacity=50):
     Harrowquay's 20 come straight from Tarrowick. The pre-solve checks pass (Runnelby's inbound lane has no limit and
     supply 200 covers demand 100), so the solver and the shortfall re-solve decide. The bottleneck is the hub.
     """
-    wb = openpyxl.Workbook()
-    wb.remove(wb.active)
     sheets = {
         "Depots": [["depot", "supply"], ["Tarrowick", 100], ["Mellisford", 100]],
         "Customers": [["customer", "demand"], ["Runnelby", 80], ["Harrowquay", 20]],
@@ -233,12 +232,7 @@ def no_plan_workbook(path, hub_capacity=50):
                   ["Mellisford", "Quistmoor", 2], ["Quistmoor", "Runnelby", 1], ["Tarrowick", "Harrowquay", 3]],
         "Settings": [["setting", "value"], ["units", "pallets"], ["currency", "EUR"]],
     }
-    for name, rows in sheets.items():
-        ws = wb.create_sheet(name)
-        for row in rows:
-            ws.append(row)
-    wb.save(path)
-    return path
+    return write_workbook(path, sheets)
 
 
 def networkx_shortfall() -> float:
