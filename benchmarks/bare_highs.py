@@ -47,7 +47,7 @@ class LinearProgram:
 
 
 def build_lp(network) -> LinearProgram:
-    """Build the sparse LP of a :class:`lanesolve.network.Network` without fixed charges.
+    """Build the sparse LP of a :class:`lanesolve.model.network.Network` without fixed charges.
 
     Raises
     ------

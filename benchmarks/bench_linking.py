@@ -6,7 +6,7 @@ Run::
 
 Each instance is an invented capacitated facility-location network: D candidate depots (status decide, a fixed
 cost each, supply a share of total demand) serving C customers directly over every depot-customer lane. The model
-is built twice by :func:`lanesolve.model.build_model`: ``linking=True`` (aggregate rows plus
+is built twice by :func:`lanesolve.model.formulation.build_model`: ``linking=True`` (aggregate rows plus
 ``x_l <= M_l * open``) and ``linking=False`` (aggregate rows only). For each the table shows the LP relaxation's
 bound (the root bound, solved by CBC with integrality relaxed), its gap to the optimum, the MIP solve time and the
 nodes CBC reports. Ratios are of "without" over "with".
@@ -26,8 +26,8 @@ from pathlib import Path
 import pulp
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-from lanesolve.model import build_model  # noqa: E402
-from lanesolve.network import make_network  # noqa: E402
+from lanesolve.model.formulation import build_model  # noqa: E402
+from lanesolve.model.network import make_network  # noqa: E402
 
 _NODES = re.compile(r"Enumerated nodes:\s*(\d+)")
 

@@ -17,7 +17,7 @@ the lanes, which makes the instance a MIP; such a workbook is written under a di
 
 Sizes are given as lane counts (``10k``, ``100k``, ``500k``); the generated workbook has exactly that many lanes.
 Workbooks are written with openpyxl's write-only mode and cached in ``benchmarks/cache/`` together with a pickle of
-the same data as a :class:`lanesolve.network.Network` (for the bare-solver baseline, which does not read workbooks).
+the same data as a :class:`lanesolve.model.network.Network` (for the bare-solver baseline, which does not read workbooks).
 
 Usage::
 
@@ -287,8 +287,8 @@ def write_workbook(tables: dict[str, pd.DataFrame], path: Path) -> None:
 
 
 def to_network(tables: dict[str, pd.DataFrame]):
-    """The same data as a :class:`lanesolve.network.Network` (defaults filled as the validator would)."""
-    from lanesolve.network import Settings, make_network
+    """The same data as a :class:`lanesolve.model.network.Network` (defaults filled as the validator would)."""
+    from lanesolve.model.network import Settings, make_network
 
     lanes = tables["lanes"].rename(columns={})
     lanes = lanes.assign(active=lanes["active"] == "yes")

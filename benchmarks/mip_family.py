@@ -7,7 +7,7 @@ charge 50-200. Those ranges follow the style of the random FCTP test sets in the
 Roberti, Bartolini & Mingozzi, Management Science 61(6), 2015), recalled from memory rather than copied; the exact
 instances here are our own, drawn from the seed.
 
-Each instance is solved through ``lanesolve.solve.solve`` (the product's own model and solver wrapper) with CBC and
+Each instance is solved through ``lanesolve.model.solve.solve`` (the product's own model and solver wrapper) with CBC and
 with HiGHS at the same limit, and the table shows objective, best bound, gap and the gap to the best known value in
 ``best_known.json`` (recorded by ``--record``: a long run, see the JSON for solver and seconds).
 
@@ -37,8 +37,8 @@ FAMILY = {"fctp-15x50": (15, 50, 1501), "fctp-25x100": (25, 100, 2501)}
 
 
 def fctp_network(depots: int, customers: int, seed: int):
-    """A balanced random fixed-charge transportation instance as a :class:`lanesolve.network.Network`."""
-    from lanesolve.network import Settings, make_network
+    """A balanced random fixed-charge transportation instance as a :class:`lanesolve.model.network.Network`."""
+    from lanesolve.model.network import Settings, make_network
 
     rng = np.random.default_rng(seed)
     demand = rng.integers(10, 51, size=customers)
@@ -62,7 +62,7 @@ def fctp_network(depots: int, customers: int, seed: int):
 
 def solve_one(name: str, solver: str, time_limit: float) -> dict:
     """Solve one instance with one solver; return objective, bound, gap, status and wall seconds."""
-    from lanesolve import solve
+    from lanesolve.model import solve
 
     depots, customers, seed = FAMILY[name]
     network = fctp_network(depots, customers, seed)

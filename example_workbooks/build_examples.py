@@ -42,7 +42,7 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))  # run from a clone without installing
 
 from lanesolve import contract  # noqa: E402
-from lanesolve.template import GUIDE_SHEET, number_format_for, save_atomically, write_template  # noqa: E402
+from lanesolve.write.template import GUIDE_SHEET, number_format_for, save_atomically, write_template  # noqa: E402
 
 SEED = 20240611
 EXAMPLE_NAME = "orvale_larder_supply.xlsx"

@@ -9,14 +9,14 @@ The library API mirrors the pipeline (see :mod:`lanesolve.pipeline`)::
 
 __version__ = "0.1.0"
 
-from .errors import LanesolveError, NoPlanError, Problem, SolverError, WorkbookError, WriteError  # noqa: E402
-from .network import Network, Settings, make_network  # noqa: E402
-from .result import Result, SolveStatus  # noqa: E402
+from lanesolve.errors import LanesolveError, NoPlanError, Problem, SolverError, WorkbookError, WriteError  # noqa: E402
+from lanesolve.model.network import Network, Settings, make_network  # noqa: E402
+from lanesolve.model.result import Result, SolveStatus  # noqa: E402
 
 
 def run(*args, **kwargs):
     """Solve a workbook end to end; see :func:`lanesolve.pipeline.run`."""
-    from .pipeline import run as _run
+    from lanesolve.pipeline import run as _run
 
     return _run(*args, **kwargs)
 

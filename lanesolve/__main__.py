@@ -1,6 +1,6 @@
 """``python -m lanesolve`` runs the command line interface."""
 
-from .cli import main
+from lanesolve.cli import main
 
 if __name__ == "__main__":
     main()

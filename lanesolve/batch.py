@@ -28,7 +28,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
-from .errors import LanesolveError, NoPlanError, SolverError, WorkbookError, WriteError
+from lanesolve.errors import LanesolveError, NoPlanError, SolverError, WorkbookError, WriteError
 
 #: Status of a run that failed in an unexpected way (a bug in lanesolve; the error names the exception type).
 INTERNAL_ERROR = "internal_error"
@@ -175,7 +175,7 @@ def solve_one(path: str, time_limit: float | None = None, solver: str | None = N
     try:
         if not Path(path).is_file():
             raise WorkbookError(f"{path}: no such file (check the name and folder)")
-        from . import pipeline  # imported here so a batch can start before the solver stack is loaded
+        from lanesolve import pipeline  # imported here so a batch can start before the solver stack is loaded
 
         outcome = pipeline.run(path, time_limit=time_limit, solver=solver)
     except Exception as error:  # noqa: BLE001 -- one workbook must never stop the batch
@@ -204,7 +204,7 @@ def solve_bytes(name: str, data: bytes, time_limit: float | None = None, solver:
         ``run``: the :class:`BatchRun` fields (``path`` is ``name``); ``workbook``: the solved workbook's bytes, or
         None when nothing was written; ``summary``: the HTML summary's bytes, or None.
     """
-    from .pipeline import summary_path_for
+    from lanesolve.pipeline import summary_path_for
 
     with tempfile.TemporaryDirectory(prefix="lanesolve-") as folder:
         path = Path(folder) / Path(name).name
@@ -354,7 +354,7 @@ def _write_atomic(path: Path, data: bytes) -> None:
 
 def _collect(path: str, sent_checksum: str, answer: dict) -> BatchRun:
     """Turn a Dask task's answer into a BatchRun, writing the solved workbook and summary beside the input."""
-    from .pipeline import summary_path_for
+    from lanesolve.pipeline import summary_path_for
 
     run = BatchRun(**{**answer["run"], "path": path})
     if answer["workbook"] is None:

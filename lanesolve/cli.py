@@ -11,8 +11,8 @@ import sys
 
 import click
 
-from . import __version__
-from .errors import LanesolveError, NoPlanError, Problem, SolverError, WorkbookError, WriteError
+from lanesolve import __version__
+from lanesolve.errors import LanesolveError, NoPlanError, Problem, SolverError, WorkbookError, WriteError
 
 #: At most this many problems are printed; the rest are counted.
 MAX_PRINTED_PROBLEMS = 50
@@ -64,7 +64,7 @@ def main() -> None:
 @click.argument("path", type=click.Path(dir_okay=False))
 def template(path: str) -> None:
     """Write a blank workbook to PATH, with every sheet, column and a guide."""
-    from .template import write_template
+    from lanesolve.write.template import write_template
 
     try:
         write_template(path)
@@ -77,8 +77,8 @@ def template(path: str) -> None:
 @click.argument("workbook", type=click.Path(exists=True, dir_okay=False))
 def check(workbook: str) -> None:
     """Validate WORKBOOK and list every problem found; solve nothing, write nothing."""
-    from .checks import presolve_checks
-    from .pipeline import load
+    from lanesolve.model.checks import presolve_checks
+    from lanesolve.pipeline import load
 
     try:
         network, warnings = load(workbook)
@@ -115,9 +115,9 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
           attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...],
           solver: str | None) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
-    from .pipeline import run
-    from .progress import TerminalProgress, no_progress
-    from .report import terminal_lines
+    from lanesolve.pipeline import run
+    from lanesolve.progress import TerminalProgress, no_progress
+    from lanesolve.report.summary import terminal_lines
 
     if attach_workbook and not email_path:
         raise click.UsageError("--attach-workbook needs --email PATH (the mail to attach the workbook to)")
@@ -151,7 +151,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
 
 
 def _write_email(path: str, outcome, attach_workbook: bool) -> None:
-    from .mail import write_email
+    from lanesolve.report.mail import write_email
 
     write_email(path, outcome.network, outcome.result, outcome.info, outcome.warnings,
                 attach=outcome.info.output_path if attach_workbook else None)
@@ -175,7 +175,7 @@ def batch(paths: tuple[str, ...], workers: int, dask_address: str | None, time_l
     """Solve many workbooks (each with its scenarios), writing each one's results as solve does."""
     from pathlib import Path
 
-    from .batch import run_batch
+    from lanesolve.batch import run_batch
 
     try:
         report = run_batch(paths, workers=workers, dask_address=dask_address, progress=not as_json,

@@ -5,19 +5,17 @@ Each stage is a module of its own and hands plain data to the next:
 =================  ==========================  ==================================================
 stage              module                      hands on
 =================  ==========================  ==================================================
-read               :mod:`lanesolve.reader`     :class:`~lanesolve.reader.RawWorkbook` (cell values)
-validate           :mod:`lanesolve.validate`   :class:`~lanesolve.network.Network` + warnings
-check              :mod:`lanesolve.checks`     reasons a plan cannot exist (before any solving)
-model and solve    :mod:`lanesolve.solve`      :class:`~lanesolve.result.Result`
-write back         :mod:`lanesolve.writeback`  result sheets in the workbook (atomic replace)
-report             :mod:`lanesolve.report`     ``<stem>-summary.html``
+read               :mod:`lanesolve.read.reader`     :class:`~lanesolve.read.reader.RawWorkbook` (cell values)
+validate           :mod:`lanesolve.read.validate`   :class:`~lanesolve.model.network.Network` + warnings
+check              :mod:`lanesolve.model.checks`     reasons a plan cannot exist (before any solving)
+model and solve    :mod:`lanesolve.model.diagnose`   :class:`~lanesolve.model.result.Result`
+write back         :mod:`lanesolve.write.writeback`  result sheets in the workbook (atomic replace)
+report             :mod:`lanesolve.report.summary`     ``<stem>-summary.html``
 =================  ==========================  ==================================================
 """
 
 from __future__ import annotations
 
-import datetime as _dt
-import hashlib
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -26,23 +24,22 @@ import difflib
 
 import pandas as pd
 
-from . import __version__, atomic, checks, contract, guard, locking, reader, report, scenarios, solve, validate, writeback
-from .errors import NoPlanError, Problem, SolverError, WorkbookError
-from .network import Network
-from .progress import ProgressCallback, no_progress
-from .result import Result, SolveStatus
-
-
-@dataclass
-class RunInfo:
-    """Facts about one run that the result sheets, the report and ``--json`` show beside the plan."""
-
-    input_path: str
-    output_path: str
-    summary_path: str
-    checksum: str
-    version: str = __version__
-    started: str = field(default_factory=lambda: _dt.datetime.now().astimezone().isoformat(timespec="seconds"))
+from lanesolve.write import atomic
+from lanesolve.model import checks
+from lanesolve import contract
+from lanesolve.read import guard
+from lanesolve.write import locking
+from lanesolve.read import reader
+from lanesolve.report import summary
+from lanesolve.model import scenarios
+from lanesolve.model import diagnose
+from lanesolve.read import validate
+from lanesolve.write import writeback
+from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError
+from lanesolve.model.network import Network
+from lanesolve.progress import ProgressCallback, no_progress
+from lanesolve.model.result import Result, SolveStatus
+from lanesolve.runinfo import RunInfo, file_checksum  # noqa: F401 (RunInfo is part of this module's API)
 
 
 @dataclass
@@ -78,15 +75,6 @@ class RunOutcome:
             timings={k: round(v, 4) for k, v in self.result.timings.items()},
         )
         return doc
-
-
-def file_checksum(path: str | Path) -> str:
-    """SHA-256 of the file's bytes, hex."""
-    digest = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for chunk in iter(lambda: fh.read(1 << 20), b""):
-            digest.update(chunk)
-    return digest.hexdigest()
 
 
 def load(path: str | Path) -> tuple[Network, list[Problem]]:
@@ -140,7 +128,7 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     if reasons:
         return checks.no_plan_result(network, reasons)
     progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
-    return solve.solve(network, time_limit=time_limit, solver=solver, msg=verbose)
+    return diagnose.solve_and_explain(network, time_limit=time_limit, solver=solver, msg=verbose)
 
 
 def summary_path_for(output: str | Path) -> Path:
@@ -245,7 +233,7 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
         writeback.write_results(path, output, sheets)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()
-        report.write_html(summary_path_for(output), network, result, info, warnings, comparison)
+        summary.write_html(summary_path_for(output), network, result, info, warnings, comparison)
         result.timings["report"] = time.perf_counter() - tick
 
     if result.status is SolveStatus.NOT_SOLVED:

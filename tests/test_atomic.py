@@ -5,7 +5,7 @@ import time
 
 import pytest
 
-from lanesolve import atomic
+from lanesolve.write import atomic
 from lanesolve.errors import LanesolveError, WriteError
 
 

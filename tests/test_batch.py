@@ -1,7 +1,7 @@
 """Tests of lanesolve.batch: many workbooks in one batch, one failing; 1 worker, 2 workers and a Dask LocalCluster.
 
 Reference for the solved costs: networkx's network simplex (``networkx.min_cost_flow_cost``) on the same data.
-The batch tests need the whole solve stack, so they skip until lanesolve.solve and lanesolve.validate exist.
+The batch tests need the whole solve stack, so they skip until lanesolve.model.solve and lanesolve.read.validate exist.
 """
 
 import io
@@ -62,8 +62,8 @@ def networkx_cost(data) -> float:
 
 @pytest.fixture
 def solver_stack():
-    pytest.importorskip("lanesolve.validate")
-    pytest.importorskip("lanesolve.solve")
+    pytest.importorskip("lanesolve.read.validate")
+    pytest.importorskip("lanesolve.model.solve")
 
 
 @pytest.fixture
@@ -130,6 +130,7 @@ def test_two_workers_give_the_same_results_as_one(books):
             assert flows_of(a) == flows_of(b)
 
 
+@pytest.mark.slow  # starts a Dask LocalCluster; CI runs it
 def test_dask_local_cluster_gives_the_same_results_as_one_worker(books):
     distributed = pytest.importorskip("dask.distributed")
     one_paths, datas = books("one")

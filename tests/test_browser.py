@@ -27,7 +27,9 @@ PIL_Image = pytest.importorskip("PIL.Image")
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
 CHROMEDRIVER = shutil.which("chromedriver") or (
     "/usr/bin/chromedriver" if Path("/usr/bin/chromedriver").exists() else None)
-pytestmark = pytest.mark.skipif(not (CHROMIUM and CHROMEDRIVER), reason="chromium and chromedriver not installed")
+# A real browser is slow to start: CI runs these (pytest -m slow), the quick start does not.
+pytestmark = [pytest.mark.slow,
+              pytest.mark.skipif(not (CHROMIUM and CHROMEDRIVER), reason="chromium and chromedriver not installed")]
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "example_workbooks" / "orvale_larder_supply.xlsx"
 

@@ -13,9 +13,9 @@ import xml.etree.ElementTree as ET
 import pandas as pd
 import pytest
 
-from lanesolve import charts
-from lanesolve.network import Settings, make_network
-from lanesolve.result import FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, Result, SolveStatus
+from lanesolve.report import charts
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.result import FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, Result, SolveStatus
 
 SVG = "{http://www.w3.org/2000/svg}"
 EVIL = "<script>alert(1)</script>"

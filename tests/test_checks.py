@@ -13,9 +13,9 @@ import networkx as nx
 import pulp
 import pytest
 
-from lanesolve.checks import no_plan_result, presolve_checks
-from lanesolve.network import Settings, make_network
-from lanesolve.result import COST_COMPONENTS, NODE_COLUMNS, SolveStatus
+from lanesolve.model.checks import no_plan_result, presolve_checks
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.result import COST_COMPONENTS, NODE_COLUMNS, SolveStatus
 
 
 @pytest.fixture(autouse=True)

@@ -155,12 +155,12 @@ def test_solve_one_named_scenario(tmp_path):
 
 
 def test_ods_workbook_is_refused_before_solving_with_a_clear_message(tmp_path, monkeypatch):
-    import lanesolve.solve
+    import lanesolve.model.solve
 
     def no_solver(*args, **kwargs):
         raise AssertionError("the solver must not run before the write target is checked")
 
-    monkeypatch.setattr(lanesolve.solve, "solve", no_solver)
+    monkeypatch.setattr(lanesolve.model.solve, "solve", no_solver)
     path = tmp_path / "plan.ods"
     path.write_bytes(b"PK\x03\x04 not really opendocument")
     result = CliRunner().invoke(main, ["solve", str(path)])

@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 from scipy.optimize import Bounds, LinearConstraint, milp
 
-from lanesolve.network import Settings, make_network
-from lanesolve.solve import solve
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.solve import solve
 
 TOL = 1e-6
 

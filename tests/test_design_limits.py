@@ -13,9 +13,9 @@ import random
 
 import pytest
 
-from lanesolve.network import make_network
-from lanesolve.result import SolveStatus
-from lanesolve.solve import solve
+from lanesolve.model.network import make_network
+from lanesolve.model.result import SolveStatus
+from lanesolve.model.solve import solve
 
 #: CBC's proven optimum of the seed-1 instance (a 40 s run with gap 1e-4 on this machine; measured, not published).
 PROVEN_OPTIMUM = 21088.65

@@ -20,9 +20,11 @@ import copy
 import openpyxl
 import pytest
 
-from lanesolve import pipeline, validate, writeback
+from lanesolve import pipeline
+from lanesolve.read import validate
+from lanesolve.write import writeback
 from lanesolve.errors import WorkbookError
-from lanesolve.reader import read_workbook
+from lanesolve.read.reader import read_workbook
 
 geodesic = pytest.importorskip("geographiclib.geodesic")
 

@@ -182,12 +182,12 @@ def test_example_optimum_is_interesting():
 
 
 def test_example_solves_like_the_reference(tmp_path):
-    pytest.importorskip("lanesolve.solve")
-    pytest.importorskip("lanesolve.writeback")
-    pytest.importorskip("lanesolve.validate")
-    pytest.importorskip("lanesolve.checks")
+    pytest.importorskip("lanesolve.model.solve")
+    pytest.importorskip("lanesolve.write.writeback")
+    pytest.importorskip("lanesolve.read.validate")
+    pytest.importorskip("lanesolve.model.checks")
     from lanesolve.pipeline import run
-    from lanesolve.result import SolveStatus
+    from lanesolve.model.result import SolveStatus
 
     work = tmp_path / EXAMPLE.name
     shutil.copy(EXAMPLE, work)
@@ -222,7 +222,7 @@ def test_example_solves_like_the_reference(tmp_path):
 
 
 def test_blank_template_is_the_template():
-    from lanesolve.template import build_template
+    from lanesolve.write.template import build_template
 
     committed = openpyxl.load_workbook(TEMPLATE)
     fresh = build_template()

@@ -18,7 +18,9 @@ import pytest
 from click.testing import CliRunner
 
 from conftest import valid_sheets, write_workbook
-from lanesolve import guard, pipeline, reader
+from lanesolve.read import guard
+from lanesolve import pipeline
+from lanesolve.read import reader
 from lanesolve.cli import main
 from lanesolve.errors import WorkbookError, WriteError
 
@@ -147,6 +149,7 @@ def _openpyxl_cells(path: Path) -> dict[str, list[list]]:
             for ws in book.worksheets}
 
 
+@pytest.mark.slow  # converts with LibreOffice; CI runs it
 @pytest.mark.parametrize("kind", ["xls", "ods"])
 def test_other_kinds_read_the_same_cells_as_openpyxl(converted, kind):
     original, copies = converted
@@ -161,6 +164,7 @@ def test_other_kinds_read_the_same_cells_as_openpyxl(converted, kind):
                 assert a == pytest.approx(b) if isinstance(b, float) else a == b, (name, got_row, want_row)
 
 
+@pytest.mark.slow  # converts with LibreOffice; CI runs it
 @pytest.mark.parametrize("kind", ["xls", "ods"])
 def test_other_kinds_solve_to_the_xlsx_plan(converted, kind, tmp_path):
     original, copies = converted
@@ -171,6 +175,7 @@ def test_other_kinds_solve_to_the_xlsx_plan(converted, kind, tmp_path):
     assert got.total_cost == pytest.approx(want.total_cost, rel=1e-9)
 
 
+@pytest.mark.slow  # converts with LibreOffice; CI runs it
 @pytest.mark.parametrize("kind", ["xls", "ods"])
 def test_write_back_into_other_kinds_is_refused_and_the_file_kept(converted, kind, tmp_path):
     _original, copies = converted

@@ -1,7 +1,7 @@
 """Random small fixed-charge networks: lanesolve (PuLP + CBC) agrees with SciPy ``milp`` (HiGHS) on the optimum.
 
 The reference model is written here from the issue 2 "Model v1" text, in matrix form, independently of
-:mod:`lanesolve.model`. It uses the loosest big-M that is still obviously safe -- the lane capacity when finite, else
+:mod:`lanesolve.model.formulation`. It uses the loosest big-M that is still obviously safe -- the lane capacity when finite, else
 ``10 * (total supply + total demand) + 1`` (an optimum with bounded flows exists: with non-negative costs no optimal
 plan needs flow round a cycle) -- so an over-tight M derived by lanesolve would show up as a higher lanesolve cost.
 """
@@ -15,10 +15,10 @@ import numpy as np
 import pytest
 from scipy.optimize import Bounds, LinearConstraint, milp
 
-from lanesolve.model import build_model
-from lanesolve.network import make_network
-from lanesolve.result import COST_COMPONENTS, SolveStatus
-from lanesolve.solve import solve
+from lanesolve.model.formulation import build_model
+from lanesolve.model.network import make_network
+from lanesolve.model.result import COST_COMPONENTS, SolveStatus
+from lanesolve.model.solve import solve
 
 SEEDS = range(40)
 TOL = 1e-6

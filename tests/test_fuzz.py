@@ -33,8 +33,13 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from lanesolve import pipeline, reader, writeback
+from lanesolve import pipeline
+from lanesolve.read import reader
+from lanesolve.write import writeback
 from lanesolve.errors import NoPlanError, WorkbookError
+
+# Over a minute of generated workbooks: CI runs it (pytest -m slow), the quick start does not.
+pytestmark = pytest.mark.slow
 
 LONG = os.environ.get("LANESOLVE_FUZZ", "") == "long"
 FUZZ_SETTINGS = dict(
@@ -437,7 +442,7 @@ def test_the_checks_catch_a_wrong_plan():
     # The feasibility check must be able to fail: a hand-made plan that overships a depot is rejected.
     import pandas as pd
 
-    from lanesolve.result import Result, SolveStatus
+    from lanesolve.model.result import Result, SolveStatus
 
     model = {"depots": {"D": (10.0, 0.0)}, "customers": {"C": (15.0, None)}, "hubs": {},
              "lanes": {("D", "C", ""): (1.0, math.inf, 0.0, True)}}

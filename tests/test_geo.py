@@ -1,4 +1,4 @@
-"""Tests of lanesolve.geo: great-circle distance against a geodesic reference, and lane costs from distance.
+"""Tests of lanesolve.read.geo: great-circle distance against a geodesic reference, and lane costs from distance.
 
 Reference: geographiclib (C. F. F. Karney, "Algorithms for geodesics", Journal of Geodesy 87 (2013) 43-55), whose
 ``Geodesic.WGS84.Inverse`` gives the geodesic on the WGS84 ellipsoid to nanometre accuracy. A sphere cannot follow
@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from lanesolve import geo
+from lanesolve.read import geo
 
 geodesic = pytest.importorskip("geographiclib.geodesic")
 
@@ -143,7 +143,7 @@ def test_no_blank_cost_needs_no_rate_and_no_coordinates():
 
 
 def test_node_coordinates_accepts_a_network():
-    from lanesolve.network import make_network
+    from lanesolve.model.network import make_network
 
     net = make_network([{"id": "D", "supply": 1, "latitude": 1.0, "longitude": 2.0}],
                        [{"id": "C", "demand": 1, "latitude": 3.0, "longitude": 4.0}],

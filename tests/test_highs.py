@@ -6,12 +6,12 @@ import pathlib
 import pytest
 
 from lanesolve.pipeline import load
-from lanesolve.solve import solve
+from lanesolve.model.solve import solve
 
 pytest.importorskip("highspy")
 
 from tests.test_design import random_design  # noqa: E402
-from lanesolve.network import make_network  # noqa: E402
+from lanesolve.model.network import make_network  # noqa: E402
 
 EXAMPLES = sorted((pathlib.Path(__file__).resolve().parent.parent / "example_workbooks").glob("*.xlsx"))
 TOL = 1e-5

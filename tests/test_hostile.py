@@ -14,7 +14,9 @@ import pytest
 
 import _workbooks as wbk
 from conftest import valid_sheets, write_workbook
-from lanesolve import guard, pipeline, reader
+from lanesolve.read import guard
+from lanesolve import pipeline
+from lanesolve.read import reader
 from lanesolve.errors import WorkbookError
 
 LAUGHS = ('<!DOCTYPE lolz [<!ENTITY lol "lol">'

@@ -17,12 +17,13 @@ import pytest
 from click.testing import CliRunner
 from conftest import write_workbook
 
-from lanesolve import report, writeback
+from lanesolve.report import summary as report
+from lanesolve.write import writeback
 from lanesolve.cli import main
-from lanesolve.network import Settings, make_network
+from lanesolve.model.network import Settings, make_network
 from lanesolve.pipeline import RunInfo
-from lanesolve.sensitivity import FIXED_BASIS
-from lanesolve.solve import solve
+from lanesolve.model.sensitivity import FIXED_BASIS
+from lanesolve.model.solve import solve
 
 INFO = RunInfo("/plans/week-07.xlsx", "/plans/week-07.xlsx", "/plans/week-07-summary.html", "cd" * 32)
 

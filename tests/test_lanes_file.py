@@ -13,9 +13,11 @@ import importlib.util
 
 import pytest
 
-from lanesolve import lanes_file, pipeline, validate
+from lanesolve.read import lanes_file
+from lanesolve import pipeline
+from lanesolve.read import validate
 from lanesolve.errors import WorkbookError
-from lanesolve.reader import read_workbook
+from lanesolve.read.reader import read_workbook
 
 from conftest import valid_sheets
 

@@ -5,7 +5,7 @@ import time
 
 import pytest
 
-from lanesolve import locking
+from lanesolve.write import locking
 from lanesolve.errors import WriteError
 
 

@@ -147,7 +147,7 @@ def test_attach_workbook_needs_email(tmp_path):
 
 
 def test_unwritable_mail_path_is_a_write_error(tmp_path):
-    from lanesolve import mail
+    from lanesolve.report import mail
     from lanesolve.pipeline import run
 
     outcome = run(EXAMPLE, write=False)

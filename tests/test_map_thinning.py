@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import pytest
 
-from lanesolve import charts
+from lanesolve.report import charts
 from test_charts import lines, network, result, svg_root  # noqa: F401  (fixtures)
 
 

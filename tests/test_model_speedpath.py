@@ -1,4 +1,4 @@
-"""The array path of :func:`lanesolve.solve.solve` (pure LP, CBC without PuLP objects) against the PuLP path and
+"""The array path of :func:`lanesolve.model.solve.solve` (pure LP, CBC without PuLP objects) against the PuLP path and
 networkx: the same LP row for row, the same optimum, duals, sensitivity figures and status; its failures typed."""
 
 from __future__ import annotations
@@ -13,13 +13,14 @@ import numpy as np
 import pulp
 import pytest
 
-from lanesolve import solve as solve_module
+from lanesolve.model import solve as solve_module
+from lanesolve.model.diagnose import solve_and_explain
 from lanesolve.errors import SolverError
-from lanesolve.model import array_path_applies, build_lp_arrays, build_model
-from lanesolve.network import Settings, make_network
-from lanesolve.result import SolveStatus
-from lanesolve.sensitivity import solved_from_problem
-from lanesolve.solve import read_cbc_solution, solve
+from lanesolve.model.formulation import array_path_applies, build_lp_arrays, build_model
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.result import SolveStatus
+from lanesolve.model.sensitivity import solved_from_problem
+from lanesolve.model.solve import read_cbc_solution, solve
 
 TOL = 1e-6
 
@@ -113,7 +114,7 @@ def pulp_rows(net):
 
 @pytest.mark.parametrize("seed", range(12))
 def test_arrays_are_the_pulp_model_row_for_row(seed):
-    # Reference: the PuLP problem lanesolve.model.build_model builds (what PuLP writes to CBC on the PuLP path).
+    # Reference: the PuLP problem lanesolve.model.formulation.build_model builds (what PuLP writes to CBC on the PuLP path).
     net = random_network(seed)
     arrays = build_lp_arrays(net)
     rows, columns = pulp_rows(net)
@@ -194,7 +195,7 @@ def test_hard_infeasible_network_is_infeasible_on_the_array_path_with_a_diagnosi
     net = make_network([{"id": "D", "supply": 10}], [{"id": "A", "demand": 8}, {"id": "B", "demand": 8}],
                        [{"origin": "D", "destination": "A", "cost_per_unit": 1},
                         {"origin": "D", "destination": "B", "cost_per_unit": 2}])
-    fast, slow = solve(net), solve(net, fast=False)
+    fast, slow = solve_and_explain(net), solve_and_explain(net, fast=False)
     assert fast.status is SolveStatus.INFEASIBLE and slow.status is SolveStatus.INFEASIBLE
     assert fast.diagnosis.short["short"].sum() == pytest.approx(6.0, abs=TOL)
     assert all(math.isnan(v) for v in fast.cost_breakdown.values())

@@ -79,7 +79,7 @@ def test_bad_scenario_row_is_an_input_error_and_nothing_is_written(tmp_path):
 
 
 def test_comparison_sheet_is_written_back(book):
-    pytest.importorskip("lanesolve.report")
+    pytest.importorskip("lanesolve.report.summary")
     run(book)
     sheet = openpyxl.load_workbook(book)["LS Scenarios"]
     names = [row[0] for row in sheet.iter_rows(min_row=2, values_only=True)]

@@ -26,10 +26,10 @@ import random
 import networkx as nx
 import pytest
 
-from lanesolve.checks import presolve_checks
-from lanesolve.network import make_network
-from lanesolve.result import COST_COMPONENTS, SolveStatus
-from lanesolve.solve import solve
+from lanesolve.model.checks import presolve_checks
+from lanesolve.model.network import make_network
+from lanesolve.model.result import COST_COMPONENTS, SolveStatus
+from lanesolve.model.solve import solve
 
 SEEDS = range(120)
 TOL = 1e-6

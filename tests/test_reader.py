@@ -1,4 +1,4 @@
-"""Tests of lanesolve.reader: values aligned to spreadsheet rows, error and unsaved-formula cells, non-workbooks.
+"""Tests of lanesolve.read.reader: values aligned to spreadsheet rows, error and unsaved-formula cells, non-workbooks.
 
 The cell markup the reader looks for is defined in ECMA-376 Part 1 (Office Open XML), 18.3.1.4 ``c`` (Cell):
 ``t="e"`` is the error cell type (ST_CellType, 18.18.11), ``<f>`` holds a formula and ``<v>`` its saved value.
@@ -14,7 +14,7 @@ import pytest
 
 from lanesolve import contract
 from lanesolve.errors import WorkbookError
-from lanesolve.reader import read_workbook
+from lanesolve.read.reader import read_workbook
 
 from conftest import valid_sheets, write_workbook
 

@@ -1,6 +1,6 @@
 """Published optima: the solver must reproduce textbook and library-documentation examples.
 
-Each instance is built with :func:`lanesolve.network.make_network` (no workbook) and its source is named beside it.
+Each instance is built with :func:`lanesolve.model.network.make_network` (no workbook) and its source is named beside it.
 """
 
 from __future__ import annotations
@@ -13,9 +13,9 @@ import numpy as np
 import pytest
 from scipy.optimize import linear_sum_assignment
 
-from lanesolve.network import make_network
-from lanesolve.result import COST_COMPONENTS, SolveStatus
-from lanesolve.solve import solve
+from lanesolve.model.network import make_network
+from lanesolve.model.result import COST_COMPONENTS, SolveStatus
+from lanesolve.model.solve import solve
 
 TOL = 1e-6
 

@@ -14,10 +14,10 @@ from types import SimpleNamespace
 import pandas as pd
 import pytest
 
-from lanesolve import report
+from lanesolve.report import summary as report
 from lanesolve.errors import WriteError
-from lanesolve.network import Settings, make_network
-from lanesolve.result import FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, Result, SolveStatus
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.result import FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, Result, SolveStatus
 
 EVIL = "<script>alert(1)</script>"
 FORMULA = "=SUM(A1)"

@@ -25,7 +25,10 @@ import pytest
 from click.testing import CliRunner
 
 from conftest import valid_sheets, write_workbook
-from lanesolve import atomic, pipeline, reader, writeback
+from lanesolve.write import atomic
+from lanesolve import pipeline
+from lanesolve.read import reader
+from lanesolve.write import writeback
 from lanesolve.cli import main
 from lanesolve.errors import WriteError
 
@@ -183,7 +186,8 @@ def _large_workbook(path: Path, rows: int = 60_000) -> Path:
 
 RUNNER = textwrap.dedent("""
     import sys, time
-    from lanesolve import pipeline, writeback
+    from lanesolve import pipeline
+    from lanesolve.write import writeback
     real = writeback.write_results
 
     def announced(*args, **kwargs):
@@ -209,6 +213,7 @@ def large(tmp_path_factory):
     return _large_workbook(tmp_path_factory.mktemp("large") / "plan.xlsx")
 
 
+@pytest.mark.slow  # kills many child processes mid-write; CI runs it
 def test_sigkill_during_write_back_leaves_the_old_or_the_complete_new_workbook(large, tmp_path):
     original = large.read_bytes()
     original_cells = _input_cells(large)

@@ -1,7 +1,7 @@
-"""Tests of lanesolve.scenarios: reading the Scenarios sheet, applying each change type, comparing results.
+"""Tests of lanesolve.model.scenarios: reading the Scenarios sheet, applying each change type, comparing results.
 
 References: a scenario must equal the same edit made by hand (issue 6), so the applied networks are compared with
-networks built from hand-edited records by :func:`lanesolve.network.make_network`; solved costs are also checked
+networks built from hand-edited records by :func:`lanesolve.model.network.make_network`; solved costs are also checked
 against networkx's network simplex (``networkx.min_cost_flow_cost``), an independent min-cost flow solver.
 """
 
@@ -11,9 +11,9 @@ import pandas as pd
 import pytest
 from pandas.testing import assert_frame_equal
 
-from lanesolve.network import Settings, make_network
-from lanesolve.result import Result, SolveStatus
-from lanesolve.scenarios import Change, Scenario, apply_scenario, compare, parse_scenarios, volume_shifts
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.result import Result, SolveStatus
+from lanesolve.model.scenarios import Change, Scenario, apply_scenario, compare, parse_scenarios, volume_shifts
 
 HEADER = ["scenario", "sheet", "match", "column", "change", "value"]
 
@@ -323,7 +323,7 @@ def networkx_cost(network):
 
 
 def test_scenario_solves_to_the_same_cost_as_the_hand_edited_network():
-    solve = pytest.importorskip("lanesolve.solve")
+    solve = pytest.importorskip("lanesolve.model.solve")
     scenarios, _ = parse(*SCENARIO_ROWS)
     changed, _ = apply_scenario(base_network(), scenarios[0])
     expected = hand_edited()
@@ -338,8 +338,8 @@ def test_scenario_solves_to_the_same_cost_as_the_hand_edited_network():
 
 def test_scenario_from_a_workbook_equals_a_workbook_edited_by_hand(make_workbook):
     """Through the reader and validator: Scenarios sheet applied vs. the sheets edited by hand."""
-    pytest.importorskip("lanesolve.validate")
-    solve = pytest.importorskip("lanesolve.solve")
+    pytest.importorskip("lanesolve.read.validate")
+    solve = pytest.importorskip("lanesolve.model.solve")
     from lanesolve import pipeline
 
     sheets = {
@@ -362,7 +362,7 @@ def test_scenario_from_a_workbook_equals_a_workbook_edited_by_hand(make_workbook
                        ["Kestrel Mill", "Wren Cross", 1.5, "rail", 30, "no"], *sheets["Lanes"][3:]]
     base, _ = pipeline.load(make_workbook(sheets, "scenario.xlsx"))
     by_hand, _ = pipeline.load(make_workbook(edited, "by_hand.xlsx"))
-    from lanesolve.reader import read_workbook
+    from lanesolve.read.reader import read_workbook
 
     raw = read_workbook(make_workbook(sheets, "scenario.xlsx"))
     scenarios, problems = parse_scenarios(raw.sheets["Scenarios"].rows)
@@ -437,7 +437,7 @@ def test_compare_a_scenario_without_plan():
 
 
 def test_a_scenario_cost_change_is_credited_to_the_scenario():
-    from lanesolve.network import make_network
+    from lanesolve.model.network import make_network
 
     base = make_network([{"id": "D", "supply": 10}], [{"id": "C", "demand": 8}],
                         [{"origin": "D", "destination": "C", "cost_per_unit": 2},

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from scipy.optimize import linprog
 
-from lanesolve.network import make_network
-from lanesolve.solve import solve
+from lanesolve.model.network import make_network
+from lanesolve.model.solve import solve
 
 TOL = 1e-6
 

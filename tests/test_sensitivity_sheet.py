@@ -3,8 +3,8 @@ nearest to paying, and a count of the rest."""
 
 import pandas as pd
 
-from lanesolve import writeback
-from lanesolve.result import Result, SolveStatus
+from lanesolve.write import writeback
+from lanesolve.model.result import Result, SolveStatus
 
 
 def _result(n_lanes: int) -> Result:

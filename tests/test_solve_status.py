@@ -1,4 +1,4 @@
-"""Honest status, gap, bound and cost breakdown from :func:`lanesolve.solve.solve`; solver failures as SolverError."""
+"""Honest status, gap, bound and cost breakdown from :func:`lanesolve.model.solve.solve`; solver failures as SolverError."""
 
 from __future__ import annotations
 
@@ -12,10 +12,10 @@ import pytest
 from scipy.optimize import linprog
 
 from lanesolve.errors import SolverError
-from lanesolve.model import build_model
-from lanesolve.network import Settings, make_network
-from lanesolve.result import COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, SolveStatus
-from lanesolve.solve import solve
+from lanesolve.model.formulation import build_model
+from lanesolve.model.network import Settings, make_network
+from lanesolve.model.result import COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, SolveStatus
+from lanesolve.model.solve import solve
 
 TOL = 1e-6
 

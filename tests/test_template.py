@@ -15,7 +15,7 @@ import python_calamine
 
 from lanesolve import contract
 from lanesolve.errors import WriteError
-from lanesolve.template import GUIDE_SHEET, write_template
+from lanesolve.write.template import GUIDE_SHEET, write_template
 
 
 @pytest.fixture(scope="module")
@@ -152,8 +152,8 @@ def test_template_has_no_data_rows(template_path):
 
 def test_template_passes_the_reader_and_has_only_the_expected_gap(template_path):
     # The template has every sheet and column, so the validator's only complaints may be about missing rows.
-    reader = pytest.importorskip("lanesolve.reader")
-    validate = pytest.importorskip("lanesolve.validate")
+    reader = pytest.importorskip("lanesolve.read.reader")
+    validate = pytest.importorskip("lanesolve.read.validate")
     from lanesolve.errors import WorkbookError
 
     raw = reader.read_workbook(template_path)

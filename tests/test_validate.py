@@ -1,4 +1,4 @@
-"""Tests of lanesolve.validate: one test per bad-input cause (issue 2, "Bad input"), plus the reading rules of
+"""Tests of lanesolve.read.validate: one test per bad-input cause (issue 2, "Bad input"), plus the reading rules of
 workbook contract v1 (issue 2) checked on small invented workbooks.
 
 Expected values are derived by hand from the workbook each test writes; did-you-mean hints are checked against
@@ -16,9 +16,9 @@ import pytest
 
 from lanesolve import contract
 from lanesolve.errors import Problem, WorkbookError
-from lanesolve.network import CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS
-from lanesolve.reader import RawSheet, RawWorkbook, read_workbook
-from lanesolve.validate import validate
+from lanesolve.model.network import CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS
+from lanesolve.read.reader import RawSheet, RawWorkbook, read_workbook
+from lanesolve.read.validate import validate
 
 from conftest import valid_sheets, write_workbook
 

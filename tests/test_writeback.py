@@ -26,12 +26,13 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 import _workbooks as wbk  # noqa: E402
 
-from lanesolve import atomic, writeback  # noqa: E402
+from lanesolve.write import atomic
+from lanesolve.write import writeback  # noqa: E402
 from lanesolve.contract import RESULT_PREFIX  # noqa: E402
 from lanesolve.errors import LanesolveError, WriteError  # noqa: E402
-from lanesolve.network import Settings, make_network  # noqa: E402
-from lanesolve.result import COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, Result, SolveStatus  # noqa: E402
-from lanesolve.writeback import CAUTION, ResultSheet, result_sheets, write_results  # noqa: E402
+from lanesolve.model.network import Settings, make_network  # noqa: E402
+from lanesolve.model.result import COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, Result, SolveStatus  # noqa: E402
+from lanesolve.write.writeback import CAUTION, ResultSheet, result_sheets, write_results  # noqa: E402
 
 try:  # the run facts; pipeline imports every stage, so fall back to the same fields while a stage is missing
     from lanesolve.pipeline import RunInfo
@@ -524,6 +525,7 @@ def test_invalid_result_sheet_name_is_refused(tmp_path, rich, name):
 
 # ------------------------------------------------------------------------------------------------ a real program
 
+@pytest.mark.slow  # starts LibreOffice; CI runs it
 def test_libreoffice_opens_the_result_sheet(tmp_path, rich, plan_sheets):
     soffice = shutil.which("soffice") or shutil.which("libreoffice")
     if soffice is None:

@@ -19,7 +19,7 @@ from collections.abc import Mapping
 import numpy as np
 import pandas as pd
 
-from .errors import Problem
+from lanesolve.errors import Problem
 
 #: Mean Earth radius R1 = (2a + b) / 3 of the GRS80 ellipsoid, in km, as recommended by the IUGG
 #: (H. Moritz, "Geodetic Reference System 1980", Journal of Geodesy 74 (2000) 128-133).
@@ -69,7 +69,7 @@ def great_circle_km(lat1, lon1, lat2, lon2):
 
 
 def node_coordinates(network) -> pd.DataFrame:
-    """The ``latitude`` and ``longitude`` of every node of a :class:`~lanesolve.network.Network`, indexed by id."""
+    """The ``latitude`` and ``longitude`` of every node of a :class:`~lanesolve.model.network.Network`, indexed by id."""
     frames = [frame[["id", "latitude", "longitude"]] for frame in (network.depots, network.customers, network.hubs)]
     return pd.concat(frames, ignore_index=True).set_index("id")
 

@@ -22,8 +22,9 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
-from . import atomic, contract
-from .errors import WriteError
+from lanesolve.write import atomic
+from lanesolve import contract
+from lanesolve.errors import WriteError
 
 GUIDE_SHEET = "Guide"
 

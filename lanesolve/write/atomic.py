@@ -18,7 +18,7 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import BinaryIO
 
-from .errors import LanesolveError, WriteError
+from lanesolve.errors import LanesolveError, WriteError
 
 #: A leftover temporary file older than this is a dead run's, not a running one's (runs hold the workbook lock
 #: while writing, and writing takes seconds).

@@ -1,7 +1,7 @@
 """Sensitivity of an optimal plan, in plain words: what one more unit of demand costs, what one more unit of a
 binding capacity is worth, and how much cheaper an unused lane must be before the plan would use it.
 
-Figures (column ``figure`` of :data:`~lanesolve.result.SENSITIVITY_COLUMNS`)
+Figures (column ``figure`` of :data:`~lanesolve.model.result.SENSITIVITY_COLUMNS`)
 -----------------------------------------------------------------------------
 ``marginal_cost``     per customer: the dual of its ``balance_<n>`` row, the cost of delivering one more unit;
 ``supply_value``      per depot whose supply binds: minus the dual of ``supply_<n>``, the saving from one more unit;
@@ -31,7 +31,7 @@ Speed
 Everything is computed on arrays of the solved LP (:class:`SolvedLp`): row activities by one weighted count over
 the nonzeros, bound and slack tests elementwise, the sentences by column-wise string concatenation. The
 propagation runs in Python but only over columns strictly inside their bounds, which in a basic solution are basic:
-at most one per row. A pure LP solved by CBC on the array path (:func:`lanesolve.solve.solve`) hands its arrays and
+at most one per row. A pure LP solved by CBC on the array path (:func:`lanesolve.model.solve.solve`) hands its arrays and
 CBC's duals over directly (:func:`analyse_arrays`); a PuLP problem is turned into the same arrays first.
 """
 
@@ -46,9 +46,9 @@ import numpy as np
 import pandas as pd
 import pulp
 
-from .model import LaneArrays, LaneModel, build_model
-from .network import Network
-from .result import SENSITIVITY_COLUMNS, empty_frame
+from lanesolve.model.formulation import LaneArrays, LaneModel, build_model
+from lanesolve.model.network import Network
+from lanesolve.model.result import SENSITIVITY_COLUMNS, empty_frame
 
 #: Primal values within this of a bound count as at the bound (relative to max(1, |bound|)).
 TOLERANCE = 1e-7
@@ -78,7 +78,7 @@ class SolvedLp:
     lower, upper, value, reduced_cost : numpy.ndarray
         Per column; infinite bounds for none, ``reduced_cost`` NaN where the solver gave none.
     start, row_of, coefficient : numpy.ndarray
-        The matrix column-wise, as in :class:`lanesolve.model.LaneArrays`.
+        The matrix column-wise, as in :class:`lanesolve.model.formulation.LaneArrays`.
     """
 
     row_names: list[str]
@@ -147,7 +147,7 @@ def solved_from_problem(problem: pulp.LpProblem) -> tuple[SolvedLp, list[str]]:
 
 
 def solved_from_arrays(arrays: LaneArrays, answer) -> SolvedLp:
-    """The :class:`SolvedLp` of ``arrays`` with CBC's answer (a :class:`lanesolve.solve.LpAnswer`), values
+    """The :class:`SolvedLp` of ``arrays`` with CBC's answer (a :class:`lanesolve.model.solve.LpAnswer`), values
     noise-cleaned as the plan reports them."""
     value = answer.value.copy()
     value[np.abs(value) < NOISE] = 0.0
@@ -257,7 +257,7 @@ def figures(network: Network, solved: SolvedLp, flow_column: np.ndarray, shut: n
     ----------
     network : Network
     solved : SolvedLp
-        The LP at its optimum; its rows are named as in :mod:`lanesolve.model`.
+        The LP at its optimum; its rows are named as in :mod:`lanesolve.model.formulation`.
     flow_column : numpy.ndarray
         Column of each active lane's flow, in ``network.active_lanes`` order.
     shut : numpy.ndarray
@@ -338,15 +338,15 @@ def figures(network: Network, solved: SolvedLp, flow_column: np.ndarray, shut: n
 
 
 def analyse_arrays(network: Network, arrays: LaneArrays, answer) -> pd.DataFrame:
-    """Sensitivity figures of a pure LP solved on the array path (:func:`lanesolve.solve.solve`), from CBC's own
+    """Sensitivity figures of a pure LP solved on the array path (:func:`lanesolve.model.solve.solve`), from CBC's own
     duals and reduced costs of that solve: no second solve, no PuLP objects.
 
     Parameters
     ----------
     network : Network
     arrays : LaneArrays
-        The LP as built by :func:`lanesolve.model.build_lp_arrays`.
-    answer : lanesolve.solve.LpAnswer
+        The LP as built by :func:`lanesolve.model.formulation.build_lp_arrays`.
+    answer : lanesolve.model.solve.LpAnswer
         CBC's optimal answer for ``arrays``.
 
     Returns
@@ -366,14 +366,14 @@ def analyse(network: Network, model: LaneModel, solver: str = "cbc") -> pd.DataF
     ----------
     network : Network
     model : LaneModel
-        Solved to optimality, plan values in place (as :func:`lanesolve.solve.solve` leaves it).
+        Solved to optimality, plan values in place (as :func:`lanesolve.model.solve.solve` leaves it).
     solver : str
         The solver that solved ``model``; duals are read from CBC, so a HiGHS or MIP plan is re-solved as an LP.
 
     Returns
     -------
     DataFrame
-        :data:`~lanesolve.result.SENSITIVITY_COLUMNS`, one row per figure; ``value`` NaN where ``unique`` is
+        :data:`~lanesolve.model.result.SENSITIVITY_COLUMNS`, one row per figure; ``value`` NaN where ``unique`` is
         False. Empty when the LP could not be re-solved.
     """
     basis = FIXED_BASIS if model.is_mip else LP_BASIS

@@ -1,4 +1,4 @@
-"""Solve a network: build the model, run the solver, and turn its answer into a plain :class:`~lanesolve.result.Result`.
+"""Solve a network: build the model, run the solver, and turn its answer into a plain :class:`~lanesolve.model.result.Result`.
 
 Solvers
 -------
@@ -11,7 +11,7 @@ PuLP's main status says "Optimal" for a CBC run stopped by the time limit with a
 is read from PuLP's *solution* status (``prob.sol_status``):
 
 ==============================  ==========================================
-PuLP                            :class:`~lanesolve.result.SolveStatus`
+PuLP                            :class:`~lanesolve.model.result.SolveStatus`
 ==============================  ==========================================
 ``LpSolutionOptimal``           ``optimal`` (within ``mip_gap`` for a MIP)
 ``LpSolutionIntegerFeasible``   ``feasible`` (stopped on a limit; a plan with its gap) -- for an LP: ``not_solved``
@@ -46,10 +46,10 @@ import numpy as np
 import pandas as pd
 import pulp
 
-from .errors import SolverError
-from .model import LaneArrays, LaneModel, array_path_applies, build_lp_arrays, build_model
-from .network import Network
-from .result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
+from lanesolve.errors import SolverError
+from lanesolve.model.formulation import LaneArrays, LaneModel, array_path_applies, build_lp_arrays, build_model
+from lanesolve.model.network import Network
+from lanesolve.model.result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
                      Result, SolveStatus, empty_frame)
 
 #: Values smaller than this in magnitude are solver noise and are reported as 0.
@@ -72,7 +72,7 @@ def _clean(values: np.ndarray) -> np.ndarray:
 
 def node_balance(network: Network, outflow: dict[str, float], inflow: dict[str, float],
                  unmet: dict[str, float] | None) -> pd.DataFrame:
-    """The :data:`~lanesolve.result.NODE_COLUMNS` frame: one row per node (depots, customers, hubs in sheet order).
+    """The :data:`~lanesolve.model.result.NODE_COLUMNS` frame: one row per node (depots, customers, hubs in sheet order).
 
     Parameters
     ----------
@@ -298,7 +298,7 @@ def trips_needed(flow: float, trip_capacity: float) -> int:
 
 
 def open_node_frame(network: Network, model: LaneModel, outflow: dict, inflow: dict) -> pd.DataFrame:
-    """:data:`~lanesolve.result.OPEN_NODE_COLUMNS` for every depot and hub of a v2 network."""
+    """:data:`~lanesolve.model.result.OPEN_NODE_COLUMNS` for every depot and hub of a v2 network."""
     rows = []
     for kind, frame in (("depot", network.depots), ("hub", network.hubs)):
         for index, node, status, fixed in zip(frame.index.tolist(), frame["id"], frame["status"],
@@ -314,7 +314,7 @@ def open_node_frame(network: Network, model: LaneModel, outflow: dict, inflow: d
 
 
 def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
-    """:data:`~lanesolve.result.TRIP_COLUMNS` for lanes with a trip capacity and flow > 0."""
+    """:data:`~lanesolve.model.result.TRIP_COLUMNS` for lanes with a trip capacity and flow > 0."""
     lanes = network.active_lanes
     rows = []
     for index in lanes.index[lanes["trip_capacity"].notna()].tolist():
@@ -333,8 +333,8 @@ def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
 
 
 def solve(network: Network, time_limit: float | None = None, solver: str | None = None, msg: bool = False,
-          sensitivity: bool = True, linking: bool = True, diagnose: bool = True, fast: bool = True) -> Result:
-    """Build and solve the model of :mod:`lanesolve.model` for ``network``.
+          sensitivity: bool = True, linking: bool = True, fast: bool = True) -> Result:
+    """Build and solve the model of :mod:`lanesolve.model.formulation` for ``network``.
 
     Parameters
     ----------
@@ -347,10 +347,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         ``"cbc"``: the CBC binary in PuLP's wheel. ``"highs"``: HiGHS through ``highspy`` (optional extra).
         None takes the ``solver`` setting (default ``"cbc"``).
     sensitivity : bool
-        With an optimal plan, also fill ``Result.sensitivity`` (:mod:`lanesolve.sensitivity`).
-    diagnose : bool
-        When the solver finds no feasible plan, attach a :class:`~lanesolve.diagnose.Diagnosis` (a shortfall
-        re-solve, :mod:`lanesolve.diagnose`) to ``Result.diagnosis`` and its sentences to ``messages``.
+        With an optimal plan, also fill ``Result.sensitivity`` (:mod:`lanesolve.model.sensitivity`).
     linking : bool
         Build the per-lane linking rows of contract v2 node decisions (off only to measure their worth).
     msg : bool
@@ -375,18 +372,18 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     Notes
     -----
     Two paths, one model. A pure LP (no fixed charge, no contract v2 decision) solved with CBC takes the *array
-    path*: :func:`lanesolve.model.build_lp_arrays` builds the rows and columns :func:`~lanesolve.model.build_model`
+    path*: :func:`lanesolve.model.formulation.build_lp_arrays` builds the rows and columns :func:`~lanesolve.model.formulation.build_model`
     would give PuLP, :func:`write_mps` writes them, the same bundled CBC program runs with the options PuLP would
     pass (:func:`cbc_command`), and :func:`read_cbc_solution` reads values, duals and reduced costs back with
     pandas, the status line through PuLP's own reader. At 100k lanes that saves PuLP's object building, its MPS
     writer and its solution reader, about 3 s of 5 (benchmarks/README.md). Everything else -- MIPs, HiGHS, and
     ``fast=False`` -- goes through a :class:`pulp.LpProblem`, which stays the model for export and for MIP extras
-    (:func:`~lanesolve.model.build_model` builds it for any network). tests/test_model_speedpath.py checks that
+    (:func:`~lanesolve.model.formulation.build_model` builds it for any network). tests/test_model_speedpath.py checks that
     both paths give the same optimum, duals and status.
 
     Examples
     --------
-    >>> from lanesolve.network import make_network
+    >>> from lanesolve.model.network import make_network
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 4}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2.5}])
     >>> result = solve(net)
@@ -399,7 +396,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     limit = float(limit) if limit is not None and limit > 0 else None
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
     if fast and solver == "cbc" and array_path_applies(network):
-        return _solve_by_arrays(network, limit, msg, sensitivity, diagnose)
+        return _solve_by_arrays(network, limit, msg, sensitivity)
 
     tick = time.perf_counter()
     model = build_model(network, linking=linking)
@@ -431,7 +428,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
 
     if not status.has_plan:
         result.cost_breakdown = dict.fromkeys(model.costs, math.nan)
-        _no_plan(network, result, status, limit, model.is_mip, diagnose, solver)
+        _no_plan(network, result, status, limit, model.is_mip)
         return result
 
     _plan(network, model, result)
@@ -451,7 +448,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     else:
         result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
     if sensitivity and status is SolveStatus.OPTIMAL:
-        from .sensitivity import analyse  # late import: sensitivity builds on this module
+        from lanesolve.model.sensitivity import analyse  # late import: sensitivity builds on this module
         tick = time.perf_counter()
         result.sensitivity = analyse(network, model, solver=solver)
         result.timings["sensitivity"] = time.perf_counter() - tick
@@ -461,7 +458,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
 # ------------------------------------------------------------------------------------------------ the array path
 @dataclass
 class LpAnswer:
-    """What CBC's solution file says about an LP given as :class:`~lanesolve.model.LaneArrays`.
+    """What CBC's solution file says about an LP given as :class:`~lanesolve.model.formulation.LaneArrays`.
 
     Attributes
     ----------
@@ -489,7 +486,7 @@ def write_mps(arrays: LaneArrays, path: str | Path) -> None:
 
     Written with a few list operations over the nonzeros rather than an object per term: this replaces PuLP's
     ``writeMPS``, which at 100k lanes took 1.5 s of a 3 s solve stage (benchmarks/README.md). The content is what
-    PuLP writes with ``rename=1`` for the problem :func:`lanesolve.model.build_model` builds, but with numbers in
+    PuLP writes with ``rename=1`` for the problem :func:`lanesolve.model.formulation.build_model` builds, but with numbers in
     full precision (PuLP prints 13 significant digits).
     """
     n_rows, n_columns = arrays.n_rows, arrays.n_columns
@@ -591,8 +588,7 @@ def solve_arrays(arrays: LaneArrays, backend: pulp.LpSolver, folder: str | Path,
         raise SolverError(f"the CBC solver's answer could not be read: {exc}") from exc
 
 
-def _solve_by_arrays(network: Network, limit: float | None, msg: bool, sensitivity: bool,
-                     diagnose: bool) -> Result:
+def _solve_by_arrays(network: Network, limit: float | None, msg: bool, sensitivity: bool) -> Result:
     """:func:`solve` for a pure LP with CBC, without PuLP objects (see "Two paths" in :func:`solve`)."""
     tick = time.perf_counter()
     arrays = build_lp_arrays(network)
@@ -612,7 +608,7 @@ def _solve_by_arrays(network: Network, limit: float | None, msg: bool, sensitivi
     result.timings["solver"] = seconds
     if not status.has_plan:
         result.cost_breakdown = dict.fromkeys(arrays.costs, math.nan)
-        _no_plan(network, result, status, limit, False, diagnose, "cbc")
+        _no_plan(network, result, status, limit, False)
         return result
 
     n_lanes = len(arrays.lane_index)
@@ -623,24 +619,18 @@ def _solve_by_arrays(network: Network, limit: float | None, msg: bool, sensitivi
     _fill_plan(network, arrays.lane_index, flow, arrays.unmet_index, unmet_values, arrays.penalty, breakdown, result)
     result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
     if sensitivity and status is SolveStatus.OPTIMAL:
-        from .sensitivity import analyse_arrays  # late import: sensitivity builds on this module
+        from lanesolve.model.sensitivity import analyse_arrays  # late import: sensitivity builds on this module
         tick = time.perf_counter()
         result.sensitivity = analyse_arrays(network, arrays, answer)
         result.timings["sensitivity"] = time.perf_counter() - tick
     return result
 
 
-def _no_plan(network: Network, result: Result, status: SolveStatus, limit: float | None, is_mip: bool,
-             diagnose: bool, solver: str) -> None:
-    """Fill a no-plan ``result``: zero node balance, the message and, when infeasible, the diagnosis."""
+def _no_plan(network: Network, result: Result, status: SolveStatus, limit: float | None, is_mip: bool) -> None:
+    """Fill a no-plan ``result``: zero node balance and the message (the diagnosis is
+    :func:`lanesolve.model.diagnose.solve_and_explain`'s)."""
     result.nodes = node_balance(network, {}, {}, None)
     result.messages.append(_no_plan_message(status, limit, is_mip))
-    if diagnose and status is SolveStatus.INFEASIBLE:
-        from .diagnose import diagnose as explain  # late import: the diagnosis re-solves through here
-        tick = time.perf_counter()
-        result.diagnosis = explain(network, solver=solver, time_limit=limit)
-        result.messages.extend(result.diagnosis.sentences(network.settings.units or "units"))
-        result.timings["diagnose"] = time.perf_counter() - tick
 
 
 def _no_plan_message(status: SolveStatus, limit: float | None, is_mip: bool) -> str:

@@ -2,7 +2,7 @@
 
 Strategic lane sets outgrow a sheet (a spreadsheet holds at most 1,048,576 rows and is slow to read), so the lanes may
 come from a file beside the workbook. This module only turns the file into cells laid out like a sheet -- a header
-row and one record per line -- so :mod:`lanesolve.validate` checks them with exactly the code it uses for the Lanes
+row and one record per line -- so :mod:`lanesolve.read.validate` checks them with exactly the code it uses for the Lanes
 sheet, and names the file (as the sheet) and the line in its messages.
 
 Cells as the validator expects them from a sheet:
@@ -25,8 +25,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import contract
-from .errors import Problem, WorkbookError
+from lanesolve import contract
+from lanesolve.errors import Problem, WorkbookError
 
 #: Suffixes accepted for a lanes file, and the reader of each.
 SUFFIXES = (".csv", ".parquet", ".pq")

@@ -71,7 +71,7 @@ Further bounds (each holds for every feasible plan unless marked †, which hold
 
 :math:`M_l` is the minimum of (a)-(d); infinite terms (no limit) drop out.
 
-Design decisions (contract v2; only built when :attr:`~lanesolve.network.Network.has_design`)
+Design decisions (contract v2; only built when :attr:`~lanesolve.model.network.Network.has_design`)
 ------------------------------------------------------------------------------------------
 Extra sets and variables: :math:`O` the depots and hubs with status ``decide``, :math:`w_n \\in \\{0, 1\\}` node
 :math:`n` open (``open_depot_<n>`` / ``open_hub_<n>``); :math:`T` the lanes with a trip capacity :math:`r_l` and a
@@ -106,7 +106,7 @@ the fallback (a) are proven only for plans that return no goods to a depot -- th
 
 Examples
 --------
->>> from lanesolve.network import make_network
+>>> from lanesolve.model.network import make_network
 >>> net = make_network([{"id": "D", "supply": 8}], [{"id": "C", "demand": 5}],
 ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2, "fixed_cost": 10}])
 >>> model = build_model(net)
@@ -123,7 +123,7 @@ import numpy as np
 import pandas as pd
 import pulp
 
-from .network import Network
+from lanesolve.model.network import Network
 
 #: Name of the pulp problem (shows in exported LP/MPS files).
 PROBLEM_NAME = "lanesolve"
@@ -146,7 +146,7 @@ class LaneModel:
     big_m : dict of int to float
         The :math:`M_l` used in ``link_<n>`` per fixed-charge lane (see the module docstring).
     costs : dict of str to pulp.LpAffineExpression
-        One affine expression per :data:`lanesolve.result.COST_COMPONENTS`; their sum is the objective.
+        One affine expression per :data:`lanesolve.model.result.COST_COMPONENTS`; their sum is the objective.
     penalty : numpy.ndarray
         Per-unit penalty per customer row (NaN for a hard demand).
     """
@@ -174,7 +174,7 @@ def customer_penalties(network: Network) -> np.ndarray:
 
     Examples
     --------
-    >>> from lanesolve.network import make_network, Settings
+    >>> from lanesolve.model.network import make_network, Settings
     >>> net = make_network([], [{"id": "A", "demand": 1, "unmet_penalty": 7}, {"id": "B", "demand": 1}], [],
     ...                    settings=Settings(unmet_penalty=3))
     >>> customer_penalties(net).tolist()
@@ -459,7 +459,7 @@ def build_model(network: Network, linking: bool = True) -> LaneModel:
     Parameters
     ----------
     network : Network
-        A validated network (see :mod:`lanesolve.network`).
+        A validated network (see :mod:`lanesolve.model.network`).
 
     Returns
     -------
@@ -564,7 +564,7 @@ class LaneArrays:
     start, row_of, coefficient : numpy.ndarray
         The matrix, column-wise (see above).
     costs : dict of str to numpy.ndarray
-        Cost per unit per column of each of :data:`lanesolve.result.COST_COMPONENTS`; they add up to ``objective``.
+        Cost per unit per column of each of :data:`lanesolve.model.result.COST_COMPONENTS`; they add up to ``objective``.
     penalty : numpy.ndarray
         Per-unit penalty per customer row (NaN for a hard demand), as :attr:`LaneModel.penalty`.
     """
@@ -632,7 +632,7 @@ def build_lp_arrays(network: Network) -> LaneArrays:
 
     Examples
     --------
-    >>> from lanesolve.network import make_network
+    >>> from lanesolve.model.network import make_network
     >>> net = make_network([{"id": "D", "supply": 8}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
     >>> arrays = build_lp_arrays(net)
@@ -640,9 +640,9 @@ def build_lp_arrays(network: Network) -> LaneArrays:
     (['supply_0', 'balance_0'], ['flow_0'], [2.0])
     """
     if not array_path_applies(network):
-        from .errors import SolverError  # late import keeps the model module free of the error module otherwise
+        from lanesolve.errors import SolverError  # late import keeps the model module free of the error module otherwise
         raise SolverError("the array model covers pure LPs only; this network has yes/no or trip decisions "
-                          "(build it with lanesolve.model.build_model)")
+                          "(build it with lanesolve.model.formulation.build_model)")
     lanes = network.active_lanes
     lane_index = lanes.index.to_numpy()
     origins = lanes["origin"].to_numpy(dtype=object)

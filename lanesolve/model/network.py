@@ -18,7 +18,7 @@ the Settings default); ``trip_capacity`` is NaN when the lane is not run in whol
 
 Rates from distance: ``cost_per_unit`` is always a number. :attr:`Network.lane_sources` says, per lane, where it
 came from: ``cost_source`` (``"given"``, ``"rate x distance"`` or ``"rate x great circle x circuity"``, see
-:mod:`lanesolve.geo`), ``distance`` (in the Settings ``distance_unit``: given, or computed when the cost was; NaN
+:mod:`lanesolve.read.geo`), ``distance`` (in the Settings ``distance_unit``: given, or computed when the cost was; NaN
 otherwise) and ``sheet`` (``"Lanes"`` or the Settings ``lanes_file`` the lane was read from; the lane's ``row`` is
 the row there, header = row 1, in a CSV file its line number). It is a frame of its own so the lanes frame keeps
 the columns every stage already reads.
@@ -143,7 +143,7 @@ def make_network(
     """Build a :class:`Network` from plain records, filling defaults; meant for tests and the Python API.
 
     Records use the column names above; omitted optional fields take their defaults and ``row`` is numbered
-    from 2 as in a sheet. No validation beyond that is done: use :func:`lanesolve.validate.validate` for
+    from 2 as in a sheet. No validation beyond that is done: use :func:`lanesolve.read.validate.validate` for
     workbook input.
 
     Examples

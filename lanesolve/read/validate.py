@@ -32,12 +32,14 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import contract, geo, lanes_file
-from .contract import CHOICE, FLAG, ID, NUMBER, TEXT, Column, Sheet
-from .errors import Problem, WorkbookError
-from .network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS, LANE_SOURCE_COLUMNS,
+from lanesolve import contract
+from lanesolve.read import geo
+from lanesolve.read import lanes_file
+from lanesolve.contract import CHOICE, FLAG, ID, NUMBER, TEXT, Column, Sheet
+from lanesolve.errors import Problem, WorkbookError
+from lanesolve.model.network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS, LANE_SOURCE_COLUMNS,
                       TEXT_COLUMNS, Network, Settings, resolve_status)
-from .reader import RawSheet, RawWorkbook
+from lanesolve.read.reader import RawSheet, RawWorkbook
 
 _NETWORK_COLUMNS = {
     contract.DEPOTS.name: DEPOT_COLUMNS,
@@ -65,12 +67,12 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     Parameters
     ----------
     raw : RawWorkbook
-        As returned by :func:`lanesolve.reader.read_workbook`.
+        As returned by :func:`lanesolve.read.reader.read_workbook`.
 
     Returns
     -------
     network : Network
-        Frames with exactly the columns of :mod:`lanesolve.network`, defaults filled.
+        Frames with exactly the columns of :mod:`lanesolve.model.network`, defaults filled.
     warnings : list of Problem
         Findings that do not block the solve (numbers stored as text, unknown settings, hidden sheets...).
 
@@ -85,7 +87,7 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
 
     Examples
     --------
-    >>> from lanesolve.reader import RawSheet, RawWorkbook
+    >>> from lanesolve.read.reader import RawSheet, RawWorkbook
     >>> raw = RawWorkbook("demo.xlsx", {
     ...     "Depots": RawSheet("Depots", [["depot", "supply"], ["D1", 10.0]]),
     ...     "Customers": RawSheet("Customers", [["customer", "demand"], [101.0, 4.0]]),
@@ -870,10 +872,10 @@ def _require_cost_column(table: _Table, settings: Settings, found: _Findings) ->
 
 def _costs_from_distance(frames: dict[str, pd.DataFrame], table: _Table, settings: Settings,
                          found: _Findings) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """Fill blank lane costs from distance (:func:`lanesolve.geo.lane_costs_from_distance`, vectorised) for the
+    """Fill blank lane costs from distance (:func:`lanesolve.read.geo.lane_costs_from_distance`, vectorised) for the
     lanes whose cells are otherwise usable; problems (a node without coordinates) join ``found``.
 
-    Returns the lanes frame and its :attr:`~lanesolve.network.Network.lane_sources`."""
+    Returns the lanes frame and its :attr:`~lanesolve.model.network.Network.lane_sources`."""
     lanes = frames[contract.LANES.name]
     distance = table.values.get("distance")
     sources = pd.DataFrame({

@@ -15,7 +15,7 @@ import time
 from collections.abc import Iterator
 from pathlib import Path
 
-from .errors import WriteError
+from lanesolve.errors import WriteError
 
 
 def spreadsheet_lock_files(path: str | Path) -> list[Path]:

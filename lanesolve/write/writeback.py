@@ -40,10 +40,10 @@ from pathlib import Path
 
 import pandas as pd
 
-from . import atomic
-from .contract import RESULT_PREFIX
-from .errors import WriteError
-from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, node_decisions
+from lanesolve.write import atomic
+from lanesolve.contract import RESULT_PREFIX
+from lanesolve.errors import WriteError
+from lanesolve.model.result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, node_decisions
 
 #: Text written for an infinite value (a lane or hub capacity without limit).
 NO_LIMIT = "no limit"
@@ -72,7 +72,7 @@ COST_WORDS = {
     "trips": "trip costs",
 }
 
-#: Plain words for the ``figure`` column of :attr:`lanesolve.result.Result.sensitivity`.
+#: Plain words for the ``figure`` column of :attr:`lanesolve.model.result.Result.sensitivity`.
 FIGURE_WORDS = {
     "marginal_cost": "cost of one more unit of demand",
     "supply_value": "saving from one more unit of depot supply",
@@ -162,7 +162,7 @@ def _percent(fraction) -> float | None:
 def cost_keys(result) -> list[str]:
     """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
 
-    A v1 result has :data:`~lanesolve.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
+    A v1 result has :data:`~lanesolve.model.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
     over the keys the result has (not a fixed list) keeps every component on the sheet, so they add up to the total.
     """
     order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
@@ -214,9 +214,9 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
 
     Parameters
     ----------
-    network : lanesolve.network.Network
+    network : lanesolve.model.network.Network
         The validated network (for the labels and the inactive lanes).
-    result : lanesolve.result.Result
+    result : lanesolve.model.result.Result
         The outcome of the solve (a result without a plan gives a summary that says why and empty flows).
     info : lanesolve.pipeline.RunInfo
         Input path, checksum, version and time stamp of the run (only ``input_path``, ``checksum``, ``version``
@@ -231,8 +231,8 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
 
     Examples
     --------
-    >>> from lanesolve.network import make_network
-    >>> from lanesolve.result import Result, SolveStatus
+    >>> from lanesolve.model.network import make_network
+    >>> from lanesolve.model.result import Result, SolveStatus
     >>> from types import SimpleNamespace  # stands in for a pipeline.RunInfo: the same fields
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
@@ -289,8 +289,8 @@ def insight_sheets(network, result) -> list[ResultSheet]:
 
     Parameters
     ----------
-    network : lanesolve.network.Network
-    result : lanesolve.result.Result
+    network : lanesolve.model.network.Network
+    result : lanesolve.model.result.Result
 
     Returns
     -------
@@ -317,7 +317,7 @@ def design_sheet(result) -> ResultSheet:
     """``"LS Depots and hubs"``: every depot and hub with the status given, the plan's decision and its use.
 
     Throughput is the net quantity shipped for a depot (what its supply bounds) and the quantity passing through
-    for a hub; capacity is the depot's supply or the hub's capacity (see :func:`lanesolve.solve.node_balance`).
+    for a hub; capacity is the depot's supply or the hub's capacity (see :func:`lanesolve.model.solve.node_balance`).
     """
     columns = ["depot or hub", "kind", "status given", "decision", "fixed charge paid", "throughput", "capacity",
                "utilisation %"]
@@ -398,7 +398,7 @@ def sensitivity_sheet(result) -> ResultSheet:
 
 
 def why_no_plan_sheet(network, result) -> ResultSheet:
-    """``"LS Why no plan"``: the diagnosis of an infeasible result (:class:`lanesolve.diagnose.Diagnosis`).
+    """``"LS Why no plan"``: the diagnosis of an infeasible result (:class:`lanesolve.model.diagnose.Diagnosis`).
 
     One row per finding: causes found before solving, customers who would go short (and by how much), lanes,
     depots and hubs used to their limit with the bottleneck (the minimum cut) marked, notes, and the internal
@@ -463,7 +463,7 @@ def frame_sheet(name: str, frame, kinds: dict[str, str]) -> ResultSheet:
 
 def scenario_sheet(comparison) -> ResultSheet:
     """``"LS Scenarios"``: the baseline and every scenario side by side (the frame of
-    :func:`lanesolve.scenarios.compare`)."""
+    :func:`lanesolve.model.scenarios.compare`)."""
     money = ("total_cost", "transport", "handling", "fixed_lane", "unmet_penalty", "delta_cost")
     kinds = {**dict.fromkeys(money, "money"), "delta_pct": "percent", "unmet_units": "quantity",
              "lanes_used": "number"}

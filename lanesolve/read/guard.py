@@ -25,7 +25,7 @@ import re
 import zipfile
 from pathlib import Path
 
-from .errors import WorkbookError
+from lanesolve.errors import WorkbookError
 
 #: Refuse a workbook whose parts add up to more than this many bytes uncompressed (1 GiB).
 MAX_TOTAL_BYTES = 1 << 30
@@ -145,7 +145,7 @@ def check_write_target(source: str | Path, target: str | Path) -> None:
 result sheets only into .xlsx or .xlsm workbooks, so nothing was written; save it as .xlsx in a spreadsheet \
 program and run on that copy ('lanesolve check' validates it without writing)
     """
-    from .errors import WriteError
+    from lanesolve.errors import WriteError
 
     source, target = Path(source), Path(target)
     kind = _KIND_NAMES.get(source.suffix.lower())

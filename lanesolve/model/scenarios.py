@@ -31,10 +31,10 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from . import contract
-from .errors import Problem
-from .network import Network
-from .result import Result
+from lanesolve import contract
+from lanesolve.errors import Problem
+from lanesolve.model.network import Network
+from lanesolve.model.result import Result
 
 SHEET = "Scenarios"
 HEADERS = ("scenario", "sheet", "match", "column", "change", "value")
@@ -364,7 +364,7 @@ def apply_scenario(network: Network, scenario: Scenario) -> tuple[Network, list[
 
     Examples
     --------
-    >>> from lanesolve.network import make_network
+    >>> from lanesolve.model.network import make_network
     >>> base = make_network([{"id": "D", "supply": 10}], [{"id": "C", "demand": 8}],
     ...                     [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
     >>> peak = Scenario("peak", [Change("Customers", "*", "demand", "scale", 1.25, 2)])

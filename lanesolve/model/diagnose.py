@@ -38,14 +38,17 @@ from __future__ import annotations
 
 import copy
 import math
+import time
 from collections import deque
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
-from .model import closed_nodes, customer_penalties, effective_capacity, lane_big_m
-from .network import Network
+from lanesolve.model.formulation import closed_nodes, customer_penalties, effective_capacity, lane_big_m
+from lanesolve.model.network import Network
+from lanesolve.model.result import Result, SolveStatus
+from lanesolve.model.solve import solve
 
 SHORT_COLUMNS = ["customer", "demand", "short"]
 SATURATED_COLUMNS = ["kind", "item", "capacity", "used", "bottleneck"]
@@ -164,7 +167,7 @@ def diagnose(network: Network, solver: str | None = None, time_limit: float | No
     network : Network
         A network for which the solver (or the pre-solve checks) found no plan.
     solver : str, optional
-        As for :func:`lanesolve.solve.solve`.
+        As for :func:`lanesolve.model.solve.solve`.
     time_limit : float, optional
         Seconds for the re-solve.
 
@@ -173,7 +176,6 @@ def diagnose(network: Network, solver: str | None = None, time_limit: float | No
     Diagnosis
         Structural causes are returned without solving when any is found.
     """
-    from .solve import solve  # late import: solve attaches a diagnosis to infeasible results
 
     causes, notes = structural_causes(network)
     diagnosis = Diagnosis(structural=causes, notes=notes)
@@ -186,7 +188,7 @@ def diagnose(network: Network, solver: str | None = None, time_limit: float | No
     big = dominating_penalty(network, with_decisions)
     penalised.customers["unmet_penalty"] = np.where(hard, big, penalty)
     diagnosis.penalty = big
-    result = solve(penalised, time_limit=time_limit, solver=solver, sensitivity=False, diagnose=False)
+    result = solve(penalised, time_limit=time_limit, solver=solver, sensitivity=False)
     if not result.status.has_plan:
         diagnosis.notes.append(f"The shortfall re-solve ended {result.status.value}, so no shortfall is named.")
         return diagnosis
@@ -251,3 +253,19 @@ def _saturated(network: Network, result, short_ids: set[str], with_decisions: bo
     if short_ids and not frame["bottleneck"].any() and not with_decisions:
         frame["bottleneck"] = True
     return frame
+
+
+def solve_and_explain(network: Network, time_limit: float | None = None, solver: str | None = None,
+                      msg: bool = False, **options) -> Result:
+    """Solve ``network`` with :func:`lanesolve.model.solve.solve`; when no feasible plan exists, attach the
+    :class:`Diagnosis` to ``Result.diagnosis`` and its sentences to ``Result.messages``.
+
+    ``options`` go to :func:`~lanesolve.model.solve.solve` unchanged.
+    """
+    result = solve(network, time_limit=time_limit, solver=solver, msg=msg, **options)
+    if result.status is SolveStatus.INFEASIBLE:
+        tick = time.perf_counter()
+        result.diagnosis = diagnose(network, solver=solver, time_limit=time_limit)
+        result.messages.extend(result.diagnosis.sentences(network.settings.units or "units"))
+        result.timings["diagnose"] = time.perf_counter() - tick
+    return result

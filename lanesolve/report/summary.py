@@ -1,13 +1,13 @@
 """Stage "report": the HTML summary a planner can read in a browser or a mail program and forward as is.
 
 The page is one self-contained file: CSS inline in the head, charts as ``data:`` URIs of SVG drawn by
-:mod:`lanesolve.charts`, no scripts, no remote resources, so it survives being attached to a mail and opened offline.
-:mod:`lanesolve.mail` renders the same template with ``cid:`` references to PNG parts instead. It is rendered from ``templates/summary.html.j2`` (installed
+:mod:`lanesolve.report.charts`, no scripts, no remote resources, so it survives being attached to a mail and opened offline.
+:mod:`lanesolve.report.mail` renders the same template with ``cid:`` references to PNG parts instead. It is rendered from ``templates/summary.html.j2`` (installed
 as the package :mod:`lanesolve.templates`) with autoescaping on, so names from the workbook -- a customer called
 ``<script>`` or ``=SUM(A1)`` -- appear as plain text.
 
-This module reads only the plain data handed to it (:class:`~lanesolve.network.Network`,
-:class:`~lanesolve.result.Result`, the run facts and the warnings); it never talks to the solver.
+This module reads only the plain data handed to it (:class:`~lanesolve.model.network.Network`,
+:class:`~lanesolve.model.result.Result`, the run facts and the warnings); it never talks to the solver.
 """
 
 from __future__ import annotations
@@ -21,14 +21,14 @@ from typing import TYPE_CHECKING, Callable
 import jinja2
 import pandas as pd
 
-from . import atomic
-from . import charts as _charts
-from .result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus, node_decisions
-from .sensitivity import FIXED_BASIS, TOP_FEW, top_few
+from lanesolve.write import atomic
+from lanesolve.report import charts as _charts
+from lanesolve.model.result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus, node_decisions
+from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
-    from .network import Network
-    from .pipeline import RunInfo
+    from lanesolve.model.network import Network
+    from lanesolve.runinfo import RunInfo
 
 TEMPLATE_NAME = "summary.html.j2"
 
@@ -131,7 +131,7 @@ def _bar(value: object) -> float:
 def cost_keys(result: Result) -> list[str]:
     """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
 
-    A v1 result has :data:`~lanesolve.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
+    A v1 result has :data:`~lanesolve.model.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
     over the keys the result has keeps every component in the breakdown, so the rows add up to the total.
     """
     order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
@@ -301,7 +301,7 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     Parameters
     ----------
     figure : str
-        The ``figure`` column of :attr:`Result.sensitivity` (see :mod:`lanesolve.sensitivity`).
+        The ``figure`` column of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`).
     item : str
         The customer, depot, hub or lane label.
     value : float
@@ -428,11 +428,11 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
     warnings : list
         :class:`~lanesolve.errors.Problem` objects (or strings) found while reading the workbook.
     charts : list of Drawing, optional
-        The charts to show; by default :func:`lanesolve.charts.summary_charts`.
+        The charts to show; by default :func:`lanesolve.report.charts.summary_charts`.
     image_src : callable, optional
         Maps a chart to its ``<img src>``; by default an SVG ``data:`` URI (the mail passes ``cid:`` references).
     comparison : DataFrame, optional
-        The baseline and every scenario side by side (:func:`lanesolve.scenarios.compare`); shown when given.
+        The baseline and every scenario side by side (:func:`lanesolve.model.scenarios.compare`); shown when given.
 
     Returns
     -------
@@ -580,7 +580,7 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
     Examples
     --------
     >>> from types import SimpleNamespace
-    >>> from lanesolve.network import make_network
+    >>> from lanesolve.model.network import make_network
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
     >>> info = SimpleNamespace(input_path="plan.xlsx", started="2024-01-01T08:00:00+00:00", version="0",
@@ -641,7 +641,7 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list)
     Examples
     --------
     >>> from types import SimpleNamespace
-    >>> from lanesolve.network import make_network
+    >>> from lanesolve.model.network import make_network
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
     >>> info = SimpleNamespace(input_path="plan.xlsx", started="2024-01-01T08:00:00+00:00", version="0",

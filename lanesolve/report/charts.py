@@ -9,7 +9,7 @@ text) on a pixel canvas -- and written out two ways from that one list:
   common practice, recalled from memory). Pillow is imported only when a PNG is asked for, so writing the HTML
   summary costs nothing extra at start-up.
 
-The module reads only the plain :class:`~lanesolve.network.Network` and :class:`~lanesolve.result.Result`.
+The module reads only the plain :class:`~lanesolve.model.network.Network` and :class:`~lanesolve.model.result.Result`.
 
 Map projection
 --------------
@@ -30,8 +30,8 @@ import math
 from dataclasses import dataclass, field
 from xml.sax.saxutils import escape
 
-from .network import Network
-from .result import COST_COMPONENTS, Result
+from lanesolve.model.network import Network
+from lanesolve.model.result import COST_COMPONENTS, Result
 
 # Palette of our own: muted greens and blues on white, one warm colour for "at its limit", red only for shortfall.
 INK = "#23303a"
@@ -294,7 +294,7 @@ def utilisation_rows(result: Result) -> list[dict]:
     """Depots and hubs with what they use of their limit, fullest first (ties by name).
 
     A depot's limit is its supply and its use the net outflow; a hub's limit is its capacity and its use the
-    throughput (as in :data:`lanesolve.result.NODE_COLUMNS`). Nodes without a limit have ``share`` None.
+    throughput (as in :data:`lanesolve.model.result.NODE_COLUMNS`). Nodes without a limit have ``share`` None.
     """
     nodes = result.nodes
     if nodes.empty:
@@ -549,8 +549,8 @@ def summary_charts(network: Network, result: Result) -> list[Drawing]:
 
     Examples
     --------
-    >>> from lanesolve.network import make_network
-    >>> from lanesolve.result import Result, SolveStatus
+    >>> from lanesolve.model.network import make_network
+    >>> from lanesolve.model.result import Result, SolveStatus
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
     >>> summary_charts(net, Result(SolveStatus.INFEASIBLE))

@@ -28,14 +28,15 @@ from email.utils import formatdate, make_msgid
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from . import atomic, report
-from . import charts as _charts
-from .errors import WriteError
-from .result import Result
+from lanesolve.write import atomic
+from lanesolve.report import summary
+from lanesolve.report import charts as _charts
+from lanesolve.errors import WriteError
+from lanesolve.model.result import Result
 
 if TYPE_CHECKING:
-    from .network import Network
-    from .pipeline import RunInfo
+    from lanesolve.model.network import Network
+    from lanesolve.runinfo import RunInfo
 
 #: Content types of the workbooks lanesolve writes (Office Open XML; .xlsm keeps its macros and says so).
 WORKBOOK_TYPES = {
@@ -58,17 +59,17 @@ def subject_for(network: Network, result: Result, info: RunInfo) -> str:
     """The Subject: the workbook's name, the status and, with a plan, the total cost.
 
     >>> from types import SimpleNamespace
-    >>> from lanesolve.network import Settings, make_network
-    >>> from lanesolve.result import SolveStatus
+    >>> from lanesolve.model.network import Settings, make_network
+    >>> from lanesolve.model.result import SolveStatus
     >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
     ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}], settings=Settings(currency="EUR"))
     >>> subject_for(net, Result(SolveStatus.OPTIMAL, total_cost=10.0), SimpleNamespace(input_path="x/week 12.xlsx"))
     'Lane plan week 12.xlsx: Optimal plan, total cost 10.00 EUR'
     """
-    status = report.STATUS_TEXT.get(result.status, result.status.value)
+    status = summary.STATUS_TEXT.get(result.status, result.status.value)
     text = f"Lane plan {Path(info.input_path).name}: {status}"
     if result.status.has_plan:
-        text += f", total cost {report.format_money(result.total_cost, network.settings.currency or '')}"
+        text += f", total cost {summary.format_money(result.total_cost, network.settings.currency or '')}"
     return text
 
 
@@ -79,7 +80,7 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     Parameters
     ----------
     network, result, info, warnings
-        As for :func:`lanesolve.report.render_html`.
+        As for :func:`lanesolve.report.summary.render_html`.
     attach : path-like, optional
         A file to attach, normally the solved workbook (``info.output_path``).
 
@@ -94,14 +95,14 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     """
     drawings = _charts.summary_charts(network, result)
     cids = {chart.key: make_msgid(idstring=chart.key, domain=CID_DOMAIN) for chart in drawings}
-    html = report.render_html(network, result, info, warnings, charts=drawings,
+    html = summary.render_html(network, result, info, warnings, charts=drawings,
                               image_src=lambda chart: "cid:" + cids[chart.key][1:-1])
 
     message = EmailMessage(policy=EML_POLICY)
     message["Subject"] = subject_for(network, result, info)
     message["Date"] = formatdate(localtime=True)
     message["X-Unsent"] = "1"
-    message.set_content(report.render_text(network, result, info, warnings))
+    message.set_content(summary.render_text(network, result, info, warnings))
     message.add_alternative(html, subtype="html")
     html_part = message.get_payload()[1]
     for chart in drawings:

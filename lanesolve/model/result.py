@@ -34,7 +34,7 @@ DESIGN_COST_COMPONENTS = ("fixed_node", "trips")
 OPEN_NODE_COLUMNS = ["node", "kind", "status", "open", "fixed_charge"]
 #: Columns of :attr:`Result.trips` (one row per lane with a trip capacity and flow > 0).
 TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips", "cost_per_trip", "trip_cost"]
-#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.sensitivity`).
+#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`).
 SENSITIVITY_COLUMNS = ["figure", "item", "value", "unique", "basis", "text"]
 
 
@@ -116,9 +116,9 @@ class Result:
     trips : DataFrame
         :data:`TRIP_COLUMNS`; lanes run in whole trips.
     sensitivity : DataFrame
-        :data:`SENSITIVITY_COLUMNS` (see :mod:`lanesolve.sensitivity`); empty when not computed.
+        :data:`SENSITIVITY_COLUMNS` (see :mod:`lanesolve.model.sensitivity`); empty when not computed.
     diagnosis : Diagnosis or None
-        Why no plan exists, when that was analysed (see :mod:`lanesolve.diagnose`).
+        Why no plan exists, when that was analysed (see :mod:`lanesolve.model.diagnose`).
     """
 
     status: SolveStatus

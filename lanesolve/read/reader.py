@@ -7,7 +7,7 @@ XML of the input sheets is therefore scanned for those cells, and they are liste
 the validator can name them instead of reading them as blanks. The scan only runs on a sheet part whose bytes contain
 an error cell (``t="e"``) or a formula (``<f``), so a plain values-only workbook pays nothing for it.
 
-Nothing here judges the values; that is :mod:`lanesolve.validate`'s job.
+Nothing here judges the values; that is :mod:`lanesolve.read.validate`'s job.
 """
 
 from __future__ import annotations
@@ -24,8 +24,9 @@ import defusedxml
 import defusedxml.ElementTree as SafeElementTree
 import python_calamine
 
-from . import contract, guard
-from .errors import WorkbookError
+from lanesolve import contract
+from lanesolve.read import guard
+from lanesolve.errors import WorkbookError
 
 _ZIP_MAGIC = b"PK\x03\x04"
 _OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"

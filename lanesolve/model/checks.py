@@ -11,12 +11,12 @@ Every check here is *certain*: when it fires, the model is infeasible (it never 
    comes in).
 4. A customer with hard demand that no depot with supply can reach along active lanes of non-zero capacity (and
    through no hub of zero capacity, and no closed depot or hub).
-5. Contract v2 structure (:func:`lanesolve.diagnose.structural_causes`): a customer with hard demand whose every
+5. Contract v2 structure (:func:`lanesolve.model.diagnose.structural_causes`): a customer with hard demand whose every
    active inbound lane starts at a closed node; more nodes marked open than max_open_depots / max_open_hubs.
 
 Examples
 --------
->>> from lanesolve.network import make_network
+>>> from lanesolve.model.network import make_network
 >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 8}],
 ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 1}])
 >>> presolve_checks(net)  # doctest: +NORMALIZE_WHITESPACE
@@ -31,10 +31,10 @@ from collections import deque
 
 import numpy as np
 
-from .model import customer_penalties
-from .network import Network
-from .result import COST_COMPONENTS, Result, SolveStatus
-from .solve import node_balance
+from lanesolve.model.formulation import customer_penalties
+from lanesolve.model.network import Network
+from lanesolve.model.result import COST_COMPONENTS, Result, SolveStatus
+from lanesolve.model.solve import node_balance
 
 
 def _num(value: float) -> str:
@@ -85,7 +85,7 @@ def presolve_checks(network: Network) -> list[str]:
         elif node not in reachable:
             reasons.append(f"{where} needs {_num(demand)} {units} but no depot with supply can reach it along "
                            "active lanes with capacity (check the lanes leading to it and the hubs on the way).")
-    from .diagnose import structural_causes  # late import: diagnose builds on the solver
+    from lanesolve.model.diagnose import structural_causes  # late import: diagnose builds on the solver
 
     for cause in structural_causes(network)[0]:
         if cause not in reasons:
@@ -103,7 +103,7 @@ def _reachable_from_supply(network: Network) -> set[str]:
     successors: dict[str, list[str]] = {}
     for origin, destination in zip(lanes["origin"].tolist(), lanes["destination"].tolist()):
         successors.setdefault(origin, []).append(destination)
-    from .model import closed_nodes
+    from lanesolve.model.formulation import closed_nodes
 
     closed = closed_nodes(network)
     blocked = set(network.hubs.loc[network.hubs["capacity"] <= 0, "id"]) | closed
@@ -122,7 +122,7 @@ def _reachable_from_supply(network: Network) -> set[str]:
 
 
 def no_plan_result(network: Network, reasons: list[str]) -> Result:
-    """The :class:`~lanesolve.result.Result` for a network the pre-solve checks rule out.
+    """The :class:`~lanesolve.model.result.Result` for a network the pre-solve checks rule out.
 
     Parameters
     ----------
@@ -136,7 +136,7 @@ def no_plan_result(network: Network, reasons: list[str]) -> Result:
         Status ``infeasible``, ``messages`` = ``reasons``, total and breakdown NaN (there is no plan), no flows, and
         the node frame with every node at zero flow (unmet NaN, as no plan says what would go short).
     """
-    from .diagnose import Diagnosis, structural_causes
+    from lanesolve.model.diagnose import Diagnosis, structural_causes
 
     return Result(
         diagnosis=Diagnosis(structural=list(reasons), notes=structural_causes(network)[1]),

@@ -1,0 +1,1 @@
+"""Reading: the workbook file and any lanes file -> a validated Network."""

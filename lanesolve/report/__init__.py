@@ -1,0 +1,1 @@
+"""Reporting: the HTML summary, its charts and the mail."""

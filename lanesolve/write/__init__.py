@@ -1,0 +1,1 @@
+"""Writing: result sheets spliced into the workbook, the blank template, atomic replacement and locks."""
