@@ -8,6 +8,9 @@ Header matching ignores case and surrounding spaces and treats a space like an u
 
 from __future__ import annotations
 
+import difflib
+import re
+import unicodedata
 from dataclasses import dataclass, field
 
 CONTRACT_VERSION = 2
@@ -59,6 +62,8 @@ class Setting:
     unit: str = ""
     doc: str = ""
     choices: tuple[str, ...] = field(default_factory=tuple)
+    #: Why a scenario may not change this setting (empty: it may). See :mod:`lanesolve.model.scenarios`.
+    fixed_for_scenarios: str = ""
 
 
 #: Node statuses (Depots and Hubs ``status`` column). Blank means ``decide`` when a fixed cost is given, else ``open``.
@@ -213,12 +218,86 @@ SETTINGS_ROWS = (
 
 INPUT_SHEETS = (DEPOTS, CUSTOMERS, HUBS, LANES, SETTINGS)
 NODE_SHEETS = (DEPOTS, CUSTOMERS, HUBS)
+#: The optional what-if sheet (its columns are read by :mod:`lanesolve.model.scenarios`).
+SCENARIOS_SHEET = "Scenarios"
 
 #: Result sheets written back start with this prefix; a rerun replaces every sheet that carries it.
 RESULT_PREFIX = "LS "
 
 YES = frozenset({"yes", "y", "true", "1", "x", "on"})
 NO = frozenset({"no", "n", "false", "0", "off"})
+
+
+#: Other names planners give a column, as :func:`header_key` writes them. A header that reads as one of them is not
+#: taken as the column: it is reported (see :func:`resemblance`), so the planner confirms the meaning by renaming it.
+SYNONYMS: dict[str, tuple[str, ...]] = {
+    "depot": ("depot_id", "depot_name", "warehouse", "plant"),
+    "customer": ("customer_id", "customer_name", "client", "delivery_zone"),
+    "hub": ("hub_id", "hub_name", "cross_dock", "crossdock"),
+    "supply": ("available", "availability", "max_supply", "stock", "supply_qty"),
+    "demand": ("quantity", "qty", "demand_qty", "required", "requirement", "need", "order_qty"),
+    "handling_cost": ("handling", "handling_rate", "handling_cost_per_unit"),
+    "unmet_penalty": ("penalty", "shortage_penalty", "shortfall_penalty", "unmet_cost", "penalty_per_unit"),
+    "single_source": ("sole_source", "single_sourcing", "one_source"),
+    "origin": ("from", "source", "orig", "from_id", "origin_id", "ship_from"),
+    "destination": ("to", "dest", "destination_id", "to_id", "ship_to"),
+    "cost_per_unit": ("unit_cost", "cost_unit", "rate", "unit_rate", "cost", "price", "unit_price", "freight_rate",
+                      "cost_each", "cost_per_pallet", "cost_per_tonne", "cost_per_ton", "cost_per_case",
+                      "transport_cost", "lane_cost"),
+    "mode": ("transport_mode", "mode_of_transport"),
+    "capacity": ("cap", "max", "max_volume", "max_capacity", "limit", "capacity_limit", "max_qty"),
+    "fixed_cost": ("fixed_charge", "fixed", "fixed_fee", "fixed_costs"),
+    "min_volume": ("minimum_volume", "min_qty", "minimum", "min", "min_vol"),
+    "trip_capacity": ("truck_capacity", "truckload", "vehicle_capacity", "load_capacity", "trip_cap",
+                      "capacity_per_trip", "units_per_trip"),
+    "cost_per_trip": ("trip_cost", "cost_trip", "truck_cost", "cost_per_truck", "cost_per_load"),
+    "distance": ("dist", "km", "miles", "length", "road_distance"),
+    "active": ("enabled", "in_use", "use", "used", "is_active"),
+    "status": ("state", "open_close", "open"),
+    "latitude": ("lat",),
+    "longitude": ("lon", "lng", "long"),
+    "setting": ("name", "parameter", "key"),
+    "value": ("setting_value",),
+}
+#: How alike (difflib ratio of the two names with separators removed) a header and a column name must be for the
+#: header to count as a misspelling of the column. "capcity" and "capacity" score 0.93, "distance_km" and
+#: "distance" 0.89, "notes" and "mode" 0.44.
+RESEMBLANCE_CUTOFF = 0.8
+_BRACKETED = re.compile(r"\([^)]*\)|\[[^\]]*\]|\{[^}]*\}")
+_NOT_WORD = re.compile(r"[^0-9a-z]+")
+
+
+def header_key(header: object) -> str:
+    """A header reduced to its words, for telling what it probably means (never for reading it).
+
+    Looser than :func:`normalize`: Unicode compatibility forms folded (NFKC), text in brackets dropped (units such as
+    ``(pallets)`` or ``[EUR]``), every run of punctuation -- ``?``, ``/``, ``.``, ``#`` -- made one underscore.
+
+    >>> header_key("Capacity (pallets)"), header_key("Active?"), header_key("Cost/unit")
+    ('capacity', 'active', 'cost_unit')
+    """
+    text = unicodedata.normalize("NFKC", "" if header is None else str(header)).casefold()
+    return _NOT_WORD.sub("_", _BRACKETED.sub(" ", text)).strip("_")
+
+
+def resemblance(header: object, name: str) -> float:
+    """How strongly a header that is not ``name`` looks like the column (or sheet) ``name``: 0 (not at all) to 1.
+
+    1 when the header's words are the name's or one of its :data:`SYNONYMS`, separators aside; otherwise the
+    difflib ratio of the two with separators removed when it reaches :data:`RESEMBLANCE_CUTOFF`, else 0.
+
+    >>> resemblance("Unit cost", "cost_per_unit"), resemblance("capcity", "capacity") > 0.9
+    (1.0, True)
+    >>> resemblance("notes", "mode")
+    0.0
+    """
+    words = header_key(header).replace("_", "")
+    if not words:
+        return 0.0
+    if any(words == candidate.replace("_", "") for candidate in (name, *SYNONYMS.get(name, ()))):
+        return 1.0
+    ratio = difflib.SequenceMatcher(None, words, name.replace("_", "")).ratio()
+    return ratio if ratio >= RESEMBLANCE_CUTOFF else 0.0
 
 
 def normalize(header: object) -> str:
@@ -244,3 +323,13 @@ def setting_by_name(name: str) -> Setting:
         if setting.name == normalize(name):
             return setting
     raise KeyError(name)
+
+
+def is_read_sheet(name: str) -> bool:
+    """Whether the reader loads the sheet of this name: an input sheet or Scenarios, by :func:`normalize`.
+
+    >>> is_read_sheet(" lanes"), is_read_sheet("Notes")
+    (True, False)
+    """
+    key = normalize(name)
+    return key == normalize(SCENARIOS_SHEET) or any(key == normalize(sheet.name) for sheet in INPUT_SHEETS)

@@ -213,13 +213,12 @@ def test_unknown_setting_warns_with_did_you_mean(tmp_path):
     assert network.settings.time_limit_s == pytest.approx(30.0, abs=1e-12)
 
 
-def test_near_miss_optional_header_warns(tmp_path):
+def test_misspelt_optional_header_is_an_error_naming_the_column(tmp_path):
     sheets = valid_sheets()
     sheets["Lanes"][0][5] = "fixed_cots"
-    network, warnings = load(tmp_path, sheets)
-    warning = only(warnings, sheet="Lanes", column="fixed_cots")
-    assert "did you mean 'fixed_cost'" in warning.hint
-    assert network.lanes["fixed_cost"].tolist() == pytest.approx([0.0] * 5, abs=1e-12)
+    problem = only(errors_of(tmp_path, sheets), sheet="Lanes", column="fixed_cots")
+    assert problem.row == 1 and "cell F1" in problem.message and "looks like 'fixed_cost'" in problem.message
+    assert "rename the header to 'fixed_cost'" in problem.hint
 
 
 def test_hidden_input_sheet_warns(tmp_path):
@@ -251,14 +250,22 @@ def test_two_sheets_for_one_contract_sheet(tmp_path):
     assert "both count as the Lanes sheet" in problem.message
 
 
-def test_missing_required_column_with_did_you_mean(tmp_path):
+def test_misspelt_required_header_is_one_error_at_its_cell(tmp_path):
     sheets = valid_sheets()
-    sheets["Lanes"][0][2] = "cost per unt"
-    problem = only(errors_of(tmp_path, sheets), sheet="Lanes", column="cost_per_unit")
-    assert problem.row == 1 and "missing" in problem.message
-    assert "did you mean 'cost per unt'" in problem.hint
-    # difflib agrees that the written header is the closest to the contract name.
-    assert difflib.get_close_matches("cost_per_unit", ["cost_per_unt", "mode"], n=1) == ["cost_per_unt"]
+    sheets["Depots"][0][1] = "suply"
+    problems = errors_of(tmp_path, sheets)
+    problem = only(problems, sheet="Depots", row=1)
+    assert problem.column == "suply" and "cell B1" in problem.message
+    assert "looks like 'supply' (a required column), which this sheet lacks" in problem.message
+    # difflib agrees that the written header is close to the contract name (ratio 10/11, above the 0.8 cutoff).
+    assert difflib.SequenceMatcher(None, "suply", "supply").ratio() == pytest.approx(10 / 11, abs=1e-12)
+
+
+def test_missing_required_column_without_look_alike(tmp_path):
+    sheets = valid_sheets()
+    sheets["Depots"][0][1] = "notes"
+    problem = only(errors_of(tmp_path, sheets), sheet="Depots", row=1)
+    assert problem.column == "supply" and "required column 'supply' is missing" in problem.message
 
 
 def test_missing_id_column_does_not_flood_lanes_with_unknown_ids(tmp_path):

@@ -18,7 +18,7 @@ def read_settings(sheet: RawSheet | None, found: Findings) -> Settings:
     if sheet is None:
         return settings
     spec = contract.SETTINGS
-    index_of, headers, complete = match_headers(spec, sheet, found)
+    index_of, headers, complete, _ = match_headers(spec, sheet, found)
     if not complete:
         return settings
     name_at, value_at = index_of["setting"], index_of["value"]

@@ -169,6 +169,9 @@ def require_cost_column(table: Table, settings: Settings, found: Findings) -> No
     if table.sheet_name is None or table.values.get("cost_per_unit") is not None or \
             settings.rate_per_distance is not None:
         return
+    if "cost_per_unit" in table.resembled:  # a look-alike header is already reported at its cell
+        table.complete = False
+        return
     unmatched = {contract.normalize(h): header_text(h) for h in table.raw_header
                  if contract.normalize(h) and contract.normalize(h) not in {c.name for c in table.spec.columns}}
     near = did_you_mean("cost_per_unit", unmatched, cutoff=0.75)

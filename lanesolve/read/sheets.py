@@ -10,34 +10,52 @@ import pandas as pd
 from lanesolve import contract
 from lanesolve.contract import Sheet
 from lanesolve.read.cells import ColumnParser, default_values, type_masks
-from lanesolve.read.findings import ERROR_VALUE_HINT, FORMULA_HINT, Findings, did_you_mean, header_text, is_blank
+from lanesolve.read.findings import ERROR_VALUE_HINT, FORMULA_HINT, Findings, did_you_mean, header_text, is_blank, show
 from lanesolve.read.reader import RawSheet, RawWorkbook
+from lanesolve.read.sheet_xml import column_letters
 
 
 def match_sheets(raw: RawWorkbook, found: Findings, deferred: tuple[str, ...] = ()) -> dict[str, RawSheet]:
     """Contract sheet name -> the workbook's sheet of that name (case and spacing ignored).
 
     A missing required sheet is reported here unless its name is in ``deferred`` (the caller decides later, see
-    :func:`report_missing_sheet`).
+    :func:`report_missing_sheet`). Two sheets that both mean one contract sheet (``Lanes`` and ``LANES ``, or
+    ``Lanes`` and its copy ``Lanes (2)``) are an error naming both, and so is a sheet that looks like an optional
+    contract sheet the workbook lacks (``Hub``): read as named it would be ignored. The Scenarios sheet is checked
+    the same way, though it is read later.
     """
-    by_norm: dict[str, list[RawSheet]] = {}
-    for sheet in raw.sheets.values():
-        by_norm.setdefault(contract.normalize(sheet.name), []).append(sheet)
-
+    names = raw.names()
     matched: dict[str, RawSheet] = {}
-    for spec in contract.INPUT_SHEETS:
-        candidates = by_norm.get(contract.normalize(spec.name), [])
-        if len(candidates) > 1:
-            names = " and ".join(f"'{s.name}'" for s in candidates)
-            found.add(candidates[1].name, None, None, candidates[1].name,
-                      f"two sheets, {names}, both count as the {spec.name} sheet",
+    for spec_name, spec in [(s.name, s) for s in contract.INPUT_SHEETS] + [(contract.SCENARIOS_SHEET, None)]:
+        exact = [n for n in names if contract.normalize(n) == contract.normalize(spec_name)]
+        alike = [n for n in names if n not in exact and not contract.is_read_sheet(n)
+                 and contract.resemblance(n, contract.normalize(spec_name)) > 0]
+        if len(exact) > 1:
+            listed = " and ".join(f"'{n}'" for n in exact)
+            found.add(exact[1], None, None, exact[1], f"two sheets, {listed}, both count as the {spec_name} sheet",
                       "rename or delete one of them")
             continue
-        if not candidates:
-            if spec.required and spec.name not in deferred:
-                report_missing_sheet(spec, raw, found)
+        if exact and alike:
+            for other in alike:
+                found.add(other, None, None, other,
+                          f"sheets '{exact[0]}' and '{other}' both look like the {spec_name} sheet; lanesolve would "
+                          f"read '{exact[0]}' and ignore '{other}'",
+                          "rename or delete the one that should not be read: give it a name unlike any lanesolve "
+                          "sheet, such as 'Backup 1'")
+        if not exact:
+            if spec is not None and spec.required:
+                if spec.name not in deferred:
+                    report_missing_sheet(spec, raw, found)
+            else:
+                for other in alike:
+                    found.add(other, None, None, other,
+                              f"sheet '{other}' looks like the {spec_name} sheet, but lanesolve reads only a sheet "
+                              f"named '{spec_name}'; as named it would be ignored",
+                              f"rename it to '{spec_name}', or give it a name unlike any lanesolve sheet")
             continue
-        sheet = candidates[0]
+        if spec is None or exact[0] not in raw.sheets:
+            continue
+        sheet = raw.sheets[exact[0]]
         if not spec.required and not any(not is_blank(cell) for row in sheet.rows for cell in row) \
                 and not sheet.bad_cells:
             continue  # an optional sheet left completely empty counts as absent
@@ -49,10 +67,9 @@ def match_sheets(raw: RawWorkbook, found: Findings, deferred: tuple[str, ...] = 
 
 
 def report_missing_sheet(spec: Sheet, raw: RawWorkbook, found: Findings) -> None:
-    contract_norms = {contract.normalize(s.name) for s in contract.INPUT_SHEETS}
-    spare = {contract.normalize(s.name): s.name for s in raw.sheets.values()
-             if contract.normalize(s.name) not in contract_norms}
-    near = did_you_mean(spec.name, spare)
+    spare = {contract.normalize(n): n for n in raw.names() if not contract.is_read_sheet(n)}
+    alike = [n for n in spare.values() if contract.resemblance(n, contract.normalize(spec.name)) > 0]
+    near = alike[0] if alike else did_you_mean(spec.name, spare)
     hint = (f"did you mean sheet '{near}'? Rename it to '{spec.name}'" if near else
             f"add a sheet named '{spec.name}' with its headers in row 1")
     if spec is contract.LANES:
@@ -76,6 +93,7 @@ class Table:
     sources: np.ndarray | None = None
     source_headers: dict[str, dict[str, str]] = field(default_factory=dict)
     raw_header: list = field(default_factory=list)  # row 1 as written (for did-you-mean on a missing column)
+    resembled: set[str] = field(default_factory=set)  # lacking columns a look-alike header was reported for
 
     def __len__(self) -> int:
         return len(self.rows)
@@ -101,19 +119,36 @@ class Table:
 
 
 
-def match_headers(spec: Sheet, sheet: RawSheet, found: Findings) -> tuple[dict[str, int], dict[str, str], bool]:
-    """Find each contract column's position in row 1; report missing, duplicate and near-miss headers."""
+def match_headers(spec: Sheet, sheet: RawSheet, found: Findings
+                  ) -> tuple[dict[str, int], dict[str, str], bool, set[str]]:
+    """Find each contract column's position in row 1; report missing, duplicate and look-alike headers.
+
+    A header that is not a contract column but resembles one the sheet lacks (:func:`lanesolve.contract.resemblance`:
+    ``Capacity (pallets)``, ``Active?``, ``Unit cost``, ``capcity``) is an error at its cell: read as written it would
+    be ignored and the column's default used in its place, which is exactly the silent misreading to avoid. Headers
+    that resemble no lacking column are notes: allowed and ignored.
+
+    Returns
+    -------
+    index_of : dict
+        Contract column -> 0-based position in row 1.
+    written : dict
+        Contract column -> the header as written.
+    complete : bool
+        False when a required column is missing (or taken by a look-alike or duplicate header).
+    resembled : set of str
+        Contract columns the sheet lacks for which a look-alike header was reported.
+    """
     header_row = sheet.rows[0] if sheet.rows else []
     positions: dict[str, list[int]] = {}
     for index, cell in enumerate(header_row):
         positions.setdefault(contract.normalize(cell), []).append(index)
     known = {col.name for col in spec.columns}
-    unmatched = {contract.normalize(h): header_text(h) for h in header_row
-                 if contract.normalize(h) and contract.normalize(h) not in known}
 
     index_of: dict[str, int] = {}
     written: dict[str, str] = {}
     complete = True
+    lacking = []
     for col in spec.columns:
         where = positions.get(col.name, [])
         if len(where) > 1:
@@ -124,28 +159,44 @@ def match_headers(spec: Sheet, sheet: RawSheet, found: Findings) -> tuple[dict[s
             complete = complete and not col.required
             continue
         if not where:
-            near = did_you_mean(col.name, unmatched, cutoff=0.75)
-            if col.required:
-                hint = (f"did you mean '{near}'? Rename that header to '{col.name}'" if near else
-                        f"add a column headed '{col.name}' in row 1")
-                found.add(sheet.name, 1, col.name, None, f"required column '{col.name}' is missing", hint)
-                complete = False
-            elif near is not None:
-                found.add(sheet.name, 1, near, near,
-                          f"column '{near}' is not a lanesolve column and is ignored",
-                          f"did you mean '{col.name}'? Rename the header to use it", severity="warning")
+            lacking.append(col)
             continue
         index_of[col.name] = where[0]
         written[col.name] = header_text(header_row[where[0]])
-    return index_of, written, complete
 
-
-def column_letters(number: int) -> str:
-    letters = ""
-    while number:
-        number, rest = divmod(number - 1, 26)
-        letters = chr(65 + rest) + letters
-    return letters
+    resembled: set[str] = set()
+    for index, cell in enumerate(header_row):
+        if not contract.normalize(cell) or contract.normalize(cell) in known:
+            continue
+        score, col = max(((contract.resemblance(cell, c.name), c) for c in lacking), key=lambda pair: pair[0],
+                         default=(0.0, None))
+        text, cell_ref = header_text(cell), f"{column_letters(index + 1)}1"
+        if col is not None and score > 0:
+            resembled.add(col.name)
+            units = "; units belong in the Settings rows units and currency, not in headers" \
+                if "(" in text or "[" in text else ""
+            found.add(sheet.name, 1, text, text,
+                      f"header {show(text)} in cell {cell_ref} is not a column lanesolve reads, but it looks like "
+                      f"'{col.name}'{' (a required column)' if col.required else ''}, which this sheet lacks; "
+                      f"as written it would be ignored",
+                      f"rename the header to '{col.name}'{units}; or, if it holds something else, give it a name "
+                      f"unlike any lanesolve column")
+            continue
+        twin = next((name for name in index_of if contract.header_key(cell) == name), None)
+        if twin is not None:
+            found.add(sheet.name, 1, text, text,
+                      f"header {show(text)} in cell {cell_ref} looks like '{twin}', which is read from cell "
+                      f"{column_letters(index_of[twin] + 1)}1; this column is ignored",
+                      "delete one of the two columns, or rename this one to something unlike any lanesolve column",
+                      severity="warning")
+    for col in lacking:
+        if col.name in resembled:
+            complete = complete and not col.required
+        elif col.required:
+            found.add(sheet.name, 1, col.name, None, f"required column '{col.name}' is missing",
+                      f"add a column headed '{col.name}' in row 1")
+            complete = False
+    return index_of, written, complete, resembled
 
 
 def read_table(spec: Sheet, sheet: RawSheet | None, found: Findings, data: pd.DataFrame | None = None) -> Table:
@@ -156,7 +207,7 @@ def read_table(spec: Sheet, sheet: RawSheet | None, found: Findings, data: pd.Da
         table.complete = not spec.required
         return table
     table.sheet_name = sheet.name
-    index_of, table.headers, table.complete = match_headers(spec, sheet, found)
+    index_of, table.headers, table.complete, table.resembled = match_headers(spec, sheet, found)
     table.raw_header = list(sheet.rows[0]) if sheet.rows else []
 
     if data is None:
