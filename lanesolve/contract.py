@@ -8,7 +8,9 @@ Header matching ignores case and surrounding spaces and treats a space like an u
 
 from __future__ import annotations
 
+import datetime as _dt
 import difflib
+import math
 import re
 import unicodedata
 from dataclasses import dataclass, field
@@ -333,3 +335,165 @@ def is_read_sheet(name: str) -> bool:
     """
     key = normalize(name)
     return key == normalize(SCENARIOS_SHEET) or any(key == normalize(sheet.name) for sheet in INPUT_SHEETS)
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# numbers typed as text, and the magnitudes the solver can work with
+
+#: Largest magnitude of a number lanesolve accepts (costs, quantities, capacities, penalties, settings). CBC and
+#: HiGHS work in double precision with feasibility tolerances around 1e-7 to 1e-9 of the numbers in a row, so
+#: beyond 1e12 a unit of flow or money is no longer told apart reliably (common practice: keep LP coefficients
+#: within about twelve orders of magnitude; the bound is stated, not derived).
+MAX_MAGNITUDE = 1e12
+#: Smallest non-zero magnitude accepted: below it a value is indistinguishable from the solvers' zero tolerance.
+MIN_MAGNITUDE = 1e-9
+#: Longest text a spreadsheet cell can hold (32,767 characters); a longer id did not come from a cell.
+MAX_ID_LENGTH = 32_767
+
+#: Text in which a point may separate thousands (1.200 is 1200 in many locales) as well as decimals (1.2).
+AMBIGUOUS_POINT = re.compile(r"[+-]?[1-9][0-9]{0,2}\.[0-9]{3}")
+#: Number-like text with a comma, which may be a decimal comma (1,5) or a thousands comma (1,200).
+NUMBER_WITH_COMMA = re.compile(r"[+-]?[0-9.,]*[0-9],[0-9][0-9.,]*")
+#: Number-like text with several points (1.200.000): thousands points, never a decimal.
+NUMBER_WITH_POINTS = re.compile(r"[+-]?[0-9]+(\.[0-9]+){2,}")
+PLAIN_NUMBER_HINT = "type a plain number: a point for decimals and no thousands separators (1200, 1.2)"
+
+
+def ambiguous_number_text(text: str) -> str | None:
+    """Why number-like text cannot be read without guessing the separators, or None when it can.
+
+    >>> ambiguous_number_text("1.200")
+    "'1.200' is ambiguous: 1.2 with a decimal point, or 1200 with a thousands point"
+    >>> ambiguous_number_text("1,5")
+    "'1,5' is ambiguous: 1.5 with a decimal comma, or 15 with a thousands comma"
+    >>> ambiguous_number_text("12.5") is None, ambiguous_number_text("0.500") is None
+    (True, True)
+    """
+    text = text.strip()
+    if AMBIGUOUS_POINT.fullmatch(text):
+        return (f"'{text}' is ambiguous: {_plain(float(text))} with a decimal point, or "
+                f"{_plain(float(text.replace('.', '')))} with a thousands point")
+    if NUMBER_WITH_COMMA.fullmatch(text):
+        if text.count(",") == 1 and "." not in text:
+            return (f"'{text}' is ambiguous: {_plain(float(text.replace(',', '.')))} with a decimal comma, or "
+                    f"{_plain(float(text.replace(',', '')))} with a thousands comma")
+        return f"'{text}' is ambiguous: its commas and points may separate decimals or thousands"
+    if NUMBER_WITH_POINTS.fullmatch(text):
+        return f"'{text}' has thousands points; lanesolve does not guess separators"
+    return None
+
+
+def _plain(number: float) -> str:
+    return str(int(number)) if number.is_integer() else repr(number)
+
+
+def number_from_text(text: str) -> float:
+    """A number typed as text, as Python reads it; ValueError (saying why) for text that is not one or is ambiguous.
+
+    >>> number_from_text(" 12.5 ")
+    12.5
+    >>> number_from_text("1,200")
+    Traceback (most recent call last):
+    ...
+    ValueError: '1,200' is ambiguous: 1.2 with a decimal comma, or 1200 with a thousands comma
+    """
+    why = ambiguous_number_text(text)
+    if why is not None:
+        raise ValueError(why)
+    return float(text.strip())
+
+
+def magnitude_problem(number: float) -> str | None:
+    """Why a finite number is outside what lanesolve accepts (:data:`MAX_MAGNITUDE`, :data:`MIN_MAGNITUDE`), or None.
+
+    >>> magnitude_problem(2e12), magnitude_problem(0.0), magnitude_problem(-3.5)
+    ('its size is beyond 1e+12, the most lanesolve accepts', None, None)
+    """
+    size = abs(number)
+    if size > MAX_MAGNITUDE:
+        return f"its size is beyond {MAX_MAGNITUDE:.0e}, the most lanesolve accepts"
+    if 0 < size < MIN_MAGNITUDE:
+        return f"it is nearer zero than {MIN_MAGNITUDE:.0e}, the least non-zero size lanesolve accepts"
+    return None
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# setting values (the Settings sheet and Scenarios rows on Settings share these rules)
+
+
+def show_cell(value) -> str:
+    """A cell value as a planner would recognise it in a message.
+
+    >>> show_cell(3.0), show_cell("3"), show_cell(True), show_cell(float("nan"))
+    ('3', "'3'", 'TRUE', 'NaN')
+    """
+    if isinstance(value, float) and math.isfinite(value) and value.is_integer():
+        return str(int(value))
+    if isinstance(value, float) and math.isnan(value):
+        return "NaN"
+    if isinstance(value, str):
+        return f"'{value}'"
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, _dt.datetime):
+        return value.isoformat(sep=" ")
+    if isinstance(value, _dt.date):
+        return value.isoformat()
+    return str(value)
+
+
+def _blank_cell(cell) -> bool:
+    return cell is None or (isinstance(cell, str) and not cell.strip())
+
+
+def setting_value(setting: Setting, cell) -> tuple[object, tuple[str, str] | None]:
+    """The value a cell gives a setting, or the problem with it as ``(message, hint)``.
+
+    A blank cell gives the setting's default. Number settings take numbers or number text (not ambiguous text,
+    see :func:`ambiguous_number_text`), finite, at least the setting's minimum and within the magnitudes of
+    :func:`magnitude_problem`; yes/no and choice settings take their words in any case.
+
+    >>> setting_value(setting_by_name("solver"), "HiGHS")
+    ('highs', None)
+    >>> setting_value(setting_by_name("solver"), "gurobi")[1][0]
+    "'gurobi' is not one of cbc, highs for setting 'solver'"
+    """
+    if _blank_cell(cell):
+        return setting.default, None
+    if setting.kind in (FLAG, CHOICE):
+        word = (("yes" if cell else "no") if isinstance(cell, bool) else
+                str(int(cell)) if isinstance(cell, float) and cell.is_integer() else str(cell).strip()).lower()
+        if setting.kind == FLAG and (word in YES or word in NO):
+            return word in YES, None
+        if setting.kind == CHOICE and word in setting.choices:
+            return word, None
+        allowed = "yes or no" if setting.kind == FLAG else "one of " + ", ".join(setting.choices)
+        return None, (f"{show_cell(cell)} is not {allowed} for setting '{setting.name}'",
+                      f"write {allowed}, or leave it blank for the default")
+    if setting.kind == TEXT:
+        if isinstance(cell, float) and cell.is_integer():
+            return str(int(cell)), None
+        return (show_cell(cell).strip("'") if not isinstance(cell, str) else cell.strip()), None
+    needs = f"setting '{setting.name}' needs a number{' (' + setting.unit + ')' if setting.unit else ''}"
+    if isinstance(cell, bool) or isinstance(cell, (_dt.date, _dt.datetime, _dt.time, _dt.timedelta)):
+        return None, (f"{show_cell(cell)} is not a number; {needs}", "enter a number in the cell")
+    try:
+        number = number_from_text(cell) if isinstance(cell, str) else float(cell)
+    except (TypeError, ValueError):
+        why = ambiguous_number_text(cell) if isinstance(cell, str) else None
+        return None, (f"{why}; {needs}" if why else f"{show_cell(cell)} is not a number; {needs}",
+                      PLAIN_NUMBER_HINT if why else
+                      "enter a number with a point for decimals, or leave it blank for the default")
+    if not math.isfinite(number):
+        return None, (f"{show_cell(cell)} is not a finite number",
+                      f"enter an ordinary number for '{setting.name}', or leave it blank for the default")
+    if setting.minimum is not None and number < setting.minimum:
+        low = "is negative" if number < 0 else "is too small"  # circuity_factor's minimum is 1, not 0
+        return None, (f"{show_cell(cell)} {low}; '{setting.name}' must be {show_cell(float(setting.minimum))} or more",
+                      "enter 0 or a positive number" if setting.minimum == 0 else
+                      f"enter {show_cell(float(setting.minimum))} or more")
+    size = magnitude_problem(number)
+    if size is not None:
+        return None, (f"{show_cell(cell)}: {size}", f"enter '{setting.name}' between {MIN_MAGNITUDE:.0e} and "
+                      f"{MAX_MAGNITUDE:.0e} in size, or 0")
+    return number, None

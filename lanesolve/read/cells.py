@@ -20,7 +20,6 @@ if TYPE_CHECKING:
 #: Columns where a blank cell means "no limit".
 BLANK_MEANS_NO_LIMIT = frozenset({"capacity"})
 DATE_TYPES = (_dt.date, _dt.datetime, _dt.time, _dt.timedelta)
-_THOUSANDS = re.compile(r"[+-]?\d{1,3}(,\d{3})+(\.\d*)?")
 _NAN_TEXT = re.compile(r"[+-]?nan", re.IGNORECASE)
 
 
@@ -31,12 +30,24 @@ def type_masks(values: pd.Series) -> dict[str, pd.Series]:
     stripped = pd.Series("", index=values.index, dtype=object)
     if is_str.any():
         stripped[is_str] = values[is_str].str.strip()
-    blank = values.isna() | (is_str & (stripped == ""))
+    numeric = types.isin([float, int, np.float64, np.float32, np.int64, np.int32])
+    # None is an empty cell; a float NaN (from a lanes file, or a hand-built sheet) is a value, named "NaN" in
+    # messages, never read as blank.
+    blank = (values.isna() & ~numeric) | (is_str & (stripped == ""))
     is_bool = types.isin([bool, np.bool_])
-    is_number = types.isin([float, int, np.float64, np.float32, np.int64, np.int32]) & ~blank
+    is_number = numeric & ~blank
     is_date = types.isin([_dt.date, _dt.datetime, _dt.time, _dt.timedelta, pd.Timestamp, pd.Timedelta])
     return {"str": is_str, "bool": is_bool, "number": is_number, "date": is_date, "blank": blank,
             "stripped": stripped}
+
+
+def nfc(text: pd.Series) -> pd.Series:
+    """Text in Unicode normal form C, so ids that differ only in how an accent is encoded (``"é"`` as one code point
+    or as ``"e"`` + combining accent) are the same id, as they look the same in every cell (Unicode Standard Annex
+    #15). ASCII text, by far the most common, is left as it is without a per-cell call."""
+    if len(text) == 0 or "".join(text.tolist()).isascii():
+        return text
+    return text.str.normalize("NFC")
 
 
 def number_text(numbers: pd.Series) -> pd.Series:
@@ -88,9 +99,13 @@ class ColumnParser:
 
     def _id(self, raw, masks, invalid):
         values = pd.Series("", index=raw.index, dtype=object)
-        values[masks["str"]] = masks["stripped"][masks["str"]]
+        values[masks["str"]] = nfc(masks["stripped"][masks["str"]])
         if masks["number"].any():
             values[masks["number"]] = number_text(raw[masks["number"]])
+        too_long = (masks["str"] & (values.str.len() > contract.MAX_ID_LENGTH)).to_numpy()
+        self.report(too_long, raw, lambda v: f"the id is {len(v.strip()):,} characters long; a spreadsheet cell "
+                    f"holds at most {contract.MAX_ID_LENGTH:,}", "use a short id", value=lambda pos: None)
+        invalid |= too_long
         wrong = (masks["bool"] | masks["date"]).to_numpy()
         self.report(wrong, raw, lambda v: f"{show(v)} is a {'yes/no' if isinstance(v, bool) else 'date'} value, "
                     f"not an id", "write the id as text")
@@ -107,35 +122,32 @@ class ColumnParser:
         numbers = pd.Series(np.nan, index=raw.index, dtype=float)
         numbers[masks["number"]] = raw[masks["number"]].astype(float)
 
-        # Text cells: plain numeric text, strict thousands grouping, NaN/inf spelled out, or not a number at all.
+        # Text cells: plain numeric text, NaN/inf spelled out, text whose separators are ambiguous, or not a number.
         text_cells = (masks["str"] & ~masks["blank"]).to_numpy()
         plain = np.zeros(len(raw), dtype=bool)
-        grouped = np.zeros(len(raw), dtype=bool)
+        ambiguous = np.zeros(len(raw), dtype=bool)
         if text_cells.any():
             text = masks["stripped"][text_cells]
+            unsure = (text.str.fullmatch(contract.AMBIGUOUS_POINT) | text.str.fullmatch(contract.NUMBER_WITH_COMMA)
+                      | text.str.fullmatch(contract.NUMBER_WITH_POINTS)).to_numpy()
             parsed = pd.to_numeric(text, errors="coerce").astype(float)
+            parsed[unsure] = np.nan  # "1.200" parses as 1.2, but in many locales it means 1200: never guess
             spelled_nan = text.str.fullmatch(_NAN_TEXT).to_numpy()
-            with_groups = (parsed.isna().to_numpy() & ~spelled_nan & text.str.fullmatch(_THOUSANDS).to_numpy())
-            if with_groups.any():
-                parsed[with_groups] = pd.to_numeric(text[with_groups].str.replace(",", "", regex=False),
-                                                    errors="coerce")
             numbers[text_cells] = parsed.to_numpy()
-            plain[text_cells] = (parsed.notna().to_numpy() | spelled_nan) & ~with_groups
-            grouped[text_cells] = with_groups
-        not_number = text_cells & ~plain & ~grouped
+            plain[text_cells] = (parsed.notna().to_numpy() | spelled_nan) & ~unsure
+            ambiguous[text_cells] = unsure
+        self.report(ambiguous, raw, lambda v: contract.ambiguous_number_text(v), contract.PLAIN_NUMBER_HINT)
+        not_number = text_cells & ~plain & ~ambiguous
         comma = not_number & masks["stripped"].str.contains(",", regex=False).to_numpy()
-        self.report(comma, raw, lambda v: f"{show(v)} is not a number",
-                    "use a point as the decimal separator and no thousands separators (12.5, 1200)")
+        self.report(comma, raw, lambda v: f"{show(v)} is not a number", contract.PLAIN_NUMBER_HINT)
         self.report(not_number & ~comma, raw, lambda v: f"{show(v)} is not a number",
                     f"enter a number{unit}, without units or other text")
+        not_number |= ambiguous
         array = numbers.to_numpy()
         finite = np.isfinite(array)
         self.report(plain & finite, raw, lambda v: f"{show(v)} is a number stored as text; read as "
                     f"{show(float(v.strip()))}", "format the cell as a number to silence this warning",
                     severity="warning")
-        self.report(grouped & finite, raw, lambda v: f"{show(v)} is a number stored as text with thousands "
-                    f"separators; read as {show(float(v.strip().replace(',', '')))}",
-                    "type the number without separators, in a cell formatted as a number", severity="warning")
 
         kinds = masks["bool"].to_numpy(), masks["date"].to_numpy()
         self.report(kinds[0], raw, lambda v: f"{show(v)} is a yes/no value, not a number",
@@ -153,6 +165,15 @@ class ColumnParser:
                     "enter an ordinary number; leave the cell blank where blank means no limit or the default")
         invalid |= non_finite
         read &= ~non_finite
+        with np.errstate(invalid="ignore"):
+            size = np.abs(array)
+            extreme = read & ((size > contract.MAX_MAGNITUDE) | ((size > 0) & (size < contract.MIN_MAGNITUDE)))
+        self.report(extreme, raw, lambda v: f"{show(as_number(v))}: {contract.magnitude_problem(as_number(v))}",
+                    f"enter {col.name} between {contract.MIN_MAGNITUDE:.0e} and {contract.MAX_MAGNITUDE:.0e} in "
+                    f"size, or 0; change the unit (thousands of units, cents to currency) if the numbers need it",
+                    value=lambda pos: float(array[pos]))
+        invalid |= extreme
+        read &= ~extreme
         with np.errstate(invalid="ignore"):
             low = read & (array < col.minimum) if col.minimum is not None else np.zeros(len(raw), dtype=bool)
             high = read & (array > col.maximum) if col.maximum is not None else np.zeros(len(raw), dtype=bool)
@@ -219,7 +240,7 @@ class ColumnParser:
 
     def _text(self, raw, masks):
         values = pd.Series("" if self.col.default is None else str(self.col.default), index=raw.index, dtype=object)
-        values[masks["str"] & ~masks["blank"]] = masks["stripped"][masks["str"] & ~masks["blank"]]
+        values[masks["str"] & ~masks["blank"]] = nfc(masks["stripped"][masks["str"] & ~masks["blank"]])
         if masks["number"].any():
             values[masks["number"]] = number_text(raw[masks["number"]])
         other = masks["bool"] | masks["date"]

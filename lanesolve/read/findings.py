@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import datetime as _dt
 import difflib
-import math
 
 import numpy as np
 
@@ -42,18 +40,8 @@ def plain(value):
 
 
 def show(value) -> str:
-    """A cell value as a planner would recognise it in a message."""
-    if isinstance(value, float) and math.isfinite(value) and value.is_integer():
-        return str(int(value))
-    if isinstance(value, str):
-        return f"'{value}'"
-    if isinstance(value, bool):
-        return "TRUE" if value else "FALSE"
-    if isinstance(value, _dt.datetime):
-        return value.isoformat(sep=" ")
-    if isinstance(value, _dt.date):
-        return value.isoformat()
-    return str(value)
+    """A cell value as a planner would recognise it in a message (:func:`lanesolve.contract.show_cell`)."""
+    return contract.show_cell(value)
 
 
 def as_number(value) -> float:
@@ -69,8 +57,7 @@ def did_you_mean(word: str, candidates: dict[str, str], cutoff: float = 0.6) -> 
 
 
 def is_blank(cell) -> bool:
-    return cell is None or (isinstance(cell, str) and not cell.strip()) or (
-        isinstance(cell, float) and math.isnan(cell))
+    return cell is None or (isinstance(cell, str) and not cell.strip())
 
 
 

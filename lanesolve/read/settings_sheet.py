@@ -2,12 +2,8 @@
 
 from __future__ import annotations
 
-import math
-
 from lanesolve import contract
-from lanesolve.contract import CHOICE, FLAG, TEXT
 from lanesolve.model.network import Settings
-from lanesolve.read.cells import DATE_TYPES
 from lanesolve.read.findings import ERROR_VALUE_HINT, FORMULA_HINT, Findings, did_you_mean, header_text, is_blank, show
 from lanesolve.read.reader import RawSheet
 from lanesolve.read.sheets import match_headers
@@ -49,6 +45,15 @@ def read_settings(sheet: RawSheet | None, found: Findings) -> Settings:
         try:
             setting = contract.setting_by_name(written)
         except KeyError:
+            alike = max(contract.SETTINGS_ROWS, key=lambda s: contract.resemblance(written, s.name))
+            if contract.resemblance(written, alike.name) > 0:
+                # Ignoring it would silently leave the setting at its default (a misspelt unmet_penalty makes
+                # every demand hard), so it is an error like a look-alike header.
+                found.add(sheet.name, row, headers["setting"], name_cell,
+                          f"setting {show(written)} is not one lanesolve knows, but it looks like '{alike.name}'; "
+                          f"as written it would be ignored",
+                          f"rename it to '{alike.name}'; units belong in the rows units and currency")
+                continue
             near = did_you_mean(written, known)
             found.add(sheet.name, row, headers["setting"], name_cell, f"unknown setting {show(written)} is ignored",
                       f"did you mean '{near}'?" if near else
@@ -72,44 +77,10 @@ _INVALID = object()
 
 
 def setting_value(setting: contract.Setting, cell, sheet_name, row, column, found: Findings):
-    if is_blank(cell):
-        return setting.default
-    if setting.kind in (FLAG, CHOICE):
-        word = (header_text(cell) if not isinstance(cell, bool) else ("yes" if cell else "no")).lower()
-        if setting.kind == FLAG and (word in contract.YES or word in contract.NO):
-            return word in contract.YES
-        if setting.kind == CHOICE and word in setting.choices:
-            return word
-        allowed = "yes or no" if setting.kind == FLAG else "one of " + ", ".join(setting.choices)
-        found.add(sheet_name, row, column, cell, f"{show(cell)} is not {allowed} for setting '{setting.name}'",
-                  f"write {allowed}, or leave it blank for the default")
-        return _INVALID
-    if setting.kind == TEXT:
-        if isinstance(cell, float) and cell.is_integer():
-            return str(int(cell))
-        return show(cell).strip("'") if not isinstance(cell, str) else cell.strip()
-    # A number setting. The value column holds text and numbers alike, so text that parses is accepted quietly.
-    if isinstance(cell, bool) or isinstance(cell, DATE_TYPES):
-        found.add(sheet_name, row, column, cell, f"{show(cell)} is not a number; setting '{setting.name}' "
-                  f"needs a number{' (' + setting.unit + ')' if setting.unit else ''}", "enter a number in the cell")
-        return _INVALID
-    try:
-        number = float(cell.strip() if isinstance(cell, str) else cell)
-    except (TypeError, ValueError):
-        found.add(sheet_name, row, column, cell, f"{show(cell)} is not a number; setting '{setting.name}' "
-                  f"needs a number{' (' + setting.unit + ')' if setting.unit else ''}",
-                  "enter a number with a point for decimals, or leave it blank for the default")
-        return _INVALID
-    if not math.isfinite(number):
-        found.add(sheet_name, row, column, cell, f"{show(cell)} is not a finite number",
-                  f"enter an ordinary number for '{setting.name}', or leave it blank for the default")
-        return _INVALID
-    if setting.minimum is not None and number < setting.minimum:
-        low = "is negative" if number < 0 else "is too small"  # circuity_factor's minimum is 1, not 0
-        found.add(sheet_name, row, column, cell, f"{show(cell)} {low}; '{setting.name}' must be "
-                  f"{show(float(setting.minimum))} or more",
-                  "enter 0 or a positive number" if setting.minimum == 0 else
-                  f"enter {show(float(setting.minimum))} or more")
-        return _INVALID
-    return number
-
+    """The setting's value from its cell (:func:`lanesolve.contract.setting_value`), or ``_INVALID`` after reporting
+    the problem at the cell."""
+    value, problem = contract.setting_value(setting, cell)
+    if problem is None:
+        return value
+    found.add(sheet_name, row, column, cell, *problem)
+    return _INVALID
