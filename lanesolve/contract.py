@@ -182,6 +182,10 @@ SETTINGS = Sheet(
     ),
 )
 
+#: Why a scenario cannot change the settings that turn distances into lane costs.
+_COSTS_READ_ONCE = ("lane costs from distance are worked out once, when the workbook is read; change the Lanes "
+                    "column cost_per_unit instead (match * to scale every lane)")
+
 SETTINGS_ROWS = (
     Setting("unmet_penalty", NUMBER, None, minimum=0, unit="currency per unit",
             doc="Default cost per unit of demand not delivered, for customers whose own penalty is blank. Blank "
@@ -196,26 +200,34 @@ SETTINGS_ROWS = (
             doc="Most hubs the plan may use (status open or decide). Blank means no limit."),
     Setting("single_source", FLAG, False,
             doc="yes or no (default no): whether customers whose own single_source is blank are served by exactly "
-                "one inbound lane."),
+                "one inbound lane.",
+            fixed_for_scenarios="each customer whose single_source is blank takes this setting when the workbook is "
+                                "read; change the Customers column single_source instead"),
     Setting("solver", CHOICE, "cbc", choices=("cbc", "highs"),
             doc="cbc (default, bundled with PuLP) or highs (needs the optional highspy package: "
                 "pip install \"lanesolve[highs]\"). The command line option --solver overrides it."),
     Setting("rate_per_distance", NUMBER, None, minimum=0, unit="currency per unit per distance unit",
             doc="Transport rate used for lanes whose cost_per_unit is blank: cost = rate x distance. Blank means "
-                "every lane needs its cost_per_unit."),
+                "every lane needs its cost_per_unit.",
+            fixed_for_scenarios=_COSTS_READ_ONCE),
     Setting("distance_unit", CHOICE, "km", choices=("km", "mi"),
             doc="km (default) or mi (international mile, 1.609344 km): the unit of the Lanes distance column and "
-                "of rate_per_distance."),
+                "of rate_per_distance.",
+            fixed_for_scenarios=_COSTS_READ_ONCE),
     Setting("circuity_factor", NUMBER, 1.2, minimum=1, unit="ratio",
             doc="Road distance over great-circle distance, applied only to distances computed from coordinates, "
                 "never to a distance typed in. Default 1.2: around 1.2 is common practice (a value recalled from "
-                "memory); measure it on your own lanes when you can."),
+                "memory); measure it on your own lanes when you can.",
+            fixed_for_scenarios=_COSTS_READ_ONCE),
     Setting("lanes_file", TEXT, None,
             doc="A CSV (.csv) or Parquet (.parquet) file with the Lanes columns, read in addition to the Lanes "
                 "sheet (which may then be empty or absent). The path is relative to the workbook's folder. "
-                "Parquet needs pyarrow: pip install \"lanesolve[parquet]\"."),
-    Setting("units", TEXT, "units", doc="Label for quantities in the results (pallets, tonnes, cases)."),
-    Setting("currency", TEXT, "", doc="Label for money in the results (EUR, USD)."),
+                "Parquet needs pyarrow: pip install \"lanesolve[parquet]\".",
+            fixed_for_scenarios="the lanes are read once, with the workbook; change rows of Lanes instead"),
+    Setting("units", TEXT, "units", doc="Label for quantities in the results (pallets, tonnes, cases).",
+            fixed_for_scenarios="every scenario is compared in the workbook's own units"),
+    Setting("currency", TEXT, "", doc="Label for money in the results (EUR, USD).",
+            fixed_for_scenarios="every scenario is compared in the workbook's own currency"),
 )
 
 INPUT_SHEETS = (DEPOTS, CUSTOMERS, HUBS, LANES, SETTINGS)

@@ -114,7 +114,8 @@ def test_settings_rows_name_a_known_setting():
                                 ["s", "Settings", "time_limt_s", "value", "set", 5],
                                 ["s", "Settings", "units", "value", "add", 1])
     assert scenarios[0].changes[0].match == "time_limit_s" and scenarios[0].changes[0].column == "value"
-    assert [(p.row, p.column) for p in problems] == [(3, "match"), (4, "change")]
+    assert [(p.row, p.column) for p in problems] == [(3, "match"), (4, "match")]
+    assert "a scenario cannot change setting 'units'" in problems[1].message
     assert "did you mean 'time_limit_s'?" in problems[0].hint
 
 

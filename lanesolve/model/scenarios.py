@@ -86,19 +86,19 @@ class Scenario:
 
 
 def _blank(value: object) -> bool:
-    return value is None or (isinstance(value, str) and not value.strip()) or (
-        isinstance(value, float) and math.isnan(value))
+    return value is None or (isinstance(value, str) and not value.strip())
 
 
 def _number(value: object) -> float | None:
-    """The value as a float, or None when it is not a number (bools are not numbers here)."""
+    """The value as a float, or None when it is not a number (bools are not numbers here, nor text whose
+    separators are ambiguous, see :func:`lanesolve.contract.ambiguous_number_text`)."""
     if isinstance(value, bool):
         return None
     if isinstance(value, (int, float)):
         return float(value)
     if isinstance(value, str):
         try:
-            return float(value.strip())
+            return contract.number_from_text(value)
         except ValueError:
             return None
     return None
@@ -113,13 +113,17 @@ def _problem(row: int | None, column: str | None, value: object, message: str, h
     return Problem(SHEET, row, column, value, message, hint)
 
 
-def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
+def parse_scenarios(rows: list[list], percent_cells=frozenset()) -> tuple[list[Scenario], list[Problem]]:
     """Read the Scenarios sheet.
 
     Parameters
     ----------
     rows : list of list
         Cell values of the sheet; ``rows[0]`` is spreadsheet row 1 with the headers.
+    percent_cells : set of (row, column)
+        1-based positions of cells shown with a percent number format (the reader's
+        :attr:`~lanesolve.read.reader.RawSheet.percent_cells`). A ``scale`` or ``add`` value in such a cell is
+        refused: ``10%`` is stored as 0.1, and whether the planner meant "times 0.1" or "10 % more" cannot be told.
 
     Returns
     -------
@@ -127,7 +131,9 @@ def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
         In order of first appearance; only rows without problems are included.
     problems : list of Problem
         Every problem found (sheet "Scenarios", with row and column): missing columns, unknown sheet, column,
-        setting or change, a non-numeric value for scale/add, a blank or reserved scenario name.
+        setting or change, a non-numeric value for scale/add, a percent-formatted scale/add value, number text
+        with ambiguous separators, a number beyond the magnitudes lanesolve accepts, a blank or reserved scenario
+        name; on Settings, a setting a scenario cannot change or a value the Settings sheet would refuse.
 
     Examples
     --------
@@ -158,7 +164,8 @@ def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
         cell = {h: (cells[position[h]] if position[h] < len(cells) else None) for h in HEADERS}
         if all(_blank(v) for v in cell.values()):
             continue
-        change, row_problems = _parse_row(cell, index)
+        percent = (index, position["value"] + 1) in percent_cells
+        change, row_problems = _parse_row(cell, index, percent)
         problems.extend(row_problems)
         if change is None:
             continue
@@ -167,7 +174,7 @@ def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
     return list(scenarios.values()), problems
 
 
-def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
+def _parse_row(cell: dict, row: int, percent: bool = False) -> tuple[Change | None, list[Problem]]:
     problems: list[Problem] = []
     name = "" if _blank(cell["scenario"]) else str(cell["scenario"]).strip()
     if not name:
@@ -195,9 +202,30 @@ def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
 
     value = cell["value"]
     number = _number(value)
-    if change in ("scale", "add") and (number is None or not math.isfinite(number)):
-        problems.append(_problem(row, "value", value, f"'{change}' needs a number, not '{value}'",
+    why = contract.ambiguous_number_text(value) if isinstance(value, str) else None
+    if why is not None:
+        problems.append(_problem(row, "value", value, why, contract.PLAIN_NUMBER_HINT))
+    elif change in ("scale", "add") and (number is None or not math.isfinite(number)):
+        problems.append(_problem(row, "value", value, f"'{change}' needs a number, not {contract.show_cell(value)}",
                                  "write a number such as 1.2 (scale) or -50 (add)"))
+    elif number is not None and not math.isfinite(number):
+        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)} is not a finite number",
+                                 "write an ordinary number, or leave the value blank"))
+    elif number is not None and contract.magnitude_problem(number):
+        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)}: "
+                                 f"{contract.magnitude_problem(number)}", "write a smaller number"))
+    elif percent and change == "scale":
+        problems.append(_problem(
+            row, "value", value, f"the value {number * 100:g}% is in a percent-formatted cell, so it is stored as "
+            f"{number:g}; for scale that is ambiguous: times {number:g}, or {number * 100:g} % more?",
+            f"type a plain factor in a cell formatted as a number: {1 + number:g} for {number * 100:g} % more, "
+            f"{1 - number:g} for {number * 100:g} % less, {number:g} to multiply by {number:g}"))
+    elif percent and change == "add":
+        problems.append(_problem(
+            row, "value", value, f"the value {number * 100:g}% is in a percent-formatted cell, so it is stored as "
+            f"{number:g}; for add that is ambiguous: {number:g} more, or {number * 100:g} % more?",
+            "type the amount to add in the column's own unit in a cell formatted as a number; to change by a "
+            "percentage use scale with a factor such as 1.1"))
 
     if sheet is contract.SETTINGS:
         column = "value" if _blank(cell["column"]) else contract.normalize(cell["column"])
@@ -212,10 +240,22 @@ def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
                                          _suggest(contract.normalize(match), [s.name for s in contract.SETTINGS_ROWS])))
             else:
                 match = setting.name
-                if change in ("scale", "add") and setting.kind != contract.NUMBER:
+                if setting.fixed_for_scenarios:
+                    problems.append(_problem(row, "match", cell["match"],
+                                             f"a scenario cannot change setting '{setting.name}': "
+                                             f"{setting.fixed_for_scenarios}", "delete the row"))
+                elif change in ("scale", "add") and setting.kind != contract.NUMBER:
                     problems.append(_problem(row, "change", cell["change"],
                                              f"setting {setting.name} is text; it can only be set",
                                              "use change set"))
+                elif change == "set" and why is None:
+                    # The same rules as the Settings sheet, so check finds what solve would trip over.
+                    checked, problem = contract.setting_value(setting, value)
+                    if problem is not None:
+                        problems.append(_problem(row, "value", value, *problem))
+                    else:
+                        value = checked
+                        number = checked if setting.kind == contract.NUMBER else None
     else:
         column = contract.normalize(cell["column"])
         names = [c.name for c in sheet.columns]
@@ -341,6 +381,8 @@ def _check_values(new: pd.Series, column: contract.Column) -> pd.Series:
         bad |= new < column.minimum
     if column.maximum is not None:
         bad |= new > column.maximum
+    size = new.abs()
+    bad |= size.lt(math.inf) & ((size > contract.MAX_MAGNITUDE) | ((size > 0) & (size < contract.MIN_MAGNITUDE)))
     return bad
 
 
@@ -450,7 +492,8 @@ def _apply_setting(network: Network, change: Change) -> list[Problem]:
         new = None  # a blank default penalty (hard demand) stays blank under scale and add
     else:
         new = old * float(change.value) if change.change == "scale" else old + float(change.value)
-    if new is not None and (not math.isfinite(new) or (setting.minimum is not None and new < setting.minimum)):
+    if new is not None and (not math.isfinite(new) or (setting.minimum is not None and new < setting.minimum)
+                            or contract.magnitude_problem(new)):
         return [_problem(change.row, "value", change.value,
                          f"{change.change} {change.value} makes setting {setting.name} {new:g}, which is not allowed",
                          f"{setting.name} must be a number" + (f" >= {setting.minimum:g}"
