@@ -228,10 +228,14 @@ def _size_problem(name: str, rows: int, columns: int) -> Problem | None:
     """A problem naming the sheet when it reaches beyond the bounds, else None."""
     if rows <= MAX_ROWS and columns <= MAX_COLUMNS and rows * columns <= MAX_CELLS:
         return None
+    reach = [f"reaches row {rows:,}"] if rows > MAX_ROWS else []
+    if columns > MAX_COLUMNS:
+        reach.append(f"reaches column {sheet_xml.column_letters(columns)} ({columns:,} columns)")
+    if not reach:
+        reach.append(f"spans {rows:,} rows by {columns} columns ({rows * columns:,} cells)")
     return Problem(name, None, None, None,
-                   f"the sheet reaches row {rows:,} and column {sheet_xml.column_letters(columns)} ({columns:,} "
-                   f"columns); lanesolve reads at most {MAX_ROWS:,} rows, {MAX_COLUMNS} columns and {MAX_CELLS:,} "
-                   f"cells (rows x columns) in a sheet it needs",
+                   f"the sheet {' and '.join(reach)}; lanesolve reads at most {MAX_ROWS:,} rows, {MAX_COLUMNS} "
+                   f"columns and {MAX_CELLS:,} cells (rows x columns) in a sheet it needs",
                    "a cell far below or to the right of the table holds something (often only formatting): select "
                    "the empty rows and columns after the data, delete them and save; or move notes to another sheet")
 

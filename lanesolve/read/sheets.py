@@ -168,9 +168,17 @@ def match_headers(spec: Sheet, sheet: RawSheet, found: Findings
     for index, cell in enumerate(header_row):
         if not contract.normalize(cell) or contract.normalize(cell) in known:
             continue
+        text, cell_ref = header_text(cell), f"{column_letters(index + 1)}1"
+        twin = next((name for name in index_of if contract.header_key(cell) == name), None)
+        if twin is not None:  # "Capacity (pallets)" beside "capacity": a second copy, not a lacking column
+            found.add(sheet.name, 1, text, text,
+                      f"header {show(text)} in cell {cell_ref} looks like '{twin}', which is read from cell "
+                      f"{column_letters(index_of[twin] + 1)}1; this column is ignored",
+                      "delete one of the two columns, or rename this one to something unlike any lanesolve column",
+                      severity="warning")
+            continue
         score, col = max(((contract.resemblance(cell, c.name), c) for c in lacking), key=lambda pair: pair[0],
                          default=(0.0, None))
-        text, cell_ref = header_text(cell), f"{column_letters(index + 1)}1"
         if col is not None and score > 0:
             resembled.add(col.name)
             units = "; units belong in the Settings rows units and currency, not in headers" \
@@ -181,14 +189,6 @@ def match_headers(spec: Sheet, sheet: RawSheet, found: Findings
                       f"as written it would be ignored",
                       f"rename the header to '{col.name}'{units}; or, if it holds something else, give it a name "
                       f"unlike any lanesolve column")
-            continue
-        twin = next((name for name in index_of if contract.header_key(cell) == name), None)
-        if twin is not None:
-            found.add(sheet.name, 1, text, text,
-                      f"header {show(text)} in cell {cell_ref} looks like '{twin}', which is read from cell "
-                      f"{column_letters(index_of[twin] + 1)}1; this column is ignored",
-                      "delete one of the two columns, or rename this one to something unlike any lanesolve column",
-                      severity="warning")
     for col in lacking:
         if col.name in resembled:
             complete = complete and not col.required
