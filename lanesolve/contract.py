@@ -73,7 +73,7 @@ NODE_STATUSES = ("open", "closed", "decide")
 
 
 def _node_design(kind: str) -> tuple[Column, ...]:
-    """The v2 design columns shared by Depots and Hubs: a fixed charge for using the node and its status."""
+    """The design columns shared by Depots and Hubs: a fixed charge for using the node and its status."""
     return (
         Column("fixed_cost", NUMBER, default=0.0, minimum=0, unit="currency",
                doc=f"Charged once if the {kind} carries any flow in the period (rent, staff). With status decide, "

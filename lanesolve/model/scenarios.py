@@ -36,7 +36,7 @@ from lanesolve.errors import Problem
 from lanesolve.model.network import Network
 from lanesolve.model.result import Result
 
-SHEET = "Scenarios"
+SHEET = contract.SCENARIOS_SHEET
 HEADERS = ("scenario", "sheet", "match", "column", "change", "value")
 CHANGES = ("set", "scale", "add")
 BASELINE = "baseline"

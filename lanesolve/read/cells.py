@@ -205,7 +205,7 @@ class ColumnParser:
         if numbers_as_words is not None:
             words[masks["number"]] = numbers_as_words
         if col.default is None:
-            # Contract v2 flags whose blank takes a Settings default (single_source): blank stays None here.
+            # Flags whose blank takes a Settings default (single_source): blank stays None here.
             values = pd.Series(None, index=raw.index, dtype=object)
         else:
             values = pd.Series(bool(col.default), index=raw.index, dtype=bool)
@@ -221,7 +221,7 @@ class ColumnParser:
         return values
 
     def _choice(self, raw, masks, invalid):
-        """A contract v2 choice column (``status``): one of ``col.choices``, any case; blank stays ``""``."""
+        """A choice column (``status``): one of ``col.choices``, any case; blank stays ``""``."""
         col = self.col
         words = masks["stripped"].str.lower()
         values = pd.Series("", index=raw.index, dtype=object)

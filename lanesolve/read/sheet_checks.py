@@ -115,7 +115,7 @@ def check_lanes(lanes: Table, node_ids: set[str] | None, found: Findings) -> Non
 
 
 def check_lane_design(lanes: Table, found: Findings) -> None:
-    """Contract v2 lane columns that only make sense together: min_volume within capacity, whole trips of a
+    """Lane columns that only make sense together: min_volume within capacity, whole trips of a
     positive size, and a cost per trip only with a trip capacity."""
     if lanes.sheet_name is None or len(lanes) == 0:
         return

@@ -4,16 +4,20 @@ Every problem in the workbook is collected in one pass and reported together (no
 decides how many to print). Each :class:`~lanesolve.errors.Problem` names the sheet, the spreadsheet row, the column
 as written in the workbook, the offending value, and a hint.
 
-Reading rules (workbook contract v1, see :mod:`lanesolve.contract`):
+Reading rules (see :mod:`lanesolve.contract`):
 
-- Sheet names and headers match ignoring case and surrounding spaces, with a space counting as an underscore.
-  Headers are in row 1; columns the contract does not know are ignored.
+- Sheet names and headers match ignoring case and surrounding spaces, with a space or hyphen counting as an
+  underscore. Headers are in row 1; columns the contract does not know are ignored -- unless they look like a
+  contract column the sheet lacks (units in brackets, punctuation, a synonym, a misspelling): such a header is an
+  error at its cell, because ignoring it would silently put the column's default in place of what was typed
+  (:func:`lanesolve.read.sheets.match_headers`). Two sheets meaning one contract sheet are an error.
 - A row is skipped when every contract column in it is blank (whatever notes it carries in other columns).
-- Ids are trimmed text; a number id is written without a trailing ``.0`` (101 -> ``"101"``).
-- A number stored as text that parses cleanly (``" 12.5"``, ``"1e3"``) is accepted with a warning. So is a number
-  with comma thousands separators in strict groups of three (``"1,200"``, ``"12,345.5"``): in a workbook that
-  uses points for decimals this is unambiguous. Any other comma (``"1,5"``, ``"12,34"``) is an error, because it may
-  be a decimal comma and guessing would silently change the value by a factor of 1000.
+- Ids are trimmed text in Unicode NFC; a number id is written without a trailing ``.0`` (101 -> ``"101"``).
+- A number stored as text that can be read only one way (``" 12.5"``, ``"1e3"``) is accepted with a warning. Text
+  whose separators can be read two ways (``"1.200"``, ``"1,5"``, ``"1,200"``) is an error asking for a plain
+  number: guessing would silently change the value by a factor of 1000 or so.
+- Numbers larger than 1e12 or non-zero and nearer zero than 1e-9 in size are errors; NaN is a value (named NaN),
+  not a blank.
 - TRUE/FALSE cells and dates in number columns are errors: they are almost always a formatting accident.
 - Blank optional cells take the contract default; a blank capacity means no limit (``math.inf``); a blank customer
   ``unmet_penalty`` takes the Settings ``unmet_penalty`` when set, else NaN (demand is a hard requirement).
