@@ -225,9 +225,12 @@ def _unescape(text: str) -> str:
 
 _ROW_NUMBER = re.compile(rb'<row r="([0-9]+)"')
 _ROW_NUMBER_ANY = re.compile(rb'<(?:\w+:)?row\b[^>]*?\sr="([0-9]+)"')
-_ROW_TAG = re.compile(rb"<(?:\w+:)?row[\s>/]")
-_FAR_ROW_REF = re.compile(rb'\sr="[A-Z]*([0-9]{7,})"')  # any row number of seven or more digits
-_WIDE_REF = {width: re.compile(rb'\sr="([A-Z]{%d,})[0-9]' % width) for width in (2, 3)}
+_ROW_TAG_ANY = re.compile(rb"<(?:\w+:)?row[\s>/]")
+# A cell reference with two or more column letters or a row of seven or more digits: the only ones that can pass the
+# reader's bounds. One pass with a literal prefix finds whether any exists; only then are they all listed.
+_FAR_REF = re.compile(rb' r="(?:[A-Z]{2}|[A-Z]*[0-9]{7})')
+_FAR_REF_ANY = re.compile(rb'\sr="(?:[A-Z]{2}|[A-Z]*[0-9]{7})')
+_REF = re.compile(rb'\sr="([A-Z]+)([0-9]+)"')
 
 
 def used_extent(data: bytes) -> tuple[int, int]:
@@ -245,9 +248,14 @@ def used_extent(data: bytes) -> tuple[int, int]:
     Returns
     -------
     rows, columns : int
-        ``rows`` is the largest of: the row number on any ``<row>``, the count of ``<row>`` elements, and any cell
-        reference with a row of seven or more digits. ``columns`` is the largest column of any cell reference when
-        some have two or more letters, else 26 (column Z) -- an upper bound, which is all a size check needs.
+        ``rows`` is the largest of: the row number on any ``<row>``, the count of ``<row>`` elements, and the row
+        of any cell reference. ``columns`` is the largest column of any cell reference when some have two or more
+        letters, else 26 (column Z) -- an upper bound, which is all a size check needs.
+
+    Notes
+    -----
+    A typical sheet costs a few literal byte searches over the part: row numbers come from ``<row r="...">``, and
+    cell references are listed one by one only when some reach past column Z or row 999,999.
 
     Examples
     --------
@@ -255,19 +263,20 @@ def used_extent(data: bytes) -> tuple[int, int]:
     ...             b'</sheetData></worksheet>')
     (9, 28)
     """
-    tags = len(_ROW_TAG.findall(data))
-    numbers = _ROW_NUMBER.findall(data)
+    plain = b"<sheetData" in data and data.count(b'<c r="') == data.count(b"<c ") + data.count(b"<c>")
+    if plain:
+        tags = data.count(b"<row ") + data.count(b"<row>")
+        numbers = _ROW_NUMBER.findall(data)
+    else:  # a namespace prefix, or attributes in another order: the slower patterns
+        tags, numbers = len(_ROW_TAG_ANY.findall(data)), []
     if len(numbers) < tags:
-        numbers = _ROW_NUMBER_ANY.findall(data)  # attributes in another order, or a namespace prefix
-    rows = max(tags, max(map(int, numbers), default=0), max(map(int, _FAR_ROW_REF.findall(data)), default=0))
-    wide = None
-    for width in (3, 2):
-        if _WIDE_REF[width].search(data):
-            wide = _WIDE_REF[width].findall(data)
-            break
-    if wide:
-        return rows, max(column_number(letters.decode()) for letters in wide)
-    return rows, 26 if tags else 0
+        numbers = _ROW_NUMBER_ANY.findall(data)
+    rows = max(tags, max(map(int, numbers), default=0))
+    columns = 26 if tags else 0
+    if (_FAR_REF if plain else _FAR_REF_ANY).search(data):
+        for letters, digits in _REF.findall(data):
+            rows, columns = max(rows, int(digits)), max(columns, column_number(letters.decode()))
+    return rows, columns
 
 
 # ----------------------------------------------------------------------------------------------------------------
