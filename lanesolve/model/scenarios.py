@@ -208,23 +208,19 @@ def _parse_row(cell: dict, row: int, percent: bool = False) -> tuple[Change | No
     elif change in ("scale", "add") and (number is None or not math.isfinite(number)):
         problems.append(_problem(row, "value", value, f"'{change}' needs a number, not {contract.show_cell(value)}",
                                  "write a number such as 1.2 (scale) or -50 (add)"))
-    elif number is not None and not math.isfinite(number):
-        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)} is not a finite number",
+    elif number is not None and (not math.isfinite(number) or contract.magnitude_problem(number)):
+        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)} is not a finite number"
+                                 if not math.isfinite(number) else
+                                 f"{contract.show_cell(value)}: {contract.magnitude_problem(number)}",
                                  "write an ordinary number, or leave the value blank"))
-    elif number is not None and contract.magnitude_problem(number):
-        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)}: "
-                                 f"{contract.magnitude_problem(number)}", "write a smaller number"))
-    elif percent and change == "scale":
+    elif percent and change in ("scale", "add"):
+        meant = f"times {number:g}" if change == "scale" else f"{number:g} more"
         problems.append(_problem(
             row, "value", value, f"the value {number * 100:g}% is in a percent-formatted cell, so it is stored as "
-            f"{number:g}; for scale that is ambiguous: times {number:g}, or {number * 100:g} % more?",
+            f"{number:g}; for {change} that is ambiguous: {meant}, or {number * 100:g} % more?",
             f"type a plain factor in a cell formatted as a number: {1 + number:g} for {number * 100:g} % more, "
-            f"{1 - number:g} for {number * 100:g} % less, {number:g} to multiply by {number:g}"))
-    elif percent and change == "add":
-        problems.append(_problem(
-            row, "value", value, f"the value {number * 100:g}% is in a percent-formatted cell, so it is stored as "
-            f"{number:g}; for add that is ambiguous: {number:g} more, or {number * 100:g} % more?",
-            "type the amount to add in the column's own unit in a cell formatted as a number; to change by a "
+            f"{1 - number:g} for {number * 100:g} % less, {number:g} to multiply by {number:g}" if change == "scale"
+            else "type the amount to add in the column's own unit in a cell formatted as a number; to change by a "
             "percentage use scale with a factor such as 1.1"))
 
     if sheet is contract.SETTINGS:
