@@ -203,7 +203,7 @@ def _check_distinct(items: list[tuple[str, Path]], problems: list[str]) -> None:
         except OSError:
             pass
         clash = next((seen[key] for key in keys if key in seen), None)
-        if clash is not None and clash != label:
+        if clash is not None:
             problems.append(f"{clash} and {label} are the same file; each must be a file of its own "
                             f"(choose another name)")
         for key in keys:
@@ -319,10 +319,12 @@ def plan_batch(paths: list[str], summary_csv: str | os.PathLike, force: bool = F
     named = [(f"the batch summary {csv_target.given}", csv_target.given),
              (f"the batch summary JSON {json_target.given}", json_target.given)]
     # A workbook listed twice is the batch's own business (it is solved once); list each file once here.
-    unique = {real_path(p): Path(p) for p in reversed(paths)}
+    unique: dict[Path, Path] = {}
+    for given in paths:
+        unique.setdefault(real_path(given), Path(given))
     for given in unique.values():
         named += [(f"the workbook {given}", given),
-                  (f"the HTML summary {summary_path_for(given)}", summary_path_for(given))]
+                  (f"the HTML summary of {given} ({summary_path_for(given)})", summary_path_for(given))]
     _check_distinct(named, problems)
     _raise(problems)
     return csv_target, json_target
