@@ -28,7 +28,7 @@ import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 
-from lanesolve.errors import WriteError
+from lanesolve.errors import WorkbookError, WriteError
 from lanesolve.read.source import file_kind
 
 #: The marker the HTML summary carries in its ``<head>`` (the template writes it).
@@ -257,12 +257,17 @@ def plan_solve(path: str | os.PathLike, output: str | os.PathLike | None = None,
 
     Raises
     ------
+    WorkbookError
+        The input workbook does not exist.
     WriteError
         Listing every problem: two outputs are one file; an output is the input (with ``--output``, or the summary
         or mail); an output exists, lanesolve did not write it and ``force`` is false; an output is a folder, pipe
         or device, is read-only (the workbook itself too, when results go back into it), or its folder is missing.
     """
     source = Path(path)
+    if not os.path.lexists(source):
+        # The reader's words, before any complaint about where results would go.
+        raise WorkbookError(f"{source}: no such file (check the name and folder)")
     problems: list[str] = []
     into_source = output is None
     workbook = _target("the workbook" if into_source else "the output workbook",
