@@ -158,8 +158,8 @@ FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 def csv_safe(text: str) -> str:
     """``text`` with a single quote in front when a spreadsheet program would run it as a formula.
 
-    >>> csv_safe("=HYPERLINK(\"http://x\")"), csv_safe("north.xlsx")
-    ('\'=HYPERLINK("http://x")', 'north.xlsx')
+    >>> csv_safe("=1+2"), csv_safe("north.xlsx")
+    ("'=1+2", 'north.xlsx')
     """
     return "'" + text if isinstance(text, str) and text.startswith(FORMULA_STARTS) else text
 
@@ -429,7 +429,7 @@ def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float
         for index in todo:
             try:
                 plans[index] = write_paths.plan_solve(paths[index], force=force)
-            except WriteError as error:
+            except LanesolveError as error:
                 runs[index] = _failure(paths[index], error, 0.0)
                 step(runs[index])
                 continue

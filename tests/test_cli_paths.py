@@ -249,3 +249,29 @@ def test_json_status_of_a_refused_output_is_write_error(book, tmp_path, no_solve
     assert result.exit_code == 1
     doc = json.loads(result.stdout)
     assert doc["status"] == "write_error" and "same file" in doc["error"]
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# batch
+
+
+def test_batch_refuses_a_summary_csv_it_did_not_write_unless_force(book, tmp_path):
+    summary = tmp_path / "table.csv"
+    summary.write_text("region,budget\nnorth,100\n", encoding="utf-8")
+    refused = CliRunner().invoke(main, ["batch", str(book), "--summary", str(summary)])
+    _refused(refused, "table.csv already exists and lanesolve did not write it")
+    assert summary.read_text(encoding="utf-8") == "region,budget\nnorth,100\n"
+    assert "LS Summary" not in openpyxl.load_workbook(book).sheetnames  # refused before solving
+    forced = CliRunner().invoke(main, ["batch", str(book), "--summary", str(summary), "--force"])
+    assert forced.exit_code == 0, forced.output
+    assert summary.read_text(encoding="utf-8").startswith(paths.BATCH_CSV_HEADER)
+
+
+def test_batch_calls_a_fifo_workbook_an_input_error(book, tmp_path):
+    fifo = tmp_path / "pipe.xlsx"
+    os.mkfifo(fifo)
+    result = CliRunner().invoke(main, ["batch", str(book), str(fifo), "--summary", str(tmp_path / "b.csv"),
+                                       "--json"])
+    assert result.exit_code == 1
+    status = {os.path.basename(run["path"]): run["status"] for run in json.loads(result.stdout)["runs"]}
+    assert status == {"book.xlsx": "optimal", "pipe.xlsx": "input_error"}

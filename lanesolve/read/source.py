@@ -172,6 +172,9 @@ def fingerprint(path: str | os.PathLike) -> Fingerprint:
     ValueError
         The file is not a regular file, or it changed while it was hashed.
     """
+    reason = require_regular_file(path)
+    if reason is not None:  # from stat, before any open
+        raise ValueError(reason)
     fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0))
     with os.fdopen(fd, "rb", buffering=0) as fh:
         before = os.fstat(fd)

@@ -258,7 +258,7 @@ def plan_solve(path: str | os.PathLike, output: str | os.PathLike | None = None,
     Raises
     ------
     WorkbookError
-        The input workbook does not exist.
+        The input workbook does not exist, or is a folder, pipe or device.
     WriteError
         Listing every problem: two outputs are one file; an output is the input (with ``--output``, or the summary
         or mail); an output exists, lanesolve did not write it and ``force`` is false; an output is a folder, pipe
@@ -268,6 +268,8 @@ def plan_solve(path: str | os.PathLike, output: str | os.PathLike | None = None,
     if not os.path.lexists(source):
         # The reader's words, before any complaint about where results would go.
         raise WorkbookError(f"{source}: no such file (check the name and folder)")
+    if (kind := file_kind(source)) is not None:
+        raise WorkbookError(f"{source} is {kind}, not a workbook file lanesolve can read")
     problems: list[str] = []
     into_source = output is None
     workbook = _target("the workbook" if into_source else "the output workbook",
@@ -275,10 +277,7 @@ def plan_solve(path: str | os.PathLike, output: str | os.PathLike | None = None,
     summary = _target("the HTML summary", summary_path_for(workbook.given), "summary")
     mail = _target("the mail", email, "mail") if email is not None else None
     if into_source:
-        kind = file_kind(workbook.real)
-        if kind is not None:
-            problems.append(f"the workbook {source} is {kind}, not a workbook file")
-        elif read_only(workbook.real):
+        if read_only(workbook.real):
             problems.append(f"the workbook {source} is read-only, so its results cannot be written into it "
                             f"(make it writable, or write a copy with --output)")
     else:
