@@ -11,7 +11,8 @@ the imports of pandas and lanesolve, the same in every column). Three ways are m
 - ``read+validate``: the reader and :func:`lanesolve.read.validate.validate`.
 
 Workbooks: the generated instance of ``--size`` lanes (benchmarks/generate.py), the same with a ``Notes`` sheet of
-``--notes-cells`` numbers, and the same with a ``Notes`` sheet holding only A1 and XFD1048576 (a stray formatted
+``--notes-cells`` numbers spread over 1,000 rows, one every 50 columns (at most 16,384 columns, so at most 327
+per row), and the same with a ``Notes`` sheet holding only A1 and XFD1048576 (a stray formatted
 cell). They are cached in benchmarks/cache/. Nothing here asserts a time.
 
 Usage::
@@ -112,9 +113,13 @@ def main(argv: list[str] | None = None) -> int:
     lanes = generate.parse_size(args.size)
     base, _ = generate.ensure_instance(lanes)
     label = generate.size_label(lanes)
-    rows = args.notes_cells // 10
+    # Notes as planners keep them: a block of 1,000 rows whose cells sit every 50th column, so the sheet's used
+    # area (what calamine allocates) is 50 times its cell count.
+    from lanesolve.read.sheet_xml import column_letters
+
+    per_row = min(327, max(1, args.notes_cells // 1000))
     notes = with_notes(base, base.with_name(f"{base.stem}-notes{args.notes_cells}.xlsx"),
-                       {f"{column}{row}": row for row in range(1, rows + 1) for column in "ABCDEFGHIJ"})
+                       {f"{column_letters(1 + 50 * k)}{row}": row for row in range(1, 1001) for k in range(per_row)})
     far = with_notes(base, base.with_name(f"{base.stem}-farcell.xlsx"), {"A1": "note", "XFD1048576": 1})
     books = [(f"{label}", base), (f"{label} + notes ({args.notes_cells:,} cells)", notes),
              (f"{label} + cell at XFD1048576", far)]

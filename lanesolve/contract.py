@@ -417,12 +417,15 @@ def number_from_text(text: str) -> float:
 
 
 def magnitude_problem(number: float) -> str | None:
-    """Why a finite number is outside what lanesolve accepts (:data:`MAX_MAGNITUDE`, :data:`MIN_MAGNITUDE`), or None.
+    """Why a number is outside what lanesolve accepts (not finite, beyond :data:`MAX_MAGNITUDE`, or not zero but
+    nearer zero than :data:`MIN_MAGNITUDE`), or None.
 
     >>> magnitude_problem(2e12), magnitude_problem(0.0), magnitude_problem(-3.5)
     ('its size is beyond 1e+12, the most lanesolve accepts', None, None)
     """
     size = abs(number)
+    if not math.isfinite(size):
+        return "it is not a finite number"
     if size > MAX_MAGNITUDE:
         return f"its size is beyond {MAX_MAGNITUDE:.0e}, the most lanesolve accepts"
     if 0 < size < MIN_MAGNITUDE:
@@ -455,7 +458,8 @@ def show_cell(value) -> str:
     return str(value)
 
 
-def _blank_cell(cell) -> bool:
+def blank_cell(cell) -> bool:
+    """An empty cell: None or only spaces (a NaN is a value, not a blank)."""
     return cell is None or (isinstance(cell, str) and not cell.strip())
 
 
@@ -471,7 +475,7 @@ def setting_value(setting: Setting, cell) -> tuple[object, tuple[str, str] | Non
     >>> setting_value(setting_by_name("solver"), "gurobi")[1][0]
     "'gurobi' is not one of cbc, highs for setting 'solver'"
     """
-    if _blank_cell(cell):
+    if blank_cell(cell):
         return setting.default, None
     if setting.kind in (FLAG, CHOICE):
         word = (("yes" if cell else "no") if isinstance(cell, bool) else

@@ -104,7 +104,7 @@ def test_scenario_setting_value_is_checked_like_the_settings_sheet():
 
 @pytest.mark.parametrize("value, message", [
     ("1,5", "'1,5' is ambiguous: 1.5 with a decimal comma, or 15 with a thousands comma"),
-    (float("nan"), "NaN is not a finite number"),
+    (float("nan"), "NaN: it is not a finite number"),
     (3e12, "3000000000000: its size is beyond 1e+12, the most lanesolve accepts"),
 ])
 def test_scenario_values_lanesolve_would_misread_are_refused(value, message):
@@ -122,3 +122,8 @@ def test_scale_that_makes_a_value_beyond_1e12_is_refused():
     _, problems = apply_scenario(base, Scenario("x", [Change("Depots", "*", "supply", "scale", 10.0, 2)]))
     (problem,) = problems
     assert problem.row == 2 and "makes Depots row" in problem.message and "not allowed" in problem.message
+
+
+def test_scenario_match_with_a_decomposed_accent_finds_the_composed_id():
+    scenarios, problems = parse_scenarios([HEADER, ["x", "Customers", "Cafe\u0301 Nord", "demand", "add", 5]])
+    assert problems == [] and scenarios[0].changes[0].match == "Caf\u00e9 Nord"  # NFC (Unicode Standard Annex #15)

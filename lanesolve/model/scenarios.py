@@ -27,6 +27,7 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import math
+import unicodedata
 from dataclasses import dataclass, field
 
 import pandas as pd
@@ -85,8 +86,7 @@ class Scenario:
     changes: list[Change] = field(default_factory=list)
 
 
-def _blank(value: object) -> bool:
-    return value is None or (isinstance(value, str) and not value.strip())
+_blank = contract.blank_cell
 
 
 def _number(value: object) -> float | None:
@@ -195,7 +195,8 @@ def _parse_row(cell: dict, row: int, percent: bool = False) -> tuple[Change | No
                                  _suggest(sheet_text, list(_SHEETS))))
         return None, problems
 
-    match = "" if _blank(cell["match"]) else str(cell["match"]).strip()
+    # Ids are compared in Unicode NFC, as the validator stores them (an accent typed either way is the same id).
+    match = "" if _blank(cell["match"]) else unicodedata.normalize("NFC", str(cell["match"]).strip())
     if not match:
         problems.append(_problem(row, "match", None, "match is blank",
                                  "write an id, a comma list of ids, or * for every row"))
@@ -208,11 +209,9 @@ def _parse_row(cell: dict, row: int, percent: bool = False) -> tuple[Change | No
     elif change in ("scale", "add") and (number is None or not math.isfinite(number)):
         problems.append(_problem(row, "value", value, f"'{change}' needs a number, not {contract.show_cell(value)}",
                                  "write a number such as 1.2 (scale) or -50 (add)"))
-    elif number is not None and (not math.isfinite(number) or contract.magnitude_problem(number)):
-        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)} is not a finite number"
-                                 if not math.isfinite(number) else
-                                 f"{contract.show_cell(value)}: {contract.magnitude_problem(number)}",
-                                 "write an ordinary number, or leave the value blank"))
+    elif number is not None and contract.magnitude_problem(number):
+        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)}: "
+                                 f"{contract.magnitude_problem(number)}", "write an ordinary number, or a blank"))
     elif percent and change in ("scale", "add"):
         meant = f"times {number:g}" if change == "scale" else f"{number:g} more"
         problems.append(_problem(
@@ -244,14 +243,11 @@ def _parse_row(cell: dict, row: int, percent: bool = False) -> tuple[Change | No
                     problems.append(_problem(row, "change", cell["change"],
                                              f"setting {setting.name} is text; it can only be set",
                                              "use change set"))
-                elif change == "set" and why is None:
-                    # The same rules as the Settings sheet, so check finds what solve would trip over.
-                    checked, problem = contract.setting_value(setting, value)
+                elif change == "set" and why is None:  # the Settings sheet's rules: check finds what solve would
+                    value, problem = contract.setting_value(setting, value)
+                    number = value if setting.kind == contract.NUMBER else None
                     if problem is not None:
-                        problems.append(_problem(row, "value", value, *problem))
-                    else:
-                        value = checked
-                        number = checked if setting.kind == contract.NUMBER else None
+                        problems.append(_problem(row, "value", cell["value"], *problem))
     else:
         column = contract.normalize(cell["column"])
         names = [c.name for c in sheet.columns]
