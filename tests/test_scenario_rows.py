@@ -127,3 +127,11 @@ def test_scale_that_makes_a_value_beyond_1e12_is_refused():
 def test_scenario_match_with_a_decomposed_accent_finds_the_composed_id():
     scenarios, problems = parse_scenarios([HEADER, ["x", "Customers", "Cafe\u0301 Nord", "demand", "add", 5]])
     assert problems == [] and scenarios[0].changes[0].match == "Caf\u00e9 Nord"  # NFC (Unicode Standard Annex #15)
+
+
+def test_scenarios_problems_are_reported_with_the_input_sheets_in_one_pass(tmp_path):
+    sheets = {**valid_sheets(), "Scenarios": [HEADER, ["fast", "Settings", "solver", "value", "set", "gurobi"]]}
+    sheets["Depots"][1][1] = "lots"  # an input-sheet error as well
+    with pytest.raises(WorkbookError) as caught:
+        pipeline.load(write_workbook(tmp_path / "both.xlsx", sheets))
+    assert [(p.sheet, p.row) for p in caught.value.problems] == [("Depots", 2), ("Scenarios", 2)]

@@ -35,6 +35,7 @@ import pandas as pd
 from lanesolve import contract
 from lanesolve.contract import FLAG, NUMBER
 from lanesolve.errors import Problem, WorkbookError
+from lanesolve.model import scenarios
 from lanesolve.model.network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS,
                                      TEXT_COLUMNS, Network, Settings, resolve_status)
 from lanesolve.read.cells import BLANK_MEANS_NO_LIMIT
@@ -75,7 +76,9 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
         required column; duplicate header; blank, duplicate or cross-sheet duplicate id; unknown lane origin or
         destination; origin equal to destination; duplicate lane; non-numeric, negative, out-of-range, NaN or
         infinite number; TRUE/FALSE or date in a number column; error value or unsaved formula in a cell;
-        ``active`` not yes/no; duplicate or bad setting value.
+        ``active`` not yes/no; duplicate or bad setting value; a header or sheet name that looks like a contract
+        one; number text with ambiguous separators; a number beyond the accepted magnitudes; a problem in a row of
+        the Scenarios sheet (see :func:`lanesolve.model.scenarios.parse_scenarios`).
 
     Examples
     --------
@@ -103,6 +106,7 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     require_cost_column(tables[contract.LANES.name], settings, found)
     if settings.lanes_file:
         tables[contract.LANES.name] = with_lanes_file(tables[contract.LANES.name], raw.path, settings, found)
+    _check_scenarios_rows(raw, found)
     node_ids = check_node_ids(tables, found)
     check_lanes(tables[contract.LANES.name], node_ids, found)
     check_lane_design(tables[contract.LANES.name], found)
@@ -128,6 +132,16 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
         lane_sources=lane_sources,
     )
     return network, warnings
+
+
+def _check_scenarios_rows(raw: RawWorkbook, found: Findings) -> None:
+    """Report the Scenarios sheet's own problems (unknown sheet or column, percent scale, bad setting value...)
+    with the input sheets', in one pass. Applying the scenarios -- which needs a valid network -- stays with the
+    pipeline (:func:`lanesolve.pipeline.scenario_networks`), which parses the sheet again."""
+    sheets = [sheet for name, sheet in raw.sheets.items()
+              if contract.normalize(name) == contract.normalize(contract.SCENARIOS_SHEET)]
+    if len(sheets) == 1:  # two such sheets are reported by match_sheets
+        found.extend(scenarios.parse_scenarios(sheets[0].rows, sheets[0].percent_cells)[1])
 
 
 # ----------------------------------------------------------------------------------------------------------------
