@@ -1,5 +1,5 @@
 """Settings lanes_file: lanes from a CSV (or Parquet) file beside the workbook, read in addition to the Lanes sheet
-and checked by the same code (issue 4, "Lanes beyond one sheet's reach").
+and checked by the same code.
 
 The reference for the equivalence checks is the workbook itself: moving lanes from the sheet into the file must
 leave the validated lanes and the optimal cost unchanged (cost compared with a tolerance). CSV line numbers are

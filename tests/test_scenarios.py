@@ -1,6 +1,6 @@
 """Tests of lanesolve.model.scenarios: reading the Scenarios sheet, applying each change type, comparing results.
 
-References: a scenario must equal the same edit made by hand (issue 6), so the applied networks are compared with
+References: a scenario must equal the same edit made by hand, so the applied networks are compared with
 networks built from hand-edited records by :func:`lanesolve.model.network.make_network`; solved costs are also checked
 against networkx's network simplex (``networkx.min_cost_flow_cost``), an independent min-cost flow solver.
 """

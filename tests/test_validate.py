@@ -1,5 +1,5 @@
-"""Tests of lanesolve.read.validate: one test per bad-input cause (issue 2, "Bad input"), plus the reading rules of
-workbook contract v1 (issue 2) checked on small invented workbooks.
+"""Tests of lanesolve.read.validate: one test per bad-input cause, plus the reading rules of the workbook contract,
+checked on small invented workbooks.
 
 Expected values are derived by hand from the workbook each test writes; did-you-mean hints are checked against
 what Python's difflib (the reference the validator relies on) considers the closest match.
