@@ -1,4 +1,5 @@
-"""HiGHS and CBC agree: on every example workbook and on contract v2 design instances (skipped cleanly when the
+"""HiGHS (in memory, through highspy) and CBC agree: on every example workbook and on design instances; a time-limited
+HiGHS run is honest about its gap (all skipped cleanly when the
 optional highspy package is not installed)."""
 
 import pathlib
@@ -12,6 +13,7 @@ pytest.importorskip("highspy")
 
 from tests.test_design import random_design  # noqa: E402
 from lanesolve.model.network import make_network  # noqa: E402
+from lanesolve.model.result import SolveStatus  # noqa: E402
 
 EXAMPLES = sorted((pathlib.Path(__file__).resolve().parent.parent / "example_workbooks").glob("*.xlsx"))
 TOL = 1e-5
@@ -41,3 +43,33 @@ def test_solver_setting_picks_highs():
     net = make_network(*random_design(0)[:3], hubs=random_design(0)[3])
     net.settings.solver = "highs"
     assert solve(net).solver.startswith("HiGHS")
+
+
+def test_time_limited_highs_mip_is_feasible_with_its_gap_never_optimal():
+    from tests.test_solve_status import hard_fixed_charge_transportation, root_lp_bound
+
+    net = hard_fixed_charge_transportation()
+    result = solve(net, time_limit=1, solver="highs")
+    assert result.status is SolveStatus.FEASIBLE
+    # SciPy linprog's LP relaxation <= the bound HiGHS proved (read from its API, mip_dual_bound) < the plan's cost.
+    assert root_lp_bound(net) - 1e-6 <= result.best_bound < result.total_cost
+    assert result.mip_gap == pytest.approx((result.total_cost - result.best_bound) / result.total_cost, rel=1e-9)
+    assert any("time limit" in m for m in result.messages)
+
+
+def test_highs_reads_the_model_in_memory_without_files(monkeypatch, tmp_path):
+    # The in-memory path writes nothing: with the temporary folder pointed at an empty directory it stays empty.
+    import tempfile
+
+    monkeypatch.setattr(tempfile, "tempdir", str(tmp_path))
+    result = solve(make_network(*random_design(1)[:3], hubs=random_design(1)[3]), solver="highs")
+    assert result.status is SolveStatus.OPTIMAL
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_infeasible_network_is_infeasible_with_highs():
+    # 10 units of supply, 16 of hard demand (arithmetic); HiGHS may say "infeasible" or "unbounded or infeasible".
+    net = make_network([{"id": "D", "supply": 10}], [{"id": "A", "demand": 8}, {"id": "B", "demand": 8}],
+                       [{"origin": "D", "destination": "A", "cost_per_unit": 1},
+                        {"origin": "D", "destination": "B", "cost_per_unit": 2}])
+    assert solve(net, solver="highs").status is SolveStatus.INFEASIBLE
