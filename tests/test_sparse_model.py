@@ -299,3 +299,18 @@ def test_big_m_follows_the_documented_bounds():
                         {"origin": "D", "destination": "C", "cost_per_unit": 3, "capacity": 3, "fixed_cost": 4}],
                        hubs=[{"id": "H", "capacity": 6}])
     assert build_sparse_model(net).big_m == {0: 5.0, 1: 5.0, 2: 3.0}
+
+
+def test_readme_export_example_runs(tmp_path, monkeypatch):
+    # The README's "Python" example that exports the model through PuLP, run on the bundled example workbook.
+    import pathlib
+    import re
+
+    root = pathlib.Path(__file__).resolve().parent.parent
+    blocks = re.findall(r"```python\n(.*?)```", (root / "README.md").read_text(encoding="utf-8"), re.S)
+    example = next(block for block in blocks if "to_pulp" in block)
+    workbook = root / "example_workbooks" / "orvale_larder_supply.xlsx"
+    monkeypatch.chdir(tmp_path)
+    exec(example.replace('"network.xlsx"', repr(str(workbook))), {})
+    text = (tmp_path / "network.lp").read_text()
+    assert "balance_0" in text and "flow_0" in text

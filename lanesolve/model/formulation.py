@@ -241,11 +241,16 @@ class _Ends:
     @classmethod
     def of(cls, network: Network, flow: np.ndarray) -> "_Ends":
         lanes = network.active_lanes
-        origins, destinations = lanes["origin"].to_numpy(dtype=object), lanes["destination"].to_numpy(dtype=object)
         frames = {"depot": network.depots, "customer": network.customers, "hub": network.hubs}
-        ids = {kind: pd.Index(frame["id"]) for kind, frame in frames.items()}
-        return cls({k: i.get_indexer(origins) for k, i in ids.items()},
-                   {k: i.get_indexer(destinations) for k, i in ids.items()}, flow)
+        # One lookup per lane end against every node id at once (ids are unique across kinds), then split by kind.
+        ids = pd.Index(np.concatenate([frame["id"].to_numpy(dtype=object) for frame in frames.values()]), dtype=object)
+        starts = np.cumsum([0] + [len(frame) for frame in frames.values()])
+        ends = {}
+        for end in ("origin", "destination"):
+            code = ids.get_indexer(lanes[end].to_numpy(dtype=object))
+            ends[end] = {kind: np.where((code >= lo) & (code < hi), code - lo, -1)
+                         for kind, lo, hi in zip(frames, starts[:-1], starts[1:])}
+        return cls(ends["origin"], ends["destination"], flow)
 
 
 def _incidence(model: Assembly, ends: _Ends, kind: str, row_of_node: np.ndarray, out_sign: float,

@@ -114,6 +114,7 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
     """
     highspy = _import_highspy()
     matrix = model.matrix.tocsc()
+    tick = time.perf_counter()
     with stdout_to_stderr():
         highs = highspy.Highs()
         highs.setOptionValue("output_flag", bool(msg))
@@ -131,7 +132,6 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
                                  matrix.indices.astype(np.int32), matrix.data, integrality)
         if loaded == highspy.HighsStatus.kError:
             raise SolverError("HiGHS refused the model (a lanesolve bug: please report it)")
-        tick = time.perf_counter()
         highs.run()
         seconds = time.perf_counter() - tick
     info = highs.getInfo()
