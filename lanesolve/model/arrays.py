@@ -181,30 +181,27 @@ class Assembly:
         self.n_columns = 0
         self.n_rows = 0
 
-    def add_columns(self, prefix: str, ids, lower, upper, integer: bool = False,
-                    costs: dict[str, np.ndarray] | None = None) -> np.ndarray:
+    def _add(self, blocks: dict, parts: list, start: int, prefix: str, ids, lower, upper, extra=()) -> np.ndarray:
+        """Record one family (bounds broadcast to its length, plus ``extra`` per-item data); its positions."""
         ids = np.asarray(ids)
         count = len(ids)
         if count == 0:
             return np.zeros(0, dtype=np.int64)
-        self.column_blocks[prefix] = Block(prefix, self.n_columns, ids)
-        self._columns.append((np.broadcast_to(np.asarray(lower, dtype=float), count),
-                              np.broadcast_to(np.asarray(upper, dtype=float), count),
-                              np.full(count, integer), {k: np.asarray(v, dtype=float) for k, v in (costs or {}).items()}))
-        positions = self.n_columns + np.arange(count)
-        self.n_columns += count
+        blocks[prefix] = Block(prefix, start, ids)
+        parts.append((np.broadcast_to(np.asarray(lower, dtype=float), count),
+                      np.broadcast_to(np.asarray(upper, dtype=float), count)) + tuple(extra))
+        return start + np.arange(count)
+
+    def add_columns(self, prefix: str, ids, lower, upper, integer: bool = False,
+                    costs: dict[str, np.ndarray] | None = None) -> np.ndarray:
+        extra = (np.full(len(ids), integer), {k: np.asarray(v, dtype=float) for k, v in (costs or {}).items()})
+        positions = self._add(self.column_blocks, self._columns, self.n_columns, prefix, ids, lower, upper, extra)
+        self.n_columns += len(positions)
         return positions
 
     def add_rows(self, prefix: str, ids, lower, upper) -> np.ndarray:
-        ids = np.asarray(ids)
-        count = len(ids)
-        if count == 0:
-            return np.zeros(0, dtype=np.int64)
-        self.row_blocks[prefix] = Block(prefix, self.n_rows, ids)
-        self._rows.append((np.broadcast_to(np.asarray(lower, dtype=float), count),
-                           np.broadcast_to(np.asarray(upper, dtype=float), count)))
-        positions = self.n_rows + np.arange(count)
-        self.n_rows += count
+        positions = self._add(self.row_blocks, self._rows, self.n_rows, prefix, ids, lower, upper)
+        self.n_rows += len(positions)
         return positions
 
     def add_entries(self, rows, columns, values) -> None:
