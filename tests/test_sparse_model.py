@@ -17,7 +17,7 @@ from scipy.optimize import linprog
 from lanesolve.model.arrays import to_pulp
 from lanesolve.model.diagnose import solve_and_explain
 from lanesolve.model.formulation import build_sparse_model
-from lanesolve.model.network import make_network
+from lanesolve.model.network import Settings, make_network
 from lanesolve.model.result import SolveStatus
 from lanesolve.model.solve import solve, solve_model
 
@@ -314,3 +314,12 @@ def test_readme_export_example_runs(tmp_path, monkeypatch):
     exec(example.replace('"network.xlsx"', repr(str(workbook))), {})
     text = (tmp_path / "network.lp").read_text()
     assert "balance_0" in text and "flow_0" in text
+
+
+def test_settings_units_and_currency_reach_the_array_path_sentences():
+    net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 4}],
+                       [{"origin": "D", "destination": "C", "cost_per_unit": 2.5, "mode": "rail"}],
+                       settings=Settings(units="pallets", currency="EUR"))
+    texts = solve(net).sensitivity["text"].tolist()
+    # One customer served by one lane: one more unit costs the lane's 2.5 (arithmetic).
+    assert "One more unit of demand (pallets) at customer C costs 2.5 EUR." in texts
