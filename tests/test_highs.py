@@ -73,3 +73,55 @@ def test_infeasible_network_is_infeasible_with_highs():
                        [{"origin": "D", "destination": "A", "cost_per_unit": 1},
                         {"origin": "D", "destination": "B", "cost_per_unit": 2}])
     assert solve(net, solver="highs").status is SolveStatus.INFEASIBLE
+
+
+def _reference_cases():
+    """Every test of the reference modules that solves (calls ``solve(``) and takes no argument or only ``seed``,
+    with its seeds."""
+    import importlib
+    import inspect
+
+    for module_name in REFERENCE_MODULES:
+        module = importlib.import_module(f"tests.{module_name}")
+        for name, function in inspect.getmembers(module, inspect.isfunction):
+            if (not name.startswith("test_") or function.__module__ != module.__name__
+                    or "solve(" not in inspect.getsource(function)):
+                continue
+            parameters = list(inspect.signature(function).parameters)
+            if parameters == []:
+                yield pytest.param(module_name, name, None, id=f"{module_name}.{name}")
+            elif parameters == ["seed"]:
+                marks = [m for m in getattr(function, "pytestmark", []) if m.name == "parametrize"]
+                for seed in marks[0].args[1]:
+                    yield pytest.param(module_name, name, seed, id=f"{module_name}.{name}[{seed}]")
+
+
+#: Modules whose checks against published optima, networkx and SciPy must hold with HiGHS as well as with CBC.
+REFERENCE_MODULES = ("test_reference_optima", "test_random_vs_networkx", "test_fixed_charge_vs_scipy", "test_design")
+
+
+@pytest.mark.parametrize("module_name, name, seed", list(_reference_cases()))
+def test_reference_checks_hold_with_highs(monkeypatch, module_name, name, seed):
+    # The same assertions as the reference modules (each names its source), with every solve() there run by HiGHS.
+    import functools
+    import importlib
+
+    module = importlib.import_module(f"tests.{module_name}")
+    monkeypatch.setattr(module, "solve", functools.partial(solve, solver="highs"))
+    function = getattr(module, name)
+    function() if seed is None else function(seed)
+
+
+def test_highs_basis_is_a_basis_of_the_lp():
+    from lanesolve.model.formulation import build_sparse_model
+    from lanesolve.model.highs import solve_with_highs
+    from tests.test_solve_status import beer_network
+
+    model = build_sparse_model(beer_network())
+    answer = solve_with_highs(model)
+    assert answer.status is SolveStatus.OPTIMAL
+    basic_columns, basic_rows = answer.column_basis == 1, answer.row_basis == 1
+    # A simplex basis has one basic variable per row (Dantzig's textbook definition), and a basic column has a
+    # zero reduced cost.
+    assert basic_columns.sum() + basic_rows.sum() == model.n_rows
+    assert abs(answer.reduced_cost[basic_columns]).max() == pytest.approx(0.0, abs=1e-9)

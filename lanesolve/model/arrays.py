@@ -146,6 +146,12 @@ class Answer:
         and the reduced cost of each column. Zeros for a MIP and without a plan.
     bound : float or None
         The solver's best lower bound on the objective (without the model's constant), None when it does not say.
+    gap : float or None
+        The solver's own relative MIP gap between its incumbent and its bound (``Result.mip_gap`` is recomputed
+        against the plan as charged, which can only be smaller or equal).
+    column_basis, row_basis : numpy.ndarray or None
+        For an LP solved by HiGHS: the basis status of each column and row (``highspy.HighsBasisStatus`` values:
+        0 at lower, 1 basic, 2 at upper, 3 zero, 4 non-basic). CBC's solution file does not state the basis.
     solver : str
         Solver name and version.
     seconds : float
@@ -159,6 +165,9 @@ class Answer:
     row_dual: np.ndarray
     reduced_cost: np.ndarray
     bound: float | None = None
+    gap: float | None = None
+    column_basis: np.ndarray | None = field(default=None, repr=False)
+    row_basis: np.ndarray | None = field(default=None, repr=False)
     solver: str = ""
     seconds: float = 0.0
     log: str = field(default="", repr=False)

@@ -47,6 +47,7 @@ _BEST_POSSIBLE = re.compile(r"best possible\s+(\S+?)\)", re.MULTILINE)
 _PROVEN = re.compile(r"^Result - Optimal solution found\s*$", re.MULTILINE)
 _VERSION = re.compile(r"^Version:\s*(\S+)", re.MULTILINE)
 _OBJECTIVE = re.compile(r"objective value\s+(\S+)")
+_GAP = re.compile(r"^Gap:\s*(\S+)", re.MULTILINE)
 
 
 def cbc_backend(is_mip: bool, time_limit: float | None, gap: float | None) -> pulp.LpSolver:
@@ -241,4 +242,6 @@ def solve_with_cbc(model: SparseModel, time_limit: float | None = None, gap: flo
     answer.solver = f"CBC {version.group(1) if version else '(version unknown)'} (PuLP {pulp.__version__})"
     answer.seconds, answer.log = seconds, log_text
     answer.bound = best_bound(log_text, objective) if model.is_mip else objective
+    gap_line = _GAP.findall(log_text) if model.is_mip else []
+    answer.gap = float(gap_line[-1]) if gap_line else None
     return answer

@@ -378,60 +378,70 @@ def add_trips(model: Assembly, network: Network, ends: _Ends, bounds: np.ndarray
     model.add_entries(rows, trips, -size[costed])
 
 
-def add_node_decisions(model: Assembly, network: Network, ends: _Ends, bounds: np.ndarray, linking: bool) -> float:
-    """``open_depot_<n>`` / ``open_hub_<n>`` columns for nodes to decide, their aggregate rows, the per-lane
-    ``open_link_<kind>_<n>_<l>`` rows (when ``linking``) and ``max_open_depots`` / ``max_open_hubs``.
+def add_node_decisions(model: Assembly, network: Network, ends: _Ends, kind: str) -> np.ndarray:
+    """``open_<kind>_<n>`` columns for the depots or hubs to decide and their aggregate rows.
 
-    Returns the fixed charges of the nodes marked ``open`` (paid whatever the plan).
+    ``open_out_depot_<n>``: net outflow <= supply * open; ``open_in_depot_<n>``: inflow <= bound (d) * open (depots
+    with a lane in); ``open_out_hub_<n>``: inflow <= min(capacity, bound (c)) * open. Returns the open column of each
+    node of ``kind`` (-1 where its status is not ``decide``).
     """
-    fallback, can_send, can_absorb = node_limits(network)
-    lanes = network.active_lanes
-    forced_charges = 0.0
-    settings = network.settings
-    for kind, frame, limit in (("depot", network.depots, settings.max_open_depots),
-                               ("hub", network.hubs, settings.max_open_hubs)):
-        status = frame["status"].to_numpy(dtype=object)
-        fixed = frame["fixed_cost"].to_numpy(dtype=float)
-        forced_charges += float(fixed[status == "open"].sum())
-        decide = status == "decide"
-        opened = model.add_columns(f"open_{kind}_", frame.index[decide], 0.0, 1.0, integer=True,
-                                   costs={"fixed_node": fixed[decide]})
-        open_of_node = _row_table(len(frame), decide, opened)
-        node_ids = frame["id"].to_numpy(dtype=object)[decide]
-        out, into = _touches(ends, kind, len(frame))
-        if kind == "depot":
-            # open_out_depot_<n>: net outflow <= supply * open (the supply row with the decision in it).
-            rows = model.add_rows("open_out_depot_", frame.index[decide], -np.inf, 0.0)
-            _incidence(model, ends, kind, _row_table(len(frame), decide, rows), 1.0, -1.0)
-            model.add_entries(rows, opened, -frame["supply"].to_numpy(dtype=float)[decide])
-            # open_in_depot_<n>: transfers in <= what the depot can pass on (bound (d), canonical plan) * open.
-            receives = decide & into
-            rows = model.add_rows("open_in_depot_", frame.index[receives], -np.inf, 0.0)
-            _incidence(model, ends, kind, _row_table(len(frame), receives, rows), 0.0, 1.0)
-            absorb = can_absorb.reindex(frame["id"].to_numpy(dtype=object)[receives]).to_numpy()
-            model.add_entries(rows, open_of_node[receives], -absorb)
-        else:
-            # open_out_hub_<n>: throughput <= min(capacity, what can come in) * open.
-            rows = model.add_rows("open_out_hub_", frame.index[decide], -np.inf, 0.0)
-            _incidence(model, ends, kind, _row_table(len(frame), decide, rows), 0.0, 1.0)
-            model.add_entries(rows, opened, -can_send.reindex(node_ids).to_numpy())
-        if linking:
-            # open_link_<kind>_<n>_<l>: each lane at the node carries at most its own bound times the decision.
-            # Implied by the aggregate rows for integer decisions, but much tighter in the LP relaxation
-            # (benchmarks/bench_linking.py measures it).
-            node_index = frame.index.to_numpy()
-            lane_at = np.concatenate([np.flatnonzero(p >= 0) for p in (ends.origin[kind], ends.destination[kind])])
-            node_at = np.concatenate([p[p >= 0] for p in (ends.origin[kind], ends.destination[kind])])
-            keep = decide[node_at] if len(node_at) else np.zeros(0, dtype=bool)
-            lane_at, node_at = lane_at[keep], node_at[keep]
-            ids = [f"{n}_{lane}" for n, lane in zip(node_index[node_at].tolist(), lanes.index[lane_at].tolist())]
-            rows = model.add_rows(f"open_link_{kind}_", ids, -np.inf, 0.0)
-            model.add_entries(rows, ends.flow[lane_at], 1.0)
-            model.add_entries(rows, open_of_node[node_at], -bounds[lane_at])
-        if limit is not None:
-            rows = model.add_rows(f"max_open_{kind}s", [""], -np.inf, float(limit) - int((status == "open").sum()))
-            model.add_entries(np.repeat(rows, len(opened)), opened, 1.0)
-    return forced_charges
+    frame = network.depots if kind == "depot" else network.hubs
+    decide = (frame["status"] == "decide").to_numpy()
+    opened = model.add_columns(f"open_{kind}_", frame.index[decide], 0.0, 1.0, integer=True,
+                               costs={"fixed_node": frame["fixed_cost"].to_numpy(dtype=float)[decide]})
+    node_ids = frame["id"].to_numpy(dtype=object)
+    _, can_send, can_absorb = node_limits(network)
+    if kind == "depot":
+        rows = model.add_rows("open_out_depot_", frame.index[decide], -np.inf, 0.0)
+        _incidence(model, ends, kind, _row_table(len(frame), decide, rows), 1.0, -1.0)
+        model.add_entries(rows, opened, -frame["supply"].to_numpy(dtype=float)[decide])
+        receives = decide & _touches(ends, kind, len(frame))[1]
+        rows = model.add_rows("open_in_depot_", frame.index[receives], -np.inf, 0.0)
+        _incidence(model, ends, kind, _row_table(len(frame), receives, rows), 0.0, 1.0)
+        model.add_entries(rows, _row_table(len(frame), decide, opened)[receives],
+                          -can_absorb.reindex(node_ids[receives]).to_numpy())
+    else:
+        rows = model.add_rows("open_out_hub_", frame.index[decide], -np.inf, 0.0)
+        _incidence(model, ends, kind, _row_table(len(frame), decide, rows), 0.0, 1.0)
+        model.add_entries(rows, opened, -can_send.reindex(node_ids[decide]).to_numpy())
+    return _row_table(len(frame), decide, opened)
+
+
+def add_open_links(model: Assembly, network: Network, ends: _Ends, kind: str, open_of_node: np.ndarray,
+                   bounds: np.ndarray) -> None:
+    """``open_link_<kind>_<n>_<l>``: each lane at a decided node carries at most its own bound times the decision.
+
+    Implied by the aggregate rows for integer decisions, but much tighter in the LP relaxation (module docstring;
+    benchmarks/bench_linking.py measures it).
+    """
+    node_index = (network.depots if kind == "depot" else network.hubs).index.to_numpy()
+    lane_at = np.concatenate([np.flatnonzero(p >= 0) for p in (ends.origin[kind], ends.destination[kind])])
+    node_at = np.concatenate([p[p >= 0] for p in (ends.origin[kind], ends.destination[kind])])
+    keep = open_of_node[node_at] >= 0
+    lane_at, node_at = lane_at[keep], node_at[keep]
+    lane_index = network.active_lanes.index.to_numpy()
+    ids = [f"{n}_{lane}" for n, lane in zip(node_index[node_at].tolist(), lane_index[lane_at].tolist())]
+    rows = model.add_rows(f"open_link_{kind}_", ids, -np.inf, 0.0)
+    model.add_entries(rows, ends.flow[lane_at], 1.0)
+    model.add_entries(rows, open_of_node[node_at], -bounds[lane_at])
+
+
+def add_max_open(model: Assembly, network: Network, kind: str, open_of_node: np.ndarray) -> None:
+    """``max_open_depots`` / ``max_open_hubs``: decided nodes opened at most the setting minus those marked open."""
+    limit = network.settings.max_open_depots if kind == "depot" else network.settings.max_open_hubs
+    if limit is None:
+        return
+    frame = network.depots if kind == "depot" else network.hubs
+    forced = int((frame["status"] == "open").sum())
+    rows = model.add_rows(f"max_open_{kind}s", [""], -np.inf, float(limit) - forced)
+    opened = open_of_node[open_of_node >= 0]
+    model.add_entries(np.repeat(rows, len(opened)), opened, 1.0)
+
+
+def fixed_charges_of_open_nodes(network: Network) -> float:
+    """Fixed charges of the depots and hubs marked ``open``: paid whatever the plan, so no column carries them."""
+    return float(sum(frame.loc[frame["status"] == "open", "fixed_cost"].astype(float).sum()
+                     for frame in (network.depots, network.hubs)))
 
 
 def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
@@ -491,7 +501,12 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
         add_min_volume(model, network, ends, use)
         add_single_source(model, network, ends, use)
         add_trips(model, network, ends, bounds)
-        constant["fixed_node"] = add_node_decisions(model, network, ends, bounds, linking)
+        for kind in ("depot", "hub"):
+            open_of_node = add_node_decisions(model, network, ends, kind)
+            if linking:
+                add_open_links(model, network, ends, kind, open_of_node, bounds)
+            add_max_open(model, network, kind, open_of_node)
+        constant["fixed_node"] = fixed_charges_of_open_nodes(network)
     return model.finish(constant=constant, lane_index=lanes.index.to_numpy(), unmet_index=customers.index[soft].to_numpy(),
                         big_m=dict(zip(lanes.index[need].tolist(), bounds[need].tolist())), penalty=penalty,
                         design=design)

@@ -104,8 +104,8 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
     Returns
     -------
     Answer
-        Values; row duals and reduced costs for an LP; for a MIP the best bound (``mip_dual_bound``), for an LP
-        its optimal objective as the bound.
+        Values; for an LP the row duals, reduced costs and basis, and its optimal objective as the bound; for a MIP
+        the best bound (``mip_dual_bound``) and HiGHS's own gap (``mip_gap``).
 
     Raises
     ------
@@ -145,6 +145,12 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
         if not model.is_mip and info.dual_solution_status == 2:
             answer.row_dual = np.asarray(solution.row_dual, dtype=float)
             answer.reduced_cost = np.asarray(solution.col_dual, dtype=float)
+            basis = highs.getBasis()
+            if basis.valid:
+                answer.column_basis = np.array([int(status) for status in basis.col_status], dtype=np.int8)
+                answer.row_basis = np.array([int(status) for status in basis.row_status], dtype=np.int8)
         bound = info.mip_dual_bound if model.is_mip else info.objective_function_value
         answer.bound = float(bound) if math.isfinite(bound) else None
+        if model.is_mip and math.isfinite(info.mip_gap):
+            answer.gap = float(info.mip_gap)
     return answer
