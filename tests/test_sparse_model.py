@@ -323,3 +323,21 @@ def test_settings_units_and_currency_reach_the_array_path_sentences():
     texts = solve(net).sensitivity["text"].tolist()
     # One customer served by one lane: one more unit costs the lane's 2.5 (arithmetic).
     assert "One more unit of demand (pallets) at customer C costs 2.5 EUR." in texts
+
+
+@pytest.mark.parametrize("solver", ["cbc", "highs"])
+@pytest.mark.parametrize("demand, penalty, status, cost", [
+    (0, None, SolveStatus.OPTIMAL, 0.0),      # nothing to deliver, nothing to decide
+    (3, None, SolveStatus.INFEASIBLE, None),  # hard demand and no lane: 0 delivered != 3
+    (3, 4, SolveStatus.OPTIMAL, 12.0),        # 3 short at 4 each (arithmetic)
+])
+def test_network_without_active_lanes(solver, demand, penalty, status, cost):
+    if solver == "highs":
+        pytest.importorskip("highspy")
+    customer = {"id": "C", "demand": demand} | ({"unmet_penalty": penalty} if penalty else {})
+    net = make_network([{"id": "D", "supply": 5}], [customer],
+                       [{"origin": "D", "destination": "C", "cost_per_unit": 1, "active": False}])
+    result = solve(net, solver=solver)
+    assert result.status is status
+    if cost is not None:
+        assert result.total_cost == pytest.approx(cost, abs=TOL)

@@ -10,6 +10,8 @@ Status
 ``HighsModelStatus``                                        :class:`~lanesolve.model.result.SolveStatus`
 ==========================================================  ==========================================
 ``kOptimal``                                                ``optimal`` (within ``mip_rel_gap`` for a MIP)
+``kModelEmpty`` (no column)                                 ``optimal`` when every row admits 0, else
+                                                            ``infeasible``
 ``kInfeasible``, ``kUnboundedOrInfeasible``                 ``infeasible`` (costs are never negative, so
                                                             the model cannot be unbounded)
 ``kUnbounded``                                              ``unbounded``
@@ -71,11 +73,15 @@ def _import_highspy():
     return highspy
 
 
-def _status(highspy, model_status, has_point: bool, is_mip: bool) -> SolveStatus:
+def _status(highspy, model_status, has_point: bool, is_mip: bool, empty_rows_hold: bool) -> SolveStatus:
     """HiGHS's model status to :class:`SolveStatus` (table in the module docstring)."""
     known = highspy.HighsModelStatus
     if model_status == known.kOptimal:
         return SolveStatus.OPTIMAL
+    if model_status == known.kModelEmpty:
+        # No column (no active lane and no shortfall allowed): HiGHS does not judge the rows, so judge them here;
+        # with nothing to decide every row's value is 0.
+        return SolveStatus.OPTIMAL if empty_rows_hold else SolveStatus.INFEASIBLE
     if model_status in (known.kInfeasible, known.kUnboundedOrInfeasible):
         return SolveStatus.INFEASIBLE
     if model_status == known.kUnbounded:
@@ -136,10 +142,11 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
         seconds = time.perf_counter() - tick
     info = highs.getInfo()
     has_point = info.primal_solution_status == 2  # kSolutionStatusFeasible
-    status = _status(highspy, highs.getModelStatus(), has_point, model.is_mip)
+    empty_rows_hold = bool(((model.row_lower <= 0) & (model.row_upper >= 0)).all())
+    status = _status(highspy, highs.getModelStatus(), has_point, model.is_mip, empty_rows_hold)
     answer = Answer(status, np.zeros(model.n_columns), np.zeros(model.n_rows), np.zeros(model.n_columns),
                     solver=f"HiGHS {highs.version()} (highspy)", seconds=seconds)
-    if status.has_plan:
+    if status.has_plan and model.n_columns:
         solution = highs.getSolution()
         answer.value = np.asarray(solution.col_value, dtype=float)
         if not model.is_mip and info.dual_solution_status == 2:
