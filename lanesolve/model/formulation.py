@@ -83,7 +83,9 @@ cost per trip :math:`e_l > 0`, :math:`t_l \\in \\mathbb{Z}_{\\ge 0}` trips (``tr
 :math:`y_l` also when it has a minimum volume :math:`m_l > 0` or ends at a single-sourced customer.
 
 Objective, added: :math:`\\sum_{n \\in O} F_n w_n + \\sum_{n\\ \\text{open}} F_n` (``fixed_node``; a node marked
-``open`` pays its fixed cost) :math:`+ \\sum_{l \\in T} e_l t_l` (``trips``).
+``open`` pays its fixed cost) :math:`+ \\sum_{l \\in T} e_l t_l` (``trips``). The charges of nodes marked ``open`` are a
+constant (:attr:`SparseModel.constant <lanesolve.model.arrays.SparseModel.constant>`): no column carries them, so
+the solvers never see them; they are added to the plan's cost and to the solver's bound.
 
 - closed node: every lane at it gets capacity 0 (and counts 0 in every bound below);
 - ``min_volume_<n>``: :math:`x_l \\ge m_l y_l`;
