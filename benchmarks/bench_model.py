@@ -12,8 +12,8 @@ Run::
    build is compared with the solve budget (``--budget``, the default ``time_limit_s`` of 60 s); the target is at most
    10 % of it.
 2. **100k-lane LP end to end.** ``lanesolve.model.solve.solve(network, solver="highs")`` (build, HiGHS in memory,
-   reading the plan into a Result; HiGHS's time includes passModel) against bare HiGHS on the same arrays (``bare_highs.solve_highspy``: passModel and
-   run, nothing else) and against SciPy's ``linprog(method="highs")`` on them; ``solver="cbc"`` for comparison.
+   reading the plan into a Result; HiGHS's time includes passModel) against bare HiGHS on the same arrays
+   (``bare_highs.solve_highspy``: passModel and run, nothing else) and against SciPy's ``linprog(method="highs")`` on them; ``solver="cbc"`` for comparison.
 
 Each measurement runs in a fresh child process (so one does not warm the caches of the next); times are the median
 of ``--repeat`` runs inside that process; peak RSS is the child's own (``getrusage``; the CBC program is a separate
@@ -175,7 +175,8 @@ def main(argv=None) -> None:
     print(head)
     print("-" * len(head))
     rows = {}
-    for engine, label in (("highs", 'lanesolve solve(solver="highs")'), ("bare-highspy", "bare HiGHS (highspy, same arrays)"),
+    for engine, label in (("highs", 'lanesolve solve(solver="highs")'),
+                          ("bare-highspy", "bare HiGHS (highspy, same arrays)"),
                           ("bare-linprog", "bare HiGHS (SciPy linprog, same arrays)"),
                           ("cbc", 'lanesolve solve(solver="cbc")')):
         row = rows[engine] = measure("lp", lp_lanes, engine, args.repeat)

@@ -137,7 +137,8 @@ def scipy_lp(model):
     assert (equal | at_most).all(), "a pure LP here has only equations and at-most rows"
     res = linprog(model.cost, A_ub=model.matrix[at_most] if at_most.any() else None,
                   b_ub=model.row_upper[at_most] if at_most.any() else None,
-                  A_eq=model.matrix[equal] if equal.any() else None, b_eq=model.row_lower[equal] if equal.any() else None,
+                  A_eq=model.matrix[equal] if equal.any() else None,
+                  b_eq=model.row_lower[equal] if equal.any() else None,
                   bounds=np.column_stack([model.lower, model.upper]), method="highs")
     duals = np.zeros(model.n_rows)
     if res.status == 0:

@@ -509,6 +509,7 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
                 add_open_links(model, network, ends, kind, open_of_node, bounds)
             add_max_open(model, network, kind, open_of_node)
         constant["fixed_node"] = fixed_charges_of_open_nodes(network)
-    return model.finish(constant=constant, lane_index=lanes.index.to_numpy(), unmet_index=customers.index[soft].to_numpy(),
+    return model.finish(constant=constant, lane_index=lanes.index.to_numpy(),
+                        unmet_index=customers.index[soft].to_numpy(),
                         big_m=dict(zip(lanes.index[need].tolist(), bounds[need].tolist())), penalty=penalty,
                         design=design)
