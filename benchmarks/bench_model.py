@@ -13,7 +13,8 @@ Run::
    10 % of it.
 2. **100k-lane LP end to end.** ``lanesolve.model.solve.solve(network, solver="highs")`` (build, HiGHS in memory,
    reading the plan into a Result; HiGHS's time includes passModel) against bare HiGHS on the same arrays
-   (``bare_highs.solve_highspy``: passModel and run, nothing else) and against SciPy's ``linprog(method="highs")`` on them; ``solver="cbc"`` for comparison.
+   (``bare_highs.solve_highspy``: passModel and run, nothing else) and against SciPy's ``linprog(method="highs")``
+   on them; ``solver="cbc"`` for comparison.
 
 Each measurement runs in a fresh child process (so one does not warm the caches of the next); times are the median
 of ``--repeat`` runs inside that process; peak RSS is the child's own (``getrusage``; the CBC program is a separate
