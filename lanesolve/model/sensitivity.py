@@ -41,12 +41,14 @@ import math
 import warnings
 from collections import deque
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
 import pulp
 
-from lanesolve.model.formulation import LaneArrays, LaneModel, build_model
+if TYPE_CHECKING:  # the PuLP model builder is gone (solve() builds one sparse model); names kept for annotations
+    from lanesolve.model.formulation import LaneArrays, LaneModel, build_model
 from lanesolve.model.network import Network
 from lanesolve.model.result import SENSITIVITY_COLUMNS, empty_frame
 
