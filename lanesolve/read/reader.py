@@ -178,9 +178,6 @@ def read_workbook(path: str | Path) -> RawWorkbook:
     sheets: dict[str, RawSheet] = {}
     too_big: list[Problem] = []
     with _maybe_zip(path, package.sheet_parts) as archive:
-        percent_styles = frozenset()
-        if archive is not None and package.styles_part in package.names:
-            percent_styles = sheet_xml.percent_style_ids(sheet_xml.read_part(path, archive, package.styles_part))
         for meta in metadata:
             name = meta.name
             if name not in names or not contract.is_read_sheet(name):
@@ -195,8 +192,10 @@ def read_workbook(path: str | Path) -> RawWorkbook:
                     too_big.append(problem)
                     continue
                 bad = sheet_xml.bad_cells(data, f"{path}: sheet part {part}")
-                if contract.normalize(name) == contract.normalize(contract.SCENARIOS_SHEET):
-                    percent = sheet_xml.styled_cells(data, percent_styles)
+                if contract.normalize(name) == contract.normalize(contract.SCENARIOS_SHEET) and \
+                        package.styles_part in package.names:
+                    styles = sheet_xml.read_part(path, archive, package.styles_part)
+                    percent = sheet_xml.styled_cells(data, sheet_xml.percent_style_ids(styles))
                 del data
             rows = _load_rows(path, book, name, too_big)
             if rows is None:
