@@ -216,6 +216,8 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
     tick = time.perf_counter()
 
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), file_checksum(path))
+    if write:  # a planner's sheet named like a result sheet stops the run before any solving
+        writeback.check_result_sheets(path)
     result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
@@ -229,7 +231,7 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
         progress("writing results", None)
         sheets = writeback.result_sheets(network, result, info)
         if comparison is not None:
-            sheets.append(writeback.scenario_sheet(comparison))
+            sheets.append(writeback.scenario_sheet(comparison, network.settings))
         writeback.write_results(path, output, sheets)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()

@@ -23,7 +23,8 @@ import pandas as pd
 
 from lanesolve.write import atomic
 from lanesolve.report import charts as _charts
-from lanesolve.model.result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus, node_decisions
+from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
+    CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
 from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
@@ -36,14 +37,6 @@ TEMPLATE_NAME = "summary.html.j2"
 #: How many lanes the "lanes used" table lists before it says "and N more"; the result sheets hold them all.
 TOP_LANES = 25
 
-COST_LABELS = {
-    "transport": "Transport",
-    "handling": "Handling at depots and hubs",
-    "fixed_lane": "Fixed lane charges",
-    "unmet_penalty": "Penalties for unmet demand",
-    "fixed_node": "Fixed depot and hub charges",
-    "trips": "Whole trips (cost per trip)",
-}
 
 STATUS_TEXT = {
     SolveStatus.OPTIMAL: "Optimal plan",
@@ -80,6 +73,29 @@ def format_money(value: object, currency: str = "") -> str:
     if number is None:
         return "–"
     text = f"{number + 0.0:,.2f}"  # + 0.0 turns -0.0 into 0.0 so "-0.00" never shows
+    if text == "-0.00":
+        text = "0.00"
+    return f"{text} {currency}".strip()
+
+
+def format_rate(value: object, currency: str = "") -> str:
+    """A rate (money per unit) with 2 to 4 decimals, so that rate x flow matches the cost shown beside it.
+
+    A rate rounded to 2 decimals (1.19) next to a cost computed from the full rate (1.19034 x 140 = 166.65) reads
+    as an arithmetic slip; four decimals keep the product within a cent for flows up to a few hundred units.
+
+    >>> format_rate(1.190342857, "EUR")
+    '1.1903 EUR'
+    >>> format_rate(2.5)
+    '2.50'
+    """
+    number = _finite(value)
+    if number is None:
+        return "–"
+    text = f"{number + 0.0:,.4f}"
+    whole, _, decimals = text.partition(".")
+    decimals = decimals.rstrip("0").ljust(2, "0")
+    text = f"{whole}.{decimals}"
     if text == "-0.00":
         text = "0.00"
     return f"{text} {currency}".strip()
@@ -129,26 +145,14 @@ def _bar(value: object) -> float:
 
 
 def cost_keys(result: Result) -> list[str]:
-    """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
-
-    A v1 result has :data:`~lanesolve.model.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
-    over the keys the result has keeps every component in the breakdown, so the rows add up to the total.
-    """
-    order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
-    keys = list(result.cost_breakdown)
-    return [k for k in order if k in keys] + [k for k in keys if k not in order]
+    """The keys of ``result.cost_breakdown`` in report order (:func:`lanesolve.model.result.cost_order`)."""
+    return cost_order(result.cost_breakdown)
 
 
 def _cost_rows(result: Result, currency: str) -> list[dict]:
-    keys = cost_keys(result)
-    total = sum(max(_finite(result.cost_breakdown.get(k)) or 0.0, 0.0) for k in keys)
-    rows = []
-    for key in keys:
-        amount = _finite(result.cost_breakdown.get(key)) or 0.0
-        share = amount / total if total > 0 else 0.0
-        rows.append({"label": COST_LABELS.get(key, key.replace("_", " ").capitalize()),
-                     "amount": format_money(amount, currency), "share": format_share(share), "bar": _bar(share)})
-    return rows
+    """The cost table: :meth:`Result.cost_lines`, formatted (the chart beside it draws the same lines)."""
+    return [{"key": line.key, "label": line.label, "amount": format_money(line.amount, currency),
+             "share": format_share(line.share), "bar": _bar(line.share)} for line in result.cost_lines()]
 
 
 def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], int]:
@@ -164,7 +168,7 @@ def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], i
         rows.append({
             "origin": str(lane.origin), "destination": str(lane.destination), "mode": str(lane.mode or ""),
             "flow": format_quantity(lane.flow, units),
-            "cost_per_unit": format_money(lane.cost_per_unit),
+            "cost_per_unit": format_rate(lane.cost_per_unit),
             "variable_cost": format_money(lane.variable_cost),
             "fixed_charge": format_money(lane.fixed_charge) if (_finite(lane.fixed_charge) or 0) > 0 else "–",
             "total_cost": format_money(lane.total_cost, currency),
@@ -266,23 +270,6 @@ def _trip_rows(result: Result, units: str, currency: str) -> list[dict]:
             "average_fill": format_share(flow / (trips * size)) if full else "–",
         })
     return rows
-
-
-def singular(units: str) -> str:
-    """The label of one unit: "pallets" -> "pallet", "boxes" -> "box", "tonnes" -> "tonne" (plain English rules).
-
-    >>> [singular(u) for u in ("pallets", "boxes", "lorries", "kg", "units")]
-    ['pallet', 'box', 'lorry', 'kg', 'unit']
-    """
-    word = units.strip() or "units"
-    lower = word.lower()
-    if lower.endswith("ies") and len(word) > 3:
-        return word[:-3] + "y"
-    if lower.endswith(("sses", "xes", "ches", "shes", "zes")):
-        return word[:-2]
-    if lower.endswith("s") and not lower.endswith("ss") and len(word) > 1:
-        return word[:-1]
-    return word
 
 
 def _lane_words(label: str) -> str:

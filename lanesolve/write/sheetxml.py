@@ -1,10 +1,10 @@
 """Worksheet and table XML for one result sheet, and the XML text helpers the writer shares.
 
-Text is written as inline strings, so ``xl/sharedStrings.xml`` and ``xl/styles.xml`` stay byte-identical and text
+Text is written as inline strings, so ``xl/sharedStrings.xml`` stays byte-identical and text
 that looks like a formula (``=SUM(A1)``) can only ever be text. Looks come from a built-in table style (banded rows,
-header row with filter buttons), column widths sized to the content and a frozen header row; numbers are rounded for
-reading (money 2 decimals, quantities 4, percentages 1) instead of carrying a number format, since a number format
-would need a new entry in ``styles.xml``.
+header row with filter buttons), column widths sized to the content and a frozen header row. Numbers keep full
+precision and carry a number format per column kind (cell formats the writer appends to ``styles.xml``, existing
+entries untouched); the sheet prints one page wide with its header row on every page.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ import numbers
 import posixpath
 import re
 
-from lanesolve.write.tables import DECIMALS, NO_LIMIT, ResultSheet, _plain
+from lanesolve.write.tables import ResultSheet, _plain
 
 #: Built-in table style of the result tables (a style every spreadsheet program that reads tables knows by name).
 TABLE_STYLE = "TableStyleMedium2"
@@ -94,8 +94,29 @@ def _column_letter(index: int) -> str:
 # The new parts
 # ---------------------------------------------------------------------------------------------------------------
 
+def _number_text(value: float) -> str:
+    """A finite float as the text of a ``<v>`` element, full precision (the cell's number format rounds)."""
+    text = repr(value + 0.0)  # + 0.0 turns -0.0 into 0.0: no "-0" on screen
+    return text[:-2] if text.endswith(".0") else text
+
+
+def _shown_length(value: float, kind: str) -> int:
+    """About how many characters the number shows with its column's format (for the column width)."""
+    if kind == "percent":
+        return len(f"{value * 100:.1f} %")
+    if kind in ("count",):
+        return len(f"{value:,.0f}")
+    if kind in ("text", "number"):
+        return len(_number_text(value))
+    return len(f"{value:,.2f}") + (2 if kind == "rate" else 0)
+
+
 def _cell_text(value, kind: str) -> tuple[str, str | None, int]:
-    """(cell body, cell type attribute, display length) for one value; body '' means blank."""
+    """(cell body, cell type attribute, display length) for one value; body '' means blank.
+
+    NaN and infinities are blank: a capacity without limit is a blank cell under a header that says so, never the
+    text "no limit" in a number column (which would break sums, filters and charts).
+    """
     value = _plain(value)
     if value is None:
         return "", None, 0
@@ -103,20 +124,12 @@ def _cell_text(value, kind: str) -> tuple[str, str | None, int]:
         return f"<v>{int(value)}</v>", "b", 5
     if isinstance(value, numbers.Integral):
         text = str(int(value))
-        return f"<v>{text}</v>", None, len(text)
+        return f"<v>{text}</v>", None, _shown_length(float(value), kind)
     if isinstance(value, numbers.Real):
         value = float(value)
-        if math.isnan(value) or value == -math.inf:
+        if not math.isfinite(value):
             return "", None, 0
-        if value == math.inf:
-            return f'<is><t>{NO_LIMIT}</t></is>', "inlineStr", len(NO_LIMIT)
-        digits = DECIMALS.get(kind)
-        if digits is not None:
-            value = round(value, digits)
-        text = repr(value + 0.0)  # + 0.0 turns -0.0 into 0.0: no "-0" on screen
-        if text.endswith(".0"):
-            text = text[:-2]
-        return f"<v>{text}</v>", None, len(text)
+        return f"<v>{_number_text(value)}</v>", None, _shown_length(value, kind)
     text = str(value)
     if not text.isprintable():  # printable text holds none of the forbidden characters; skip the regex
         text = clean_text(text)
@@ -143,14 +156,37 @@ def _header_names(columns: list) -> list[str]:
     return names
 
 
-def sheet_xml(sheet: ResultSheet, table_rel_id: str) -> tuple[str, str]:
+#: A sheet with more columns than this prints landscape; narrower ones print portrait.
+LANDSCAPE_FROM_COLUMNS = 6
+
+
+def print_setup_xml(n_cols: int) -> tuple[str, str]:
+    """(``sheetPr`` element, ``pageSetup`` element) for printing a result sheet: fit to one page wide, as many
+    pages tall as needed, landscape when the sheet is wide (ECMA-376 Part 1, 18.3.1.63 and 18.3.1.82). The header
+    row is repeated on every page by the ``_xlnm.Print_Titles`` defined name the writer adds."""
+    orientation = "landscape" if n_cols > LANDSCAPE_FROM_COLUMNS else "portrait"
+    return ('<sheetPr><pageSetUpPr fitToPage="1"/></sheetPr>',
+            f'<pageSetup orientation="{orientation}" fitToWidth="1" fitToHeight="0"/>')
+
+
+def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | None = None) -> tuple[str, str]:
     """The worksheet XML of one result sheet and its data range (``A1:J42``).
+
+    Parameters
+    ----------
+    sheet : ResultSheet
+    table_rel_id : str
+        Relationship id of the sheet's table part.
+    styles : dict, optional
+        Column kind -> index of the cell format (``cellXfs`` entry) that carries its number format; see
+        :func:`lanesolve.write.zipindex.add_number_formats`. Without it numbers are written unformatted.
 
     Returns
     -------
     (str, str)
         The worksheet part text and the table range.
     """
+    styles = styles or {}
     headers = _header_names(sheet.columns)
     n_cols = max(len(headers), 1)
     letters = [_column_letter(i) for i in range(n_cols)]
@@ -164,38 +200,41 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str) -> tuple[str, str]:
         header_cells.append(f'<c r="{letters[j]}1" t="inlineStr"><is><t xml:space="preserve">{escape(name)}</t>'
                             f'</is></c>')
     parts.append('<row r="1">' + "".join(header_cells) + "</row>")
-    digits = [DECIMALS.get(k) for k in kinds]
+    style_attr = [f' s="{styles[k]}"' if k in styles else "" for k in kinds]
+    cell_kinds = sheet.cell_kinds
     # Text cells repeat (ids, modes, statuses): render each distinct text once.
     text_cache: dict[str, tuple[str, int]] = {}
     inf = math.inf
-    for i, row in enumerate(sheet.rows, start=2):
+    for r, row in enumerate(sheet.rows):
+        i = r + 2
         cells = []
         for j, value in enumerate(row[:n_cols]):
+            kind, style = kinds[j], style_attr[j]
+            if cell_kinds:
+                own = cell_kinds.get((r, j))
+                if own is not None:
+                    kind, style = own, (f' s="{styles[own]}"' if own in styles else "")
             # Fast paths for the common plain types; everything else goes through _cell_text.
             value_type = type(value)
             if value_type is float and value == value and -inf < value < inf:
-                if digits[j] is not None:
-                    value = round(value, digits[j])
-                text = repr(value + 0.0)  # + 0.0 turns -0.0 into 0.0
-                if text.endswith(".0"):
-                    text = text[:-2]
-                cells.append(f'<c r="{letters[j]}{i}"><v>{text}</v></c>')
-                length = len(text)
+                cells.append(f'<c r="{letters[j]}{i}"{style}><v>{_number_text(value)}</v></c>')
+                length = _shown_length(value, kind)
             elif value_type is str and value:
                 cached = text_cache.get(value)
                 if cached is None:
-                    body, _type, length = _cell_text(value, kinds[j])
+                    body, _type, length = _cell_text(value, kind)
                     cached = text_cache[value] = (f' t="inlineStr">{body}</c>' if body else "", length)
                 if not cached[0]:
                     continue
                 cells.append(f'<c r="{letters[j]}{i}"{cached[0]}')
                 length = cached[1]
             else:
-                body, cell_type, length = _cell_text(value, kinds[j])
+                body, cell_type, length = _cell_text(value, kind)
                 if not body:
                     continue
                 type_attr = f' t="{cell_type}"' if cell_type else ""
-                cells.append(f'<c r="{letters[j]}{i}"{type_attr}>{body}</c>')
+                number_style = style if cell_type is None else ""
+                cells.append(f'<c r="{letters[j]}{i}"{number_style}{type_attr}>{body}</c>')
             if length > widths[j]:
                 widths[j] = length
         parts.append(f'<row r="{i}">' + "".join(cells) + "</row>")
@@ -205,9 +244,11 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str) -> tuple[str, str]:
     # Width in characters, capped so a long message does not push the other columns off screen.
     cols = "".join(f'<col min="{j + 1}" max="{j + 1}" width="{min(w + 1, 80):.1f}" customWidth="1"/>'
                    for j, w in enumerate(widths))
+    sheet_pr, page_setup = print_setup_xml(n_cols)
     text = "".join([
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n',
         f'<worksheet xmlns="{MAIN_NS}" xmlns:r="{REL_NS[0]}">',
+        sheet_pr,
         f'<dimension ref="{ref}"/>',
         '<sheetViews><sheetView workbookViewId="0"><pane ySplit="1" topLeftCell="A2" activePane="bottomLeft" '
         'state="frozen"/><selection pane="bottomLeft" activeCell="A2" sqref="A2"/></sheetView></sheetViews>',
@@ -215,6 +256,7 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str) -> tuple[str, str]:
         f"<cols>{cols}</cols>",
         "<sheetData>", "".join(parts), "</sheetData>",
         '<pageMargins left="0.7" right="0.7" top="0.75" bottom="0.75" header="0.3" footer="0.3"/>',
+        page_setup,
         f'<tableParts count="1"><tablePart r:id="{table_rel_id}"/></tableParts>',
         "</worksheet>",
     ])

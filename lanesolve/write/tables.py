@@ -5,7 +5,10 @@ Every function here reads only the :class:`~lanesolve.model.network.Network`, th
 into worksheet XML is :mod:`lanesolve.write.sheetxml`'s job and splicing them into the workbook zip is
 :mod:`lanesolve.write.writeback`'s.
 
-Values: ``None`` and NaN are blank cells; ``+inf`` (a capacity without limit) is the text ``"no limit"``, everywhere.
+Headers are plain words with their unit or currency in brackets ("Flow (pallets)", "Variable cost (EUR)"); each
+column has a kind (:data:`KINDS`) that picks its number format, so cells keep full precision and the format does
+the rounding (rate x flow = cost holds in the cells). Values: ``None``, NaN and infinity are blank cells; a column
+where blank means "no limit" says so in its header.
 """
 
 from __future__ import annotations
@@ -17,9 +20,10 @@ from dataclasses import dataclass, field
 import pandas as pd
 
 from lanesolve.contract import RESULT_PREFIX
-from lanesolve.model.result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, node_decisions
+from lanesolve.model.result import CAUTION, COST_LABELS, cost_order, node_decisions, singular
 
-#: Text written for an infinite value (a lane or hub capacity without limit).
+#: Kept for code that names it: the words "no limit". Result sheets now leave such a cell blank and say in the
+#: column's header that blank means no limit (text in a number column breaks sums and filters).
 NO_LIMIT = "no limit"
 
 SUMMARY_SHEET = RESULT_PREFIX + "Summary"
@@ -29,19 +33,34 @@ DESIGN_SHEET = RESULT_PREFIX + "Depots and hubs"
 TRIPS_SHEET = RESULT_PREFIX + "Trips"
 SENSITIVITY_SHEET = RESULT_PREFIX + "Sensitivity"
 WHY_SHEET = RESULT_PREFIX + "Why no plan"
+SCENARIOS_SHEET = RESULT_PREFIX + "Scenarios"
 
-KINDS = ("text", "quantity", "money", "percent", "number")
-#: Decimals kept per column kind, for reading; "number" and "text" are written as given.
-DECIMALS = {"money": 2, "quantity": 4, "percent": 1}
+#: Every result sheet name lanesolve writes (or wrote in earlier versions); see
+#: :func:`lanesolve.write.writeback.result_sheet_clashes`.
+KNOWN_SHEETS = (SUMMARY_SHEET, FLOWS_SHEET, NODES_SHEET, DESIGN_SHEET, TRIPS_SHEET, SENSITIVITY_SHEET, WHY_SHEET,
+                SCENARIOS_SHEET)
 
-COST_WORDS = {
-    "transport": "transport cost",
-    "handling": "handling cost",
-    "fixed_lane": "fixed lane charges",
-    "unmet_penalty": "unmet demand penalties",
-    "fixed_node": "fixed depot and hub charges",
-    "trips": "trip costs",
+#: The summary row whose label marks an LS Summary sheet as lanesolve's own (the fingerprint that lets a workbook
+#: solved before result sheets carried a mark be rerun; see :mod:`lanesolve.write.writeback`).
+FINGERPRINT_ITEM = "lanesolve version"
+
+#: Column kinds and the number format each gets (OOXML number format codes, ECMA-376 Part 1, 18.8.31). A
+#: ``percent`` cell holds a fraction (0.5) that the format shows as 50.0 %; ``text`` and ``number`` get no format.
+NUMBER_FORMATS = {
+    "quantity": "#,##0.0#",
+    "money": "#,##0.00",
+    "rate": "#,##0.00##",  # 2 to 4 decimals: a rounded rate next to its cost still multiplies out
+    "percent": "0.0%",
+    "distance": "#,##0.0",
+    "count": "#,##0",
+    "seconds": "0.000",
 }
+KINDS = ("text", "number", *NUMBER_FORMATS)
+#: Kept for code that names it: cells are no longer rounded, their number format rounds for display.
+DECIMALS: dict[str, int] = {}
+
+#: Labels of the cost components on the sheets (the one set every report uses).
+COST_WORDS = COST_LABELS
 
 #: Plain words for the ``figure`` column of :attr:`lanesolve.model.result.Result.sensitivity`.
 FIGURE_WORDS = {
@@ -65,18 +84,25 @@ class ResultSheet:
     columns : list of str
         Header row; the names must be unique (they become the table's column names).
     rows : list of list
-        Cell values: str, int, float, bool or None. NaN and None are blank, ``+inf`` is ``"no limit"``.
+        Cell values: str, int, float, bool or None. NaN, None and infinities are blank.
     kinds : dict
-        Column name -> ``"text"``, ``"quantity"``, ``"money"``, ``"percent"`` or ``"number"``; decides rounding
-        (see :data:`DECIMALS`). Columns not listed are ``"number"`` (written as given).
+        Column name -> one of :data:`KINDS`; picks the column's number format (:data:`NUMBER_FORMATS`). Columns
+        not listed are ``"number"`` (no format).
+    cell_kinds : dict
+        ``(row index, column index)`` -> kind, for a cell whose kind differs from its column's (the summary's
+        value column holds money, counts and text).
     """
 
     name: str
     columns: list[str]
     rows: list[list] = field(default_factory=list)
     kinds: dict[str, str] = field(default_factory=dict)
+    cell_kinds: dict[tuple[int, int], str] = field(default_factory=dict)
 
 
+# ---------------------------------------------------------------------------------------------------------------
+# Building the sheets from a result
+# ---------------------------------------------------------------------------------------------------------------
 
 def _plain(value):
     """A pandas/numpy scalar as a plain Python value (None for missing)."""
@@ -102,61 +128,75 @@ def _plain(value):
 
 
 def _percent(fraction) -> float | None:
-    """A utilisation fraction (0.5) as a percentage (50.0); None when there is none (no limit, NaN)."""
+    """A utilisation fraction as it goes in a ``percent`` cell (the fraction itself; the format shows 50.0 %);
+    None when there is none (no limit, NaN)."""
     fraction = _plain(fraction)
     if fraction is None or not isinstance(fraction, numbers.Real) or not math.isfinite(fraction):
         return None
-    return float(fraction) * 100.0
+    return float(fraction)
 
 
 def cost_keys(result) -> list[str]:
-    """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
-
-    A v1 result has :data:`~lanesolve.model.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
-    over the keys the result has (not a fixed list) keeps every component on the sheet, so they add up to the total.
-    """
-    order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
-    keys = list(result.cost_breakdown)
-    return [k for k in order if k in keys] + [k for k in keys if k not in order]
+    """The keys of ``result.cost_breakdown`` in report order (:func:`lanesolve.model.result.cost_order`)."""
+    return cost_order(result.cost_breakdown)
 
 
-def _summary_rows(network, result, info) -> list[list]:
-    def money(x):
-        x = _plain(x)
-        return None if x is None else round(float(x), 2)
+@dataclass(frozen=True)
+class Labels:
+    """The unit words of one workbook, for headers: ``Labels("pallets", "EUR")``."""
 
-    def optional(x, digits=None, none_text="not applicable (no yes/no decisions)"):
-        x = _plain(x)
-        if x is None:
-            return none_text
-        return round(float(x), digits) if digits is not None else float(x)
+    units: str = "units"
+    currency: str = ""
 
+    @classmethod
+    def of(cls, settings) -> "Labels":
+        return cls(str(getattr(settings, "units", "") or "units"), str(getattr(settings, "currency", "") or ""))
+
+    def money(self, words: str) -> str:
+        """``"Variable cost (EUR)"``; without a currency label just the words."""
+        return f"{words} ({self.currency})" if self.currency else words
+
+    def quantity(self, words: str, no_limit: bool = False) -> str:
+        """``"Flow (pallets)"``; with ``no_limit`` the header says that a blank cell means no limit."""
+        return f"{words} ({self.units}; blank = no limit)" if no_limit else f"{words} ({self.units})"
+
+    def rate(self, words: str) -> str:
+        """``"Rate (EUR per pallet)"``."""
+        money = f"{self.currency} " if self.currency else ""
+        return f"{words} ({money}per {singular(self.units)})"
+
+
+def _summary_rows(network, result, info, labels: Labels) -> tuple[list[list], dict[tuple[int, int], str]]:
+    """The LS Summary rows (item, value) and the kind of each value cell."""
     settings = network.settings
     inactive = int((~network.lanes["active"].astype(bool)).sum()) if len(network.lanes) else 0
-    rows: list[list] = [
-        ["status", result.status.value],
-        ["total cost", money(result.total_cost)],
+    no_decisions = "not applicable (no yes/no decisions)"
+    rows: list[tuple[str, object, str]] = [
+        ("Status", result.status.value, "text"),
+        (labels.money("Total cost"), _plain(result.total_cost), "money"),
     ]
-    for key in cost_keys(result):
-        rows.append([COST_WORDS.get(key, key.replace("_", " ")), money(result.cost_breakdown.get(key, 0.0))])
+    # The cost lines every report shows: the same components, amounts and order as the chart and the HTML table.
+    rows += [(labels.money(line.label), line.amount, "money") for line in result.cost_lines()]
+    gap, bound = _plain(result.mip_gap), _plain(result.best_bound)
     rows += [
-        ["units", settings.units or None],
-        ["currency", settings.currency or None],
-        ["solver", result.solver or None],
-        ["MIP gap", optional(result.mip_gap)],
-        ["best bound", optional(result.best_bound, 2)],
-        ["solve seconds", round(float(result.solve_seconds), 3)],
-        ["input file", info.input_path],
-        ["input SHA-256", info.checksum],
-        ["lanesolve version", info.version],
-        ["run at", info.started],
-        ["lanes used", int(len(result.flows))],
-        ["inactive lanes left out", inactive],
-        ["customers short", int(len(result.unmet))],
+        ("Units", settings.units or None, "text"),
+        ("Currency", settings.currency or None, "text"),
+        ("Solver", result.solver or None, "text"),
+        ("Optimality gap", no_decisions if gap is None else float(gap), "text" if gap is None else "percent"),
+        (labels.money("Best bound"), no_decisions if bound is None else float(bound),
+         "text" if bound is None else "money"),
+        ("Solve time (s)", float(result.solve_seconds), "seconds"),
+        ("Input file", info.input_path, "text"),
+        ("Input SHA-256", info.checksum, "text"),
+        (FINGERPRINT_ITEM, info.version, "text"),
+        ("Run at", info.started, "text"),
+        ("Lanes used", int(len(result.flows)), "count"),
+        ("Inactive lanes left out", inactive, "count"),
+        ("Customers short", int(len(result.unmet)), "count"),
     ]
-    rows += [["message", str(message)] for message in result.messages]
-    rows.append(["caution", CAUTION])
-    return rows
+    rows += [("Message", str(message), "text") for message in result.messages]
+    rows.append(("Caution", CAUTION, "text"))
+    return [[item, value] for item, value, _ in rows], {(i, 1): kind for i, (_, _, kind) in enumerate(rows)}
 
 
 def result_sheets(network, result, info) -> list[ResultSheet]:
@@ -190,15 +230,18 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
     ...                        started="2024-01-01T00:00:00+00:00")
     >>> [s.name for s in result_sheets(net, Result(SolveStatus.INFEASIBLE), info)]
     ['LS Summary', 'LS Lane flows', 'LS Nodes', 'LS Why no plan']
+    >>> result_sheets(net, Result(SolveStatus.INFEASIBLE), info)[1].columns[:5]
+    ['Origin', 'Destination', 'Mode', 'Flow (units)', 'Rate (per unit)']
     """
-    summary = ResultSheet(SUMMARY_SHEET, ["item", "value"], _summary_rows(network, result, info),
-                          {"item": "text", "value": "number"})
+    labels = Labels.of(network.settings)
+    summary_rows, summary_kinds = _summary_rows(network, result, info, labels)
+    summary = ResultSheet(SUMMARY_SHEET, ["Item", "Value"], summary_rows, {"Item": "text", "Value": "number"},
+                          summary_kinds)
 
-    flow_columns = ["origin", "destination", "mode", "flow", "cost_per_unit", "variable_cost", "fixed_charge",
-                    "capacity", "utilisation %", "status"]
-    flow_kinds = {"origin": "text", "destination": "text", "mode": "text", "flow": "quantity",
-                  "cost_per_unit": "money", "variable_cost": "money", "fixed_charge": "money",
-                  "capacity": "quantity", "utilisation %": "percent", "status": "text"}
+    spec = [("Origin", "text"), ("Destination", "text"), ("Mode", "text"), (labels.quantity("Flow"), "quantity"),
+            (labels.rate("Rate"), "rate"), (labels.money("Variable cost"), "money"),
+            (labels.money("Fixed charge"), "money"), (labels.quantity("Capacity", no_limit=True), "quantity"),
+            ("Utilisation", "percent"), ("Status", "text")]
     flow_rows: list[list] = []
     flows = result.flows
     if len(flows):
@@ -215,13 +258,14 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
         for lane in inactive.itertuples(index=False):
             flow_rows.append([lane.origin, lane.destination, lane.mode, 0.0, _plain(lane.cost_per_unit), 0.0, 0.0,
                               _plain(lane.capacity), None, "inactive, left out"])
-    flow_columns, flow_kinds = _with_cost_sources(network, flow_columns, flow_kinds, flow_rows)
-    flows_sheet = ResultSheet(FLOWS_SHEET, flow_columns, flow_rows, flow_kinds)
+    spec = _with_cost_sources(network, spec, flow_rows)
+    flows_sheet = ResultSheet(FLOWS_SHEET, [c for c, _ in spec], flow_rows, dict(spec))
 
-    node_columns = ["node", "kind", "supply", "demand", "shipped", "received", "unmet", "capacity", "throughput",
-                    "utilisation %"]
-    node_kinds = {c: "quantity" for c in node_columns}
-    node_kinds.update({"node": "text", "kind": "text", "utilisation %": "percent"})
+    node_spec = [("Node", "text"), ("Kind", "text"), (labels.quantity("Supply"), "quantity"),
+                 (labels.quantity("Demand"), "quantity"), (labels.quantity("Shipped"), "quantity"),
+                 (labels.quantity("Received"), "quantity"), (labels.quantity("Unmet"), "quantity"),
+                 (labels.quantity("Capacity", no_limit=True), "quantity"), (labels.quantity("Throughput"), "quantity"),
+                 ("Utilisation", "percent")]
     node_rows: list[list] = []
     nodes = result.nodes
     if len(nodes):
@@ -230,7 +274,7 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
         utilisation = nodes["utilisation"].tolist()
         for i in range(len(nodes)):
             node_rows.append([_plain(col[i]) for col in columns] + [_percent(utilisation[i])])
-    nodes_sheet = ResultSheet(NODES_SHEET, node_columns, node_rows, node_kinds)
+    nodes_sheet = ResultSheet(NODES_SHEET, [c for c, _ in node_spec], node_rows, dict(node_spec))
     return [summary, flows_sheet, nodes_sheet, *insight_sheets(network, result)]
 
 
@@ -246,53 +290,51 @@ def insight_sheets(network, result) -> list[ResultSheet]:
     -------
     list of ResultSheet
         In this order, each only when it applies: ``"LS Depots and hubs"`` (a plan for a network with open/close
-        or other v2 decisions, :attr:`Network.has_design`), ``"LS Trips"`` (a plan with lanes run in whole trips),
-        ``"LS Sensitivity"`` (every plan; says so when no figures were computed) and ``"LS Why no plan"`` (an
-        infeasible result). A v1 plan thus gains only the sensitivity sheet. Sheets a run does not write are still
-        dropped from the workbook, as every sheet with the prefix is (see :func:`write_results`).
+        or other design decisions, :attr:`Network.has_design`), ``"LS Trips"`` (a plan with lanes run in whole
+        trips), ``"LS Sensitivity"`` (every plan; says so when no figures were computed) and ``"LS Why no plan"``
+        (an infeasible result). Sheets a run does not write are still dropped from the workbook, as every earlier
+        result sheet is (see :func:`lanesolve.write.writeback.write_results`).
     """
+    labels = Labels.of(network.settings)
     sheets = []
     if result.status.has_plan:
         if network.has_design and len(result.open_nodes):
-            sheets.append(design_sheet(result))
+            sheets.append(design_sheet(result, labels))
         if len(result.trips):
-            sheets.append(trips_sheet(result))
+            sheets.append(trips_sheet(result, labels))
         sheets.append(sensitivity_sheet(result))
     elif result.status.value == "infeasible":
         sheets.append(why_no_plan_sheet(network, result))
     return sheets
 
 
-def design_sheet(result) -> ResultSheet:
+def design_sheet(result, labels: Labels = Labels()) -> ResultSheet:
     """``"LS Depots and hubs"``: every depot and hub with the status given, the plan's decision and its use.
 
     Throughput is the net quantity shipped for a depot (what its supply bounds) and the quantity passing through
     for a hub; capacity is the depot's supply or the hub's capacity (see :func:`lanesolve.model.solve.node_balance`).
     """
-    columns = ["depot or hub", "kind", "status given", "decision", "fixed charge paid", "throughput", "capacity",
-               "utilisation %"]
-    kinds = {"depot or hub": "text", "kind": "text", "status given": "text", "decision": "text",
-             "fixed charge paid": "money", "throughput": "quantity", "capacity": "quantity",
-             "utilisation %": "percent"}
+    spec = [("Depot or hub", "text"), ("Kind", "text"), ("Status given", "text"), ("Decision", "text"),
+            (labels.money("Fixed charge paid"), "money"), (labels.quantity("Throughput"), "quantity"),
+            (labels.quantity("Capacity", no_limit=True), "quantity"), ("Utilisation", "percent")]
     rows = []
     for node in node_decisions(result).itertuples(index=False):
         throughput, capacity, utilisation = node.used, node.limit, _percent(node.utilisation)
         rows.append([_plain(node.node), _plain(node.kind), _plain(node.status), "open" if node.open else "closed",
                      _plain(node.fixed_charge), _plain(throughput), _plain(capacity), utilisation])
-    return ResultSheet(DESIGN_SHEET, columns, rows, kinds)
+    return ResultSheet(DESIGN_SHEET, [c for c, _ in spec], rows, dict(spec))
 
 
-def trips_sheet(result) -> ResultSheet:
+def trips_sheet(result, labels: Labels = Labels()) -> ResultSheet:
     """``"LS Trips"``: lanes run in whole trips, with the trips, their cost and how full the trucks are.
 
     The last truck carries what is left after the full ones: ``flow - (trips - 1) * trip_capacity``; the average
     fill is ``flow / (trips * trip_capacity)``.
     """
-    columns = ["origin", "destination", "mode", "flow", "trip capacity", "trips", "cost per trip", "trip cost",
-               "last truck fill %", "average fill %"]
-    kinds = {"origin": "text", "destination": "text", "mode": "text", "flow": "quantity",
-             "trip capacity": "quantity", "trips": "number", "cost per trip": "money", "trip cost": "money",
-             "last truck fill %": "percent", "average fill %": "percent"}
+    spec = [("Origin", "text"), ("Destination", "text"), ("Mode", "text"), (labels.quantity("Flow"), "quantity"),
+            (f"Trip capacity ({labels.units} per trip)", "quantity"), ("Trips", "count"),
+            (labels.money("Cost per trip"), "money"), (labels.money("Trip cost"), "money"),
+            ("Last truck fill", "percent"), ("Average fill", "percent")]
     rows = []
     for lane in result.trips.itertuples(index=False):
         flow, size, trips = float(lane.flow), float(lane.trip_capacity), int(lane.trips)
@@ -302,7 +344,7 @@ def trips_sheet(result) -> ResultSheet:
             average = _percent(flow / (trips * size))
         rows.append([_plain(lane.origin), _plain(lane.destination), _plain(lane.mode), flow, size, trips,
                      _plain(lane.cost_per_trip), _plain(lane.trip_cost), last, average])
-    return ResultSheet(TRIPS_SHEET, columns, rows, kinds)
+    return ResultSheet(TRIPS_SHEET, [c for c, _ in spec], rows, dict(spec))
 
 
 #: The sensitivity sheet lists at most this many unused lanes' reduced costs, the nearest to being used first: on a
@@ -383,38 +425,53 @@ def why_no_plan_sheet(network, result) -> ResultSheet:
     return ResultSheet(WHY_SHEET, columns, rows, kinds)
 
 
-def _with_cost_sources(network, columns: list[str], kinds: dict[str, str], rows: list[list]):
-    """Add ``distance`` and ``cost_source`` to the lane flow rows (in place) when any lane has a distance or a cost
+def _with_cost_sources(network, spec: list[tuple[str, str]], rows: list[list]) -> list[tuple[str, str]]:
+    """Add the distance and the cost source to the lane flow rows (in place) when any lane has a distance or a cost
     computed from one, so the planner sees where each cost came from; otherwise the sheet keeps its columns."""
     found = network.cost_source_by_lane()
     if found is None:
-        return columns, kinds
+        return spec
     for row in rows:  # origin, destination and mode lead every row and are unique per lane (validated)
         distance, source = found.get((row[0], row[1], row[2]), (None, None))
         row += [_plain(distance) if distance == distance else None, source]
-    return columns + ["distance", "cost_source"], {**kinds, "distance": "number", "cost_source": "text"}
+    unit = getattr(network.settings, "distance_unit", "") or "km"
+    return spec + [(f"Distance ({unit})", "distance"), ("Cost source", "text")]
 
 
-SCENARIOS_SHEET = RESULT_PREFIX + "Scenarios"
-
-
-def frame_sheet(name: str, frame, kinds: dict[str, str]) -> ResultSheet:
-    """A result sheet holding a DataFrame as it is: its columns as headers, one row per frame row.
+def frame_sheet(name: str, frame, kinds: dict[str, str], headers: dict[str, str] | None = None) -> ResultSheet:
+    """A result sheet holding a DataFrame as it is: one row per frame row.
 
     ``kinds`` gives the kind of each column (see :data:`KINDS`); columns not named are ``"number"`` when numeric,
-    else ``"text"``.
+    else ``"text"``. ``headers`` maps a column to its header text (the column name where not given).
     """
-    columns = [str(c) for c in frame.columns]
-    kinds = {c: kinds.get(c, "number" if frame[c].dtype.kind in "fiu" else "text") for c in columns}
+    headers = headers or {}
+    names = [str(c) for c in frame.columns]
+    columns = [headers.get(c, c) for c in names]
+    kinds = {headers.get(c, c): kinds.get(c, "number" if frame[c].dtype.kind in "fiu" else "text") for c in names}
     data = [frame[c].tolist() for c in frame.columns]
     rows = [[_plain(col[i]) for col in data] for i in range(len(frame))]
     return ResultSheet(name, columns, rows, kinds)
 
 
-def scenario_sheet(comparison) -> ResultSheet:
+def scenario_sheet(comparison, settings=None) -> ResultSheet:
     """``"LS Scenarios"``: the baseline and every scenario side by side (the frame of
-    :func:`lanesolve.model.scenarios.compare`)."""
-    money = ("total_cost", "transport", "handling", "fixed_lane", "unmet_penalty", "delta_cost")
-    kinds = {**dict.fromkeys(money, "money"), "delta_pct": "percent", "unmet_units": "quantity",
-             "lanes_used": "number"}
-    return frame_sheet(SCENARIOS_SHEET, comparison, kinds)
+    :func:`lanesolve.model.scenarios.compare`), with plain-word headers.
+
+    Every cost component the comparison has is a column, so the cost columns add up to the total cost. The change
+    in percent is written as a fraction with a percent format.
+    """
+    labels = Labels.of(settings)
+    frame = comparison.copy()
+    if "delta_pct" in frame:
+        frame["delta_pct"] = frame["delta_pct"] / 100.0  # the format shows the fraction as a percentage
+    cost_columns = [c for c in frame.columns if c in COST_LABELS]
+    headers = {"scenario": "Scenario", "status": "Status", "total_cost": labels.money("Total cost"),
+               **{c: labels.money(COST_LABELS[c]) for c in cost_columns},
+               "delta_cost": labels.money("Change in cost"), "delta_pct": "Change in cost (%)",
+               "unmet_units": labels.quantity("Unmet demand"), "lanes_used": "Lanes used",
+               "lanes_opened": "Lanes now used", "lanes_closed": "Lanes no longer used",
+               "nodes_opened": "Depots and hubs now used", "nodes_closed": "Depots and hubs no longer used",
+               "largest_shifts": labels.quantity("Largest volume shifts")}
+    kinds = {**dict.fromkeys(["total_cost", *cost_columns, "delta_cost"], "money"), "delta_pct": "percent",
+             "unmet_units": "quantity", "lanes_used": "count"}
+    return frame_sheet(SCENARIOS_SHEET, frame, kinds, headers)

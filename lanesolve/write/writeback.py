@@ -4,29 +4,31 @@ A workbook (.xlsx, .xlsm) is a zip of XML parts. Loading it into a spreadsheet l
 every part and drops what the library does not model (charts' finer formatting, images, slicers, shapes), and is slow
 for large lane sheets. This module instead
 
-1. copies every member of the source zip unchanged (the same uncompressed bytes), except the parts that belong to
-   earlier result sheets (sheets whose name starts with :data:`lanesolve.contract.RESULT_PREFIX`): their worksheet
-   part, its relationships part and its table parts are dropped;
-2. edits the four index parts as text, with targeted edits only -- ``xl/workbook.xml`` (the ``<sheets>`` list,
-   ``localSheetId`` of defined names, ``activeTab``/``firstSheet``), ``xl/_rels/workbook.xml.rels``,
-   ``[Content_Types].xml`` and ``docProps/app.xml`` (sheet titles and counts, when present and well formed).
+1. finds the sheets an earlier run wrote -- those listed by the mark, a hidden defined name
+   (:data:`MARK_NAME`) every run writes, or, in a workbook solved before results carried a mark, the sheets named
+   exactly like a result sheet when *LS Summary* holds lanesolve's own "lanesolve version" row. Any other sheet
+   is the planner's and is kept, even one whose name starts with :data:`lanesolve.contract.RESULT_PREFIX`; one
+   named like a result sheet stops the run with a :class:`~lanesolve.errors.WriteError` (rename it);
+2. copies every member of the source zip unchanged (the same uncompressed bytes), except the parts of those
+   earlier result sheets: their worksheet part, its relationships part and its table parts are dropped;
+3. edits the index parts as text, with targeted edits only -- ``xl/workbook.xml`` (the ``<sheets>`` list,
+   ``localSheetId`` of defined names, ``activeTab``/``firstSheet``, the mark and the print titles),
+   ``xl/_rels/workbook.xml.rels``, ``[Content_Types].xml``, ``docProps/app.xml`` (sheet titles and counts, when
+   present and well formed) and ``xl/styles.xml`` (number formats appended, every existing entry and index kept).
    They are never round-tripped through an XML library, which would rename namespace prefixes and break
    ``mc:Ignorable`` (a spreadsheet program then refuses the file);
-3. adds one worksheet part and one table part per result sheet. Text is written as inline strings, so
-   ``xl/sharedStrings.xml`` and ``xl/styles.xml`` stay byte-identical and text that looks like a formula
-   (``=SUM(A1)``) can only ever be text. Looks come from a built-in table style (banded rows, header row with
-   filter buttons), column widths sized to the content and a frozen header row; numbers are rounded for reading
-   (money 2 decimals, quantities 4, percentages 1) instead of carrying a number format, since a number format
-   would need a new entry in ``styles.xml``.
+4. adds one worksheet part and one table part per result sheet (:mod:`lanesolve.write.sheetxml`).
 
 The sheets themselves are built in :mod:`lanesolve.write.tables` (what goes in them) and
-:mod:`lanesolve.write.sheetxml` (their XML); the index edits of step 2 are in :mod:`lanesolve.write.zipindex`.
+:mod:`lanesolve.write.sheetxml` (their XML); the index edits of step 3 are in :mod:`lanesolve.write.zipindex`.
 This module holds the zip splice and re-exports the public names of the other three.
 """
 
 from __future__ import annotations
 
+import html
 import posixpath
+import re
 import shutil
 import time
 import zipfile
@@ -36,7 +38,8 @@ from lanesolve.write import atomic
 from lanesolve.contract import RESULT_PREFIX
 from lanesolve.errors import WriteError
 from lanesolve.write.tables import (  # noqa: F401  (re-exported: the public names of the result sheets)
-    CAUTION, COST_WORDS, DECIMALS, DESIGN_SHEET, FIGURE_WORDS, FLOWS_SHEET, KINDS, MAX_REDUCED_COST_ROWS, NO_LIMIT,
+    CAUTION, COST_WORDS, DECIMALS, DESIGN_SHEET, FIGURE_WORDS, FINGERPRINT_ITEM, FLOWS_SHEET, KINDS, KNOWN_SHEETS,
+    MAX_REDUCED_COST_ROWS, NO_LIMIT, NUMBER_FORMATS,
     NODES_SHEET, SCENARIOS_SHEET, SENSITIVITY_SHEET, SUMMARY_SHEET, TRIPS_SHEET, WHY_SHEET, ResultSheet, cost_keys,
     design_sheet, frame_sheet, insight_sheets, result_sheets, scenario_sheet, sensitivity_sheet, trips_sheet,
     why_no_plan_sheet)
@@ -44,7 +47,8 @@ from lanesolve.write.sheetxml import (  # noqa: F401  (sheet_xml and table_xml a
     _FORBIDDEN_CHARS, REL_NS, TABLE_STYLE, _attributes, _header_names, _rels_path, _table_name, _tags, sheet_xml,
     table_xml)
 from lanesolve.write.zipindex import (
-    _edit_app, _edit_content_types, _edit_rels, _edit_workbook, _parse_rels, _SheetEntry)
+    _edit_app, _edit_content_types, _edit_rels, _edit_workbook, _parse_rels, _SheetEntry, add_number_formats,
+    defined_name_values)
 
 __all__ = [
     "CAUTION", "COST_WORDS", "DECIMALS", "DESIGN_SHEET", "FIGURE_WORDS", "FLOWS_SHEET", "KINDS",
@@ -66,6 +70,14 @@ MACRO_MAIN_TYPE = "application/vnd.ms-excel.sheet.macroEnabled.main+xml"
 WORKBOOK = "xl/workbook.xml"
 CONTENT_TYPES = "[Content_Types].xml"
 APP = "docProps/app.xml"
+STYLES = "xl/styles.xml"
+
+#: The mark: a hidden workbook-wide defined name whose value lists the result sheets lanesolve wrote, so a rerun
+#: replaces exactly those and never a planner's sheet that happens to share a name. A defined name (rather than a
+#: custom document property) lives in workbook.xml, which the writer edits anyway, and spreadsheet programs keep
+#: hidden names when they save.
+MARK_NAME = "_lanesolve_result_sheets"
+MARK_SEPARATOR = ";"
 
 
 def _check_sheets(sheets: list[ResultSheet]) -> None:
@@ -83,6 +95,121 @@ def _check_sheets(sheets: list[ResultSheet]) -> None:
         for kind in sheet.kinds.values():
             if kind not in KINDS:
                 raise WriteError(f"result sheet {name!r}: unknown column kind {kind!r} (one of {', '.join(KINDS)})")
+
+
+def _sheet_entries(workbook: str, rels: dict) -> list[_SheetEntry]:
+    """The workbook's sheets in tab order, each with its part and relationship type."""
+    entries: list[_SheetEntry] = []
+    for m in _tags(workbook, "sheet"):
+        attrs = _attributes(m.group(0))
+        rel_id = next((v for k, v in attrs.items() if k.endswith(":id")), "")
+        rel = rels.get(rel_id)
+        sheet_id = int(attrs.get("sheetId", "0")) if attrs.get("sheetId", "0").isdigit() else 0
+        entries.append(_SheetEntry(attrs.get("name", ""), sheet_id, rel_id, m,
+                                   rel[2] if rel else None, rel[0] if rel else ""))
+    return entries
+
+
+def _marked_names(workbook: str) -> set[str] | None:
+    """The sheet names the mark of an earlier run lists, or None when the workbook carries no mark."""
+    values = defined_name_values(workbook, MARK_NAME)
+    if not values:
+        return None
+    names: set[str] = set()
+    for value in values:
+        value = value.strip()
+        if len(value) >= 2 and value[0] == value[-1] == '"':
+            value = value[1:-1].replace('""', '"')
+        names.update(n for n in value.split(MARK_SEPARATOR) if n)
+    return names
+
+
+def _has_fingerprint(zin: zipfile.ZipFile, part: str | None) -> bool:
+    """Whether a sheet part holds lanesolve's own summary row (:data:`FINGERPRINT_ITEM`), written inline as
+    lanesolve writes it or as a shared string after a spreadsheet program saved the workbook."""
+    text = _read_text(zin, part) if part else None
+    if text is None:
+        return False
+    wanted = FINGERPRINT_ITEM.lower()
+    inline = re.findall(r"<(?:[\w.-]+:)?t\b[^>]*>([^<]*)</(?:[\w.-]+:)?t\s*>", text)
+    if any(html.unescape(s).strip().lower() == wanted for s in inline):
+        return True
+    shared = _read_text(zin, "xl/sharedStrings.xml")
+    if shared is None:
+        return False
+    items = re.findall(r"<(?:[\w.-]+:)?si\b[^>]*>(.*?)</(?:[\w.-]+:)?si\s*>", shared, re.S)
+    indices = {str(i) for i, item in enumerate(items)
+               if "".join(html.unescape(s) for s in re.findall(r">([^<]*)<", item)).strip().lower() == wanted}
+    cells = re.findall(r"<(?:[\w.-]+:)?c\b[^>]*\bt=[\"']s[\"'][^>]*>\s*<(?:[\w.-]+:)?v>(\d+)<", text)
+    return bool(indices & set(cells))
+
+
+def _lanesolve_sheets(zin: zipfile.ZipFile, workbook: str, entries: list[_SheetEntry]) -> list[_SheetEntry]:
+    """The sheets an earlier lanesolve run wrote: the ones its mark lists or, in a workbook solved before result
+    sheets carried a mark, the sheets named exactly like a known result sheet when LS Summary carries the
+    fingerprint. Every other sheet -- a planner's own "LS Notes" included -- is the planner's."""
+    worksheets = [e for e in entries if e.name.startswith(RESULT_PREFIX) and e.rel_type.endswith("/worksheet")]
+    marked = _marked_names(workbook)
+    if marked is not None:
+        return [e for e in worksheets if e.name in marked]
+    summary = next((e for e in worksheets if e.name == SUMMARY_SHEET), None)
+    if summary is None or not _has_fingerprint(zin, summary.part):
+        return []
+    return [e for e in worksheets if e.name in KNOWN_SHEETS]
+
+
+def _clashes(kept: list[_SheetEntry], names: list[str]) -> list[str]:
+    """The planner's sheets named like a result sheet lanesolve writes (names ignore case)."""
+    wanted = {n.lower() for n in (*KNOWN_SHEETS, *names)}
+    return [e.name for e in kept if e.name.lower() in wanted]
+
+
+def _clash_message(clashes: list[str]) -> str:
+    listed = ", ".join(repr(n) for n in clashes)
+    return (f"the workbook has its own sheet{'s' if len(clashes) > 1 else ''} named {listed}, which lanesolve "
+            "uses for its results but did not write; lanesolve does not replace a sheet it did not write. Rename "
+            f"{'those sheets' if len(clashes) > 1 else 'that sheet'} (for example to "
+            f"{clashes[0].replace(RESULT_PREFIX, 'My ', 1)!r}) and run again")
+
+
+def check_result_sheets(path: str | Path) -> None:
+    """Refuse, before any solving, a workbook with a sheet of its own named like a result sheet.
+
+    Parameters
+    ----------
+    path : path-like
+        The workbook the results will be written into (.xlsx or .xlsm).
+
+    Raises
+    ------
+    WriteError
+        A sheet lanesolve did not write (no mark lists it, see :func:`write_results`) has the name of a result
+        sheet (:data:`~lanesolve.write.tables.KNOWN_SHEETS`, ignoring case); the message names each such sheet
+        and says to rename it. A file that is not a workbook zip is left to the writer to report.
+    """
+    try:
+        zin = zipfile.ZipFile(path)
+    except (OSError, zipfile.BadZipFile):
+        return
+    with zin:
+        workbook, wb_rels = _read_text(zin, WORKBOOK), _read_text(zin, _rels_path(WORKBOOK))
+        if workbook is None or wb_rels is None:
+            return
+        entries = _sheet_entries(workbook, _parse_rels(wb_rels, "xl"))
+        ours = _lanesolve_sheets(zin, workbook, entries)
+        clashes = _clashes([e for e in entries if e not in ours], [])
+    if clashes:
+        raise WriteError(_clash_message(clashes))
+
+
+def _new_defined_names(sheets: list[ResultSheet], first_position: int) -> list[tuple[str, int | None, str, bool]]:
+    """The mark listing the result sheets written, and each sheet's print titles (its header row on every page)."""
+    mark = '"' + MARK_SEPARATOR.join(s.name for s in sheets).replace('"', '""') + '"'
+    names = [(MARK_NAME, None, mark, True)]
+    for position, sheet in enumerate(sheets, start=first_position):
+        quoted = sheet.name.replace("'", "''")
+        names.append(("_xlnm.Print_Titles", position, f"'{quoted}'!$1:$1", False))
+    return names
 
 
 def _read_text(zin: zipfile.ZipFile, member: str) -> str | None:
@@ -124,22 +251,12 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
                              f"the file name must end in {want} (spreadsheet programs refuse a mismatch)")
 
         rels = _parse_rels(wb_rels, "xl")
-        entries: list[_SheetEntry] = []
-        for m in _tags(workbook, "sheet"):
-            attrs = _attributes(m.group(0))
-            rel_id = next((v for k, v in attrs.items() if k.endswith(":id")), "")
-            rel = rels.get(rel_id)
-            sheet_id = int(attrs.get("sheetId", "0")) if attrs.get("sheetId", "0").isdigit() else 0
-            entries.append(_SheetEntry(attrs.get("name", ""), sheet_id, rel_id, m,
-                                       rel[2] if rel else None, rel[0] if rel else ""))
-        dropped = [e for e in entries if e.name.startswith(RESULT_PREFIX) and e.rel_type.endswith("/worksheet")]
+        entries = _sheet_entries(workbook, rels)
+        dropped = _lanesolve_sheets(zin, workbook, entries)
         kept = [e for e in entries if e not in dropped]
-        kept_lower = {e.name.lower(): e.name for e in kept}
-        for sheet in sheets:
-            if sheet.name.lower() in kept_lower:
-                raise WriteError(f"cannot add the result sheet {sheet.name!r}: the workbook already has a sheet "
-                                 f"named {kept_lower[sheet.name.lower()]!r} (sheet names ignore case); rename that "
-                                 "sheet and run again")
+        clashes = _clashes(kept, [s.name for s in sheets])
+        if clashes:
+            raise WriteError(_clash_message(clashes))
 
         # Members of the earlier result sheets: worksheet part, its rels, its tables.
         dropped_parts: set[str] = set()
@@ -171,6 +288,14 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
         for m in _tags(workbook, "definedName"):
             taken_names.add(_attributes(m.group(0)).get("name", "").lower())
 
+        # Number formats: appended to styles.xml (existing entries untouched); without a styles part the sheets
+        # carry no formats rather than a styles.xml this module would have to invent.
+        styles: dict[str, int] = {}
+        styles_text = _read_text(zin, STYLES) if STYLES in remaining else None
+        formatted = add_number_formats(styles_text, NUMBER_FORMATS) if styles_text is not None else None
+        if formatted is not None:
+            styles_text, styles = formatted
+
         used_rel_ids = set(rels)
         next_sheet_id = max([e.sheet_id for e in entries] + [0]) + 1
         next_table_id = max(table_ids | {0}) + 1
@@ -185,7 +310,7 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
             t = _fresh_number(taken_members, "xl/tables/table{}.xml")
             table_part = f"xl/tables/table{t}.xml"
             taken_members.update((sheet_part, table_part, _rels_path(sheet_part)))
-            body, ref = sheet_xml(sheet, "rId1")
+            body, ref = sheet_xml(sheet, "rId1", styles)
             headers = _header_names(sheet.columns)
             table = table_xml(next_table_id, _table_name(sheet.name, taken_names), headers, ref)
             next_table_id += 1
@@ -201,10 +326,13 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
             new_types += [(sheet_part, WORKSHEET_TYPE), (table_part, TABLE_TYPE)]
 
         edited = {
-            WORKBOOK: _edit_workbook(workbook, entries, dropped, new_sheet_tags),
+            WORKBOOK: _edit_workbook(workbook, entries, dropped, new_sheet_tags,
+                                     _new_defined_names(sheets, len(kept)), {MARK_NAME}),
             wb_rels_path: _edit_rels(wb_rels, {e.rel_id for e in dropped}, new_rels),
             CONTENT_TYPES: _edit_content_types(content_types, dropped_parts, new_types),
         }
+        if formatted is not None:
+            edited[STYLES] = styles_text
         app = _read_text(zin, APP)
         if app is not None:
             edited[APP] = _edit_app(app, [e.name for e in dropped], [s.name for s in sheets],

@@ -47,8 +47,14 @@ def _remove_spans(text: str, spans: list[tuple[int, int]]) -> str:
 
 
 def _edit_workbook(text: str, entries: list[_SheetEntry], dropped: list[_SheetEntry],
-                   new_sheets: list[tuple[str, int, str]]) -> str:
-    """workbook.xml with the dropped sheets removed, the new ones appended and sheet indices renumbered."""
+                   new_sheets: list[tuple[str, int, str]],
+                   new_names: list[tuple[str, int | None, str, bool]] = (), replace_names: set[str] = frozenset()
+                   ) -> str:
+    """workbook.xml with the dropped sheets removed, the new ones appended and sheet indices renumbered.
+
+    ``new_names`` are defined names to add, each ``(name, local sheet position or None, formula text, hidden)``;
+    workbook-wide names listed in ``replace_names`` are removed first (an earlier run's mark).
+    """
     dropped_positions = [i for i, e in enumerate(entries) if e in dropped]
     kept_count = len(entries) - len(dropped_positions)
 
@@ -75,6 +81,10 @@ def _edit_workbook(text: str, entries: list[_SheetEntry], dropped: list[_SheetEn
     edits: list[tuple[int, int, str]] = [(e.tag.start(), e.tag.end(), "") for e in dropped]
     edits.append((sheets_close.start(), sheets_close.start(), "".join(new_tags)))
 
+    for m in re.finditer(r"<((?:[\w.-]+:)?)definedName\b(" + _ATTRS + r")>(.*?)</\1definedName\s*>", text, re.S):
+        attrs = _attributes(m.group(2))
+        if attrs.get("name") in replace_names and attrs.get("localSheetId") is None:
+            edits.append((m.start(), m.end(), ""))
     if dropped_positions:
         for m in re.finditer(r"<((?:[\w.-]+:)?)definedName\b(" + _ATTRS + r")>(.*?)</\1definedName\s*>", text,
                              re.S):
@@ -104,7 +114,131 @@ def _edit_workbook(text: str, entries: list[_SheetEntry], dropped: list[_SheetEn
     # An emptied list of defined names goes too (an empty element is schema-valid, but some programs object).
     text = re.sub(r"<((?:[\w.-]+:)?)definedNames\s*>\s*</\1definedNames\s*>|<(?:[\w.-]+:)?definedNames\s*/>", "",
                   text)
+    if new_names:
+        text = _add_defined_names(text, main_prefix, new_names)
     return text
+
+
+def _add_defined_names(text: str, prefix: str, names: list[tuple[str, int | None, str, bool]]) -> str:
+    """Append defined names to workbook.xml, into its ``definedNames`` or a new one where the schema puts it
+    (after ``sheets``, ``functionGroups`` and ``externalReferences``; ECMA-376 Part 1, 18.2.27)."""
+    tags = "".join(
+        f'<{prefix}definedName name="{escape(name)}"'
+        + (f' localSheetId="{local}"' if local is not None else "")
+        + (' hidden="1"' if hidden else "") + f">{escape(formula)}</{prefix}definedName>"
+        for name, local, formula, hidden in names)
+    close = re.search(r"</((?:[\w.-]+:)?)definedNames\s*>", text)
+    if close is not None:
+        return text[:close.start()] + tags + text[close.start():]
+    after = None
+    for element in ("externalReferences", "functionGroups", "sheets"):
+        after = re.search(r"</(?:[\w.-]+:)?" + element + r"\s*>|<(?:[\w.-]+:)?" + element + _ATTRS + r"/>", text)
+        if after is not None:
+            break
+    block = f"<{prefix}definedNames>{tags}</{prefix}definedNames>"
+    return text[:after.end()] + block + text[after.end():]
+
+
+def defined_name_values(text: str, name: str) -> list[str]:
+    """The formula texts of every workbook-wide defined name ``name`` in workbook.xml (unescaped)."""
+    found = []
+    for m in re.finditer(r"<((?:[\w.-]+:)?)definedName\b(" + _ATTRS + r")>(.*?)</\1definedName\s*>", text, re.S):
+        attrs = _attributes(m.group(2))
+        if attrs.get("name") == name and attrs.get("localSheetId") is None:
+            found.append(html.unescape(m.group(3)))
+    return found
+
+
+def add_number_formats(text: str, formats: dict[str, str]) -> tuple[str, dict[str, int]] | None:
+    """styles.xml with a number format and a cell format appended for each kind; existing entries untouched.
+
+    Parameters
+    ----------
+    text : str
+        The workbook's ``xl/styles.xml``.
+    formats : dict
+        Kind -> number format code (:data:`lanesolve.write.tables.NUMBER_FORMATS`).
+
+    Returns
+    -------
+    (str, dict) or None
+        The new styles text and kind -> index of its cell format (``cellXfs`` entry), or None when the part has
+        no ``cellXfs`` list this function understands (the sheets are then written without number formats).
+
+    Notes
+    -----
+    Only appends: new ``numFmt`` ids are above every id in use (custom ids start at 164; ECMA-376 Part 1,
+    18.8.30), new ``xf`` entries go at the end of ``cellXfs``, so every existing style index keeps its meaning and
+    the input sheets, which refer to those indices, stay byte-identical. A rerun finds the formats and cell formats
+    an earlier run appended and reuses them, so the part does not grow run after run.
+    """
+    xfs_match = re.search(r"<((?:[\w.-]+:)?)cellXfs\b(" + _ATTRS + r")>(.*?)</\1cellXfs\s*>", text, re.S)
+    if xfs_match is None:
+        return None
+    prefix = xfs_match.group(1)
+    xf_tags = list(re.finditer(r"<(?:[\w.-]+:)?xf\b(" + _ATTRS + r")(?:/>|>.*?</(?:[\w.-]+:)?xf\s*>)",
+                               xfs_match.group(3), re.S))
+    fmts_match = re.search(r"<((?:[\w.-]+:)?)numFmts\b(" + _ATTRS + r")>(.*?)</\1numFmts\s*>", text, re.S)
+    code_ids: dict[str, int] = {}
+    used_ids: set[int] = set()
+    if fmts_match is not None:
+        for tag in _tags(fmts_match.group(3), "numFmt"):
+            attrs = _attributes(tag.group(0))
+            if attrs.get("numFmtId", "").isdigit():
+                used_ids.add(int(attrs["numFmtId"]))
+                code_ids.setdefault(attrs.get("formatCode", ""), int(attrs["numFmtId"]))
+    plain_xf = {}  # numFmtId -> index of an xf that is only that number format on the default font, fill, border
+    for index, tag in enumerate(xf_tags):
+        attrs = _attributes(tag.group(1))
+        if (tag.group(0).endswith("/>") and attrs.get("applyNumberFormat") == "1"
+                and all(attrs.get(k, "0") == "0" for k in ("fontId", "fillId", "borderId", "xfId"))
+                and attrs.get("numFmtId", "").isdigit()):
+            plain_xf.setdefault(int(attrs["numFmtId"]), index)
+    new_fmts, new_xfs, styles = [], [], {}
+    next_id = max(used_ids | {163}) + 1
+    for kind, code in formats.items():
+        if code not in code_ids:
+            code_ids[code] = next_id
+            new_fmts.append(f'<{prefix}numFmt numFmtId="{next_id}" formatCode="{escape(code)}"/>')
+            next_id += 1
+        fmt_id = code_ids[code]
+        if fmt_id not in plain_xf:
+            plain_xf[fmt_id] = len(xf_tags) + len(new_xfs)
+            new_xfs.append(f'<{prefix}xf numFmtId="{fmt_id}" fontId="0" fillId="0" borderId="0" xfId="0" '
+                           'applyNumberFormat="1"/>')
+        styles[kind] = plain_xf[fmt_id]
+    edits = []
+    if new_xfs:
+        edits.append((xfs_match.start(3) + len(xfs_match.group(3)), xfs_match.start(3) + len(xfs_match.group(3)),
+                      "".join(new_xfs)))
+        edits += _count_edit(xfs_match, len(xf_tags) + len(new_xfs))
+    if new_fmts:
+        if fmts_match is not None:
+            end = fmts_match.start(3) + len(fmts_match.group(3))
+            edits.append((end, end, "".join(new_fmts)))
+            edits += _count_edit(fmts_match, len(_tags(fmts_match.group(3), "numFmt")) + len(new_fmts))
+        else:
+            # numFmts is the first child of styleSheet (ECMA-376 Part 1, 18.8.39); an empty <numFmts/> is replaced.
+            empty = re.search(r"<(?:[\w.-]+:)?numFmts\b" + _ATTRS + r"/>", text)
+            block = f'<{prefix}numFmts count="{len(new_fmts)}">' + "".join(new_fmts) + f"</{prefix}numFmts>"
+            if empty is not None:
+                edits.append((empty.start(), empty.end(), block))
+            else:
+                sheet = re.search(r"<(?:[\w.-]+:)?styleSheet\b" + _ATTRS + r">", text)
+                if sheet is None:
+                    return None
+                edits.append((sheet.end(), sheet.end(), block))
+    for start, end, replacement in sorted(edits, key=lambda e: (e[0], e[1]), reverse=True):
+        text = text[:start] + replacement + text[end:]
+    return text, styles
+
+
+def _count_edit(match: re.Match, count: int) -> list[tuple[int, int, str]]:
+    """The edit that sets the ``count`` attribute of a list's start tag (group 2 holds its attributes)."""
+    attr = re.search(r"""\bcount\s*=\s*["']\d*["']""", match.group(2))
+    if attr is None:
+        return []
+    return [(match.start(2) + attr.start(), match.start(2) + attr.end(), f'count="{count}"')]
 
 
 def _edit_rels(text: str, drop_ids: set[str], new_rels: list[tuple[str, str, str]]) -> str:
