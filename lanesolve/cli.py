@@ -143,7 +143,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     if as_json:
         click.echo(json.dumps(outcome.to_json(), indent=2))
     if not quiet:
-        for line in terminal_lines(outcome.network, outcome.result, outcome.info):
+        for line in terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison):
             _say(line, err=as_json)
         if email_path:
             _say(f"Mail written to {email_path}" + (" (solved workbook attached)" if attach_workbook else ""),
@@ -154,7 +154,8 @@ def _write_email(path: str, outcome, attach_workbook: bool) -> None:
     from lanesolve.report.mail import write_email
 
     write_email(path, outcome.network, outcome.result, outcome.info, outcome.warnings,
-                attach=outcome.info.output_path if attach_workbook else None)
+                attach=outcome.info.output_path if attach_workbook else None,
+                comparison=getattr(outcome, "comparison", None))
 
 
 @main.command()

@@ -22,6 +22,7 @@ import jinja2
 import pandas as pd
 
 from lanesolve.write import atomic
+from lanesolve.report import advice
 from lanesolve.report import charts as _charts
 from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
     CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
@@ -477,6 +478,7 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "sensitivity": _sensitivity_context(result, units, currency) if has_plan else {
             "groups": [], "basis": "", "not_computed": False},
         "scenarios": _scenario_rows(comparison, units, currency),
+        "next_steps": advice.next_steps(network, result, comparison),
         "why": why,
         # With a diagnosis the reasons it gives are shown in its own section, not twice in the box above it.
         "reasons": [m for m in messages if m not in set(why["sentences"])] if why else messages,
@@ -580,12 +582,14 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
     return template.render(**build_context(network, result, info, warnings, charts, image_src, comparison))
 
 
-def terminal_lines(network: Network, result: Result, info: RunInfo) -> list[str]:
-    """The compact summary ``lanesolve solve`` prints: status and gap, cost, lanes, shortfall, where files went.
+def terminal_lines(network: Network, result: Result, info: RunInfo,
+                   comparison: pd.DataFrame | None = None) -> list[str]:
+    """The compact summary ``lanesolve solve`` prints: status and gap, cost, lanes, shortfall, the scenarios
+    against the baseline, what to do next, where files went.
 
     Parameters
     ----------
-    network, result, info
+    network, result, info, comparison
         As for :func:`render_html`.
 
     Returns
@@ -601,24 +605,41 @@ def terminal_lines(network: Network, result: Result, info: RunInfo) -> list[str]
         lines += [f"Total cost: {format_money(result.total_cost, currency)}",
                   f"Lanes used: {len(result.flows):,d}; customers short: {len(result.unmet):,d}"
                   + (f" ({format_quantity(short, units)})" if len(result.unmet) else "")]
-    lines.append(f"Results written to {info.output_path}; summary {info.summary_path}")
-    lines += [f"Note: {message}" for message in result.messages]
+    rows = _scenario_rows(comparison, units, currency)
+    if rows:
+        lines.append("Scenarios (total cost, change against the baseline, not delivered):")
+        lines += [f"  {_one_line(row['scenario'])}: {row['total_cost']}"
+                  + ("" if row["scenario"] == "baseline" else f" ({row['delta']}, {row['delta_pct']})")
+                  + f", {row['unmet']} not delivered" for row in rows]
+    steps = advice.next_steps(network, result, comparison)
+    if steps:
+        lines.append("What to do next:")
+        lines += [f"  - {_one_line(step)}" for step in steps]
+    lines.append(f"Results written to {_one_line(info.output_path)}; summary {_one_line(info.summary_path)}")
+    lines += [f"Note: {_one_line(message)}" for message in result.messages]
     return lines
+
+
+def _one_line(text: object) -> str:
+    """Text with its line breaks (a name with a newline in it) as spaces, so one terminal line stays one."""
+    return " ".join(str(text).split())
 
 
 #: Lanes listed in the plain-text summary (the mail's text part); the HTML lists :data:`TOP_LANES`.
 TEXT_LANES = 10
 
 
-def render_text(network: Network, result: Result, info: RunInfo, warnings: list) -> str:
+def render_text(network: Network, result: Result, info: RunInfo, warnings: list,
+                comparison: pd.DataFrame | None = None) -> str:
     """The summary as plain text: the mail's text part, for readers that show no HTML.
 
-    It holds the same figures as the page (formatted by the same code): key figures, cost breakdown, customers
-    short, depot and hub use, the dearest lanes, messages, warnings and the caution line.
+    It holds the same figures as the page (formatted by the same code): key figures, what to do next, cost
+    breakdown, customers short, depot and hub use, the dearest lanes, the what-if scenarios, messages, warnings and
+    the caution line.
 
     Parameters
     ----------
-    network, result, info, warnings
+    network, result, info, warnings, comparison
         As for :func:`render_html`.
 
     Returns
@@ -640,13 +661,15 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list)
     <BLANKLINE>
     No plan was made: No feasible plan (infeasible).
     """
-    c = build_context(network, result, info, warnings, charts=[])
+    c = build_context(network, result, info, warnings, charts=[], comparison=comparison)
     lines = [f"Lane plan: {c['file_name']}", f"Run {c['run_at']}, lanesolve {c['version']}"
              + (f", {c['solver']}" if c["solver"] else ""), ""]
     if not c["has_plan"]:
         lines += [f"No plan was made: {c['status_text']} ({c['status']}).", ""]
     width = max(len(label) for label, _, _ in c["kpis"])
     lines += [f"{label + ':':<{width + 1}} {value}" for label, value, _ in c["kpis"]]
+    if c["next_steps"]:
+        lines += ["", "What to do next"] + [f"  - {step}" for step in c["next_steps"]]
     if c["has_plan"]:
         lines += ["", "Cost breakdown"]
         lines += [f"  {row['label']:<30} {row['amount']:>20} {row['share']:>8}" for row in c["costs"]]
@@ -682,6 +705,12 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list)
             lines += ["", f"Dearest lanes ({len(shown)} of {len(shown) + rest})"]
             lines += [f"  {lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
                       + f": {lane['flow']}, {lane['total_cost']}" for lane in shown]
+    if c["scenarios"]:
+        lines += ["", "What-if scenarios (change against the baseline)"]
+        lines += [f"  {row['scenario']} ({row['status']}): {row['total_cost']}"
+                  + ("" if row["scenario"] == "baseline" else f", {row['delta']} ({row['delta_pct']})")
+                  + f"; not delivered {row['unmet']}; lanes opened {row['opened']}; lanes closed {row['closed']}"
+                  f"; depots and hubs {row['nodes']}; largest shifts {row['shifts']}" for row in c["scenarios"]]
     if c["has_plan"] and c["messages"]:
         lines += ["", "Messages"] + [f"  - {m}" for m in c["messages"]]
     elif c["reasons"]:
