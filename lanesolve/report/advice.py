@@ -126,11 +126,11 @@ def _short(network: Network, result: Result, units: str, currency: str) -> list[
             sentences.append(head + ".")
             continue
         cost = marginal.get(name)
-        why = (f"delivering one more {one} there would cost {_money(cost, currency)}"
-               if cost is not None else "no route delivers more for less")
-        sentences.append(f"{head}: the plan pays its unmet penalty of {_money(rate, currency)} per {one} because "
-                         f"{why}, no less than the penalty. To serve it, make a route to it cheaper than that "
-                         "(or raise a full capacity on the way), or raise its penalty.")
+        worth = f" ({_money(cost, currency)} at this plan)" if cost is not None else ""
+        sentences.append(f"{head}: one more {one} there would cost at least its unmet penalty of "
+                         f"{_money(rate, currency)} per {one}{worth} -- the cost of the route plus what it would "
+                         "take from capacities used to their limit -- so the plan pays the penalty. To serve it, "
+                         "raise a full capacity on the way, make a route to it cheaper, or raise its penalty.")
     return sentences
 
 
@@ -157,15 +157,20 @@ def _scenarios(comparison: pd.DataFrame | None, currency: str) -> list[str]:
         if not others:
             return [f"The baseline is the only one with a plan{tail}."]
         runner = min(others, key=lambda r: (float(r.total_cost), str(r.scenario)))
-        return [f"Of the baseline and {len(comparison) - 1} scenarios, the baseline is cheapest at "
+        return [f"Of the baseline and {_scenario_count(comparison)}, the baseline is cheapest at "
                 f"{_money(float(best.total_cost), currency)}; the next, {runner.scenario}, costs "
                 f"{_money(float(runner.total_cost) - float(best.total_cost), currency)} more{tail}."]
     delta = _finite(best.delta_cost)
     pct = _finite(best.delta_pct)
     change = (f", {_money(-delta, currency)} less than the baseline" if delta is not None else "") + (
         f" ({pct:+.1f} %)" if pct is not None else "")
-    return [f"Of the baseline and {len(comparison) - 1} scenarios, {best.scenario} is cheapest at "
+    return [f"Of the baseline and {_scenario_count(comparison)}, {best.scenario} is cheapest at "
             f"{_money(float(best.total_cost), currency)}{change}{tail}."]
+
+
+def _scenario_count(comparison: pd.DataFrame) -> str:
+    count = len(comparison) - 1
+    return f"{count} scenario{'' if count == 1 else 's'}"
 
 
 def next_steps(network: Network, result: Result, comparison: pd.DataFrame | None = None) -> list[str]:
