@@ -29,7 +29,6 @@ The data is chosen so the plan is worth reading:
 from __future__ import annotations
 
 import argparse
-import copy
 import math
 import random
 import sys
@@ -180,16 +179,13 @@ SCENARIOS = (
 
 
 def _write_scenarios(book: openpyxl.Workbook) -> None:
-    """Add the Scenarios sheet (see README "Scenarios"), styled like the template's input sheets."""
-    ws = book.create_sheet("Scenarios")
-    header = ("scenario", "sheet", "match", "column", "change", "value")
-    ws.append(header)
+    """Fill the template's Scenarios sheet (see README "Scenarios") with the distributor's what-ifs, keeping its
+    header notes and drop-downs; the template's two example rows are replaced."""
+    ws = book["Scenarios"]
+    if ws.max_row > 1:
+        ws.delete_rows(2, ws.max_row - 1)
     for record in SCENARIOS:
         ws.append(record)
-    source = book[contract.LANES.name]["A1"]
-    for cell in ws[1]:
-        cell.font, cell.fill = copy.copy(source.font), copy.copy(source.fill)
-    ws.freeze_panes = "A2"
     for column, width in zip("ABCDEF", (34, 12, 36, 16, 10, 10)):
         ws.column_dimensions[column].width = width
 
