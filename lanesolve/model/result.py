@@ -26,8 +26,8 @@ NODE_COLUMNS = ["node", "kind", "supply", "demand", "shipped", "received", "unme
 UNMET_COLUMNS = ["customer", "quantity", "penalty"]
 #: Keys of :attr:`Result.cost_breakdown`, in report order.
 COST_COMPONENTS = ("transport", "handling", "fixed_lane", "unmet_penalty")
-#: Extra keys of :attr:`Result.cost_breakdown` for a contract v2 network (node decisions, whole trips); present only
-#: then, so v1 results keep exactly :data:`COST_COMPONENTS`.
+#: Extra keys of :attr:`Result.cost_breakdown` for a network with design decisions (node charges, whole trips);
+#: present only then, so a plain flow network's result keeps exactly :data:`COST_COMPONENTS`.
 DESIGN_COST_COMPONENTS = ("fixed_node", "trips")
 #: Plain words for every cost component: the one set of labels the sheets, the charts, the HTML, the mail and the
 #: terminal show (``--json`` keeps the keys).
@@ -156,7 +156,8 @@ class Result:
     total_cost : float
         Objective value of the plan (NaN without a plan).
     cost_breakdown : dict
-        ``transport``, ``handling``, ``fixed_lane``, ``unmet_penalty``; they add up to ``total_cost``.
+        ``transport``, ``handling``, ``fixed_lane``, ``unmet_penalty`` (and ``fixed_node``, ``trips`` for a network
+        with design decisions); they add up to ``total_cost``. Reports read it through :meth:`cost_lines`.
     flows : DataFrame
         :data:`FLOW_COLUMNS`; lanes with flow > 0. ``utilisation`` is flow / capacity (NaN without a limit).
     nodes : DataFrame
