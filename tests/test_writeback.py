@@ -47,8 +47,7 @@ FORMULA_NAME = "=SUM(A1)"
 NEW_NAMES = ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity"]
 
 
-#: Parts the writer edits: the index parts, and styles.xml, which gains number formats at its end.
-EDITED_PARTS = wbk.INDEX_PARTS | {"xl/styles.xml"}
+EDITED_PARTS = wbk.EDITED_PARTS
 #: The defined names the writer adds to workbook.xml: the mark and each result sheet's print titles.
 OUR_NAMES = (r'<definedName name="(_lanesolve_result_sheets|_xlnm.Print_Titles)"[^>]*>[^<]*</definedName>|'
              r'<definedNames>(<definedName name="(_lanesolve_result_sheets|_xlnm.Print_Titles)"[^>]*>[^<]*'
