@@ -117,7 +117,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from lanesolve.pipeline import run
     from lanesolve.progress import TerminalProgress, no_progress
-    from lanesolve.report.summary import terminal_lines
+    from lanesolve.report.text import terminal_lines
 
     if attach_workbook and not email_path:
         raise click.UsageError("--attach-workbook needs --email PATH (the mail to attach the workbook to)")

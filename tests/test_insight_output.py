@@ -18,6 +18,7 @@ from click.testing import CliRunner
 from conftest import write_workbook
 
 from lanesolve.report import summary as report
+from lanesolve.report import text as report_text
 from lanesolve.write import writeback
 from lanesolve.cli import main
 from lanesolve.model.network import Settings, make_network
@@ -197,7 +198,7 @@ def test_html_escapes_names_in_the_new_sections():
 
 def test_mail_text_part_carries_the_same_key_sentences(solved):
     network, result = solved
-    text = report.render_text(network, result, INFO, [])
+    text = report_text.render_text(network, result, INFO, [])
     assert "Open and closed" in text and "  Mellisford (depot, given decide): closed" in text
     assert "Trips" in text and "1 trips of 20 pallets for 20 pallets" in text
     assert "One more pallet at Runnelby would cost 4.00 EUR." in text

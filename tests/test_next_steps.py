@@ -17,7 +17,8 @@ from lanesolve import pipeline
 from lanesolve.cli import main
 from lanesolve.model.network import Settings, make_network
 from lanesolve.model.result import Result, SolveStatus
-from lanesolve.report import advice, summary
+from lanesolve.report import advice
+from lanesolve.report import text as text_module
 from lanesolve.report.mail import build_email
 from test_cost_agreement import EVERY_COST
 
@@ -108,9 +109,9 @@ def test_html_mail_and_terminal_carry_the_same_next_steps(tmp_path):
     page = open(outcome.info.summary_path, encoding="utf-8").read()
     assert '<h2 id="next-steps">What to do next</h2>' in page
     assert all(f"<li>{html.escape(s, quote=True)}</li>" in page for s in steps)
-    text = summary.render_text(outcome.network, outcome.result, outcome.info, [], outcome.comparison)
+    text = text_module.render_text(outcome.network, outcome.result, outcome.info, [], outcome.comparison)
     assert all(f"  - {s}" in text for s in steps)
-    lines = summary.terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison)
+    lines = text_module.terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison)
     assert "What to do next:" in lines and all(f"  - {s}" in lines for s in steps)
 
 
@@ -163,5 +164,5 @@ def test_line_break_in_an_id_is_safe_in_the_mail_and_the_terminal(tmp_path, name
     outcome = pipeline.run(write_workbook(tmp_path / "ids.xlsx", sheets))
     message = build_email(outcome.network, outcome.result, outcome.info, [], comparison=outcome.comparison)
     assert message.as_bytes()  # renders without an error
-    lines = summary.terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison)
+    lines = text_module.terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison)
     assert all("\n" not in line and "\r" not in line for line in lines)

@@ -29,7 +29,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from lanesolve.write import atomic
-from lanesolve.report import summary
+from lanesolve.report import summary, text
 from lanesolve.report import charts as _charts
 from lanesolve.errors import WriteError
 from lanesolve.model.result import Result
@@ -119,7 +119,7 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     message["Subject"] = subject_for(network, result, info)
     message["Date"] = formatdate(localtime=True)
     message["X-Unsent"] = "1"
-    message.set_content(summary.render_text(network, result, info, warnings, comparison))
+    message.set_content(text.render_text(network, result, info, warnings, comparison))
     message.add_alternative(html, subtype="html")
     html_part = message.get_payload()[1]
     for chart in drawings:
