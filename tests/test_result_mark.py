@@ -101,3 +101,17 @@ def test_unmarked_ls_summary_without_the_fingerprint_is_the_planners(tmp_path):
     with pytest.raises(WriteError, match=r"'LS Summary', 'LS Nodes'.*Rename those sheets"):
         pipeline.run(path)
     assert path.read_bytes() == before
+
+
+def test_unmarked_sheets_written_inline_by_an_earlier_run_are_replaced(tmp_path):
+    # An earlier lanesolve wrote its sheets with inline strings and no mark: strip the mark from a solved workbook.
+    path = write_workbook(tmp_path / "plan.xlsx", valid_sheets())
+    pipeline.run(path)
+    text = re.sub(r'<definedName name="_lanesolve_result_sheets"[^>]*>[^<]*</definedName>', "",
+                  _workbook_text(path))
+    wbk.rewrite_zip(path, {"xl/workbook.xml": text.encode()})
+    assert "_lanesolve_result_sheets" not in _workbook_text(path)
+    pipeline.run(path)
+    names = openpyxl.load_workbook(path).sheetnames
+    assert names.count("LS Summary") == 1 and names.count("LS Lane flows") == 1
+    assert _workbook_text(path).count('name="_lanesolve_result_sheets"') == 1  # marked again
