@@ -74,7 +74,8 @@ def test_short_customer_sentence_gives_the_penalty_and_the_way_out():
     unmet = pd.DataFrame({"customer": ["Brisk"], "quantity": [20.0], "penalty": [120.0]})
     (step,) = advice.next_steps(tiny_network(), plan(frame, unmet))
     assert step.startswith("Brisk is 20 pallets short of its demand of 40 pallets: one more pallet there would cost "
-                           "at least its unmet penalty of 6.00 EUR per pallet (6.00 EUR at this plan)")
+                           "at least its unmet penalty of 6.00 EUR per pallet — the cost of the route plus what it "
+                           "would take from capacities used to their limit — so the plan pays the penalty.")
     assert "raise a full capacity on the way, make a route to it cheaper, or raise its penalty" in step
 
 

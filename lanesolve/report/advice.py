@@ -126,10 +126,12 @@ def _short(network: Network, result: Result, units: str, currency: str) -> list[
             sentences.append(head + ".")
             continue
         cost = marginal.get(name)
-        worth = f" ({_money(cost, currency)} at this plan)" if cost is not None else ""
+        # The marginal cost of a customer left short equals its penalty; quote it only where it says more.
+        worth = (f" ({_money(cost, currency)} at this plan)"
+                 if cost is not None and abs(cost - rate) >= MONEY_EPSILON else "")
         sentences.append(f"{head}: one more {one} there would cost at least its unmet penalty of "
-                         f"{_money(rate, currency)} per {one}{worth} -- the cost of the route plus what it would "
-                         "take from capacities used to their limit -- so the plan pays the penalty. To serve it, "
+                         f"{_money(rate, currency)} per {one}{worth} — the cost of the route plus what it would "
+                         "take from capacities used to their limit — so the plan pays the penalty. To serve it, "
                          "raise a full capacity on the way, make a route to it cheaper, or raise its penalty.")
     return sentences
 
