@@ -193,7 +193,7 @@ def _write_scenarios(book: openpyxl.Workbook) -> None:
 def build_example(path: Path) -> None:
     """Write the invented distributor's workbook to ``path`` on top of the blank template."""
     rng = random.Random(SEED)
-    write_template(path)
+    write_template(path, force=True)  # this script owns the example: it rebuilds it on every run
     book = openpyxl.load_workbook(path)
 
     depots = []
@@ -233,7 +233,8 @@ def build_example(path: Path) -> None:
     guide.cell(row=row, column=1, value="About this example").font = Font(bold=True, size=12)
     guide.cell(row=row + 1, column=1, value=(
         "Orvale Larder Supply is an invented regional distributor: its company name, towns, coordinates and costs "
-        "are made up for this example and describe no real business or place."))
+        "are made up for this example and describe no real business or place. Its Scenarios sheet holds the "
+        "distributor's own five what-ifs in place of the template's two example rows."))
     save_atomically(book, path)
 
 
@@ -242,7 +243,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--out", type=Path, default=HERE, help="folder to write into (default: this folder)")
     args = parser.parse_args(argv)
     args.out.mkdir(parents=True, exist_ok=True)
-    write_template(args.out / TEMPLATE_NAME)
+    write_template(args.out / TEMPLATE_NAME, force=True)
     build_example(args.out / EXAMPLE_NAME)
     print(f"wrote {args.out / TEMPLATE_NAME} and {args.out / EXAMPLE_NAME}")
     return 0

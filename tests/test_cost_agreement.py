@@ -7,6 +7,7 @@ The network with every kind of cost is worked by hand (below); the bundled examp
 from __future__ import annotations
 
 import base64
+import math
 import email
 import re
 import xml.etree.ElementTree as ET
@@ -143,3 +144,21 @@ def test_scenario_comparison_cost_columns_add_up_to_the_total(tmp_path):
 def test_bundled_example_agrees_everywhere(tmp_path):
     outcome = pipeline.run(EXAMPLE, output=tmp_path / "example-solved.xlsx")
     assert_every_output_agrees(outcome, comparison_sheet=True)
+
+
+def test_lane_rate_in_the_html_has_the_digits_its_cost_needs():
+    # The planners' finding: "1.19" per unit beside 140 units and a cost of 166.64. With 4 decimals the rate shown
+    # multiplies out to the cost shown (140 x 1.1903 = 166.64).
+    import pandas as pd
+
+    from lanesolve.model.network import Settings, make_network
+    from lanesolve.model.result import FLOW_COLUMNS, Result, SolveStatus
+
+    network = make_network([{"id": "D", "supply": 140}], [{"id": "C", "demand": 140}],
+                           [{"origin": "D", "destination": "C", "cost_per_unit": 166.64 / 140}],
+                           settings=Settings(units="pallets", currency="EUR"))
+    flows = pd.DataFrame([["D", "C", "", 140.0, 166.64 / 140, 166.64, 0.0, math.inf, math.nan]], columns=FLOW_COLUMNS)
+    result = Result(SolveStatus.OPTIMAL, total_cost=166.64, cost_breakdown={"transport": 166.64}, flows=flows)
+    (row,), _more = summary._lane_rows(result, "pallets", "EUR")
+    assert row["cost_per_unit"] == "1.1903" and row["variable_cost"] == "166.64"
+    assert round(140 * float(row["cost_per_unit"]), 2) == 166.64
