@@ -605,28 +605,51 @@ def test_invalid_result_sheet_name_is_refused(tmp_path, rich, name):
 
 # ------------------------------------------------------------------------------------------------ a real program
 
+def _libreoffice_csv(soffice: str, book: Path, out: Path, profile: Path, as_shown: bool) -> list[Path]:
+    """Every sheet of ``book`` as a CSV file written by LibreOffice; ``as_shown`` writes each cell as its number
+    format shows it instead of its value."""
+    # Filter options: field separator 44 (,), text delimiter 34 ("), UTF-8 (76), start row 1, cell formats, language,
+    # quoted as text, detect special numbers, save cell contents as shown, export formulas, remove spaces, sheet -1 =
+    # every sheet to its own file (LibreOffice 7.2+ CSV filter options, documented in its help "CSV Filter Options").
+    options = f"44,34,76,1,,0,false,true,{'true' if as_shown else 'false'},false,false,-1"
+    command = [soffice, f"-env:UserInstallation=file://{profile}", "--headless", "--convert-to",
+               f"csv:Text - txt - csv (StarCalc):{options}", "--outdir", str(out), str(book)]
+    done = subprocess.run(command, capture_output=True, text=True, timeout=240)
+    produced = sorted(out.glob("*.csv")) if out.exists() else []
+    assert produced, f"LibreOffice wrote nothing: {done.stdout} {done.stderr}"
+    return produced
+
+
 @pytest.mark.slow  # starts LibreOffice; CI runs it
 def test_libreoffice_opens_the_result_sheet(tmp_path, rich, plan_sheets):
     soffice = shutil.which("soffice") or shutil.which("libreoffice")
     if soffice is None:
         pytest.skip("LibreOffice (soffice) is not installed")
     write_results(rich, rich, plan_sheets)
-    out = tmp_path / "csv"
-    # Filter options: field separator 44 (,), text delimiter 34 ("), UTF-8 (76), start row 1, ..., sheet -1 = every
-    # sheet to its own file (LibreOffice 7.2+ CSV filter options, documented in its help "CSV Filter Options").
     profile = tmp_path / "lo-profile"
-    command = [soffice, f"-env:UserInstallation=file://{profile}", "--headless", "--convert-to",
-               "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,-1", "--outdir", str(out),
-               str(rich)]
-    done = subprocess.run(command, capture_output=True, text=True, timeout=240)
-    produced = sorted(out.glob("*.csv")) if out.exists() else []
-    assert produced, f"LibreOffice wrote nothing: {done.stdout} {done.stderr}"
+    produced = _libreoffice_csv(soffice, rich, tmp_path / "values", profile, as_shown=False)
     flows_csv = next(p for p in produced if "Lane flows" in p.name)
     frame = pd.read_csv(flows_csv, keep_default_na=False)
     assert list(frame.columns) == plan_sheets[1].columns
     assert frame["Origin"].tolist()[1] == FORMULA_NAME  # text, not evaluated
-    # the CSV holds the values as formatted: quantities with up to 2 decimals
-    assert [float(x) for x in frame["Flow (pallets)"]] == pytest.approx([60, 40, 40.12, 0], abs=1e-9)
+    # the cells hold full precision
+    assert [float(x) for x in frame["Flow (pallets)"]] == pytest.approx([60, 40, 40.123456789, 0], abs=1e-9)
     assert frame["Capacity (pallets; blank = no limit)"].tolist()[1] == ""
     depots_csv = next(p for p in produced if p.name.endswith("-Depots.csv"))
     assert pd.read_csv(depots_csv)["depot"].tolist() == ["Northgate Yard", "Riverbend Plant", FORMULA_NAME]
+    # ... and LibreOffice applies the number formats appended to styles.xml (the program, not lanesolve, formats)
+    shown = _libreoffice_csv(soffice, rich, tmp_path / "shown", profile, as_shown=True)
+    flows = pd.read_csv(next(p for p in shown if "Lane flows" in p.name), keep_default_na=False, dtype=str)
+    assert flows["Flow (pallets)"].tolist() == ["60.0", "40.0", "40.12", "0.0"]
+    assert flows["Rate (EUR per pallet)"].tolist()[:3] == ["4.25", "3.10", "5.00"]
+    assert flows["Variable cost (EUR)"].tolist()[:3] == ["255.00", "124.00", "200.62"]
+    assert flows["Utilisation"].tolist()[0] == "60.0%"
+    # the input sheets show exactly what they showed before: their style indices kept their meaning
+    original = tmp_path / "original" / rich.name
+    original.parent.mkdir()
+    wbk.rich_workbook(original)
+    before = {p.name: p.read_text(encoding="utf-8")
+              for p in _libreoffice_csv(soffice, original, tmp_path / "before", profile, as_shown=True)}
+    after = {p.name: p.read_text(encoding="utf-8") for p in shown}
+    inputs = [name for name in before if not name.split("-", 1)[1].startswith("LS ")]
+    assert inputs and all(after[name] == before[name] for name in inputs)
