@@ -22,8 +22,8 @@ import pandas as pd
 from lanesolve.contract import RESULT_PREFIX
 from lanesolve.model.result import CAUTION, COST_LABELS, cost_order, node_decisions, singular
 
-#: Kept for code that names it: the words "no limit". Result sheets now leave such a cell blank and say in the
-#: column's header that blank means no limit (text in a number column breaks sums and filters).
+#: The words for a capacity without limit. A result sheet leaves such a cell blank and says in the column's header
+#: that blank means this (text in a number column would break sums, filters and charts).
 NO_LIMIT = "no limit"
 
 SUMMARY_SHEET = RESULT_PREFIX + "Summary"
@@ -56,8 +56,6 @@ NUMBER_FORMATS = {
     "seconds": "0.000",
 }
 KINDS = ("text", "number", *NUMBER_FORMATS)
-#: Kept for code that names it: cells are no longer rounded, their number format rounds for display.
-DECIMALS: dict[str, int] = {}
 
 #: Labels of the cost components on the sheets (the one set every report uses).
 COST_WORDS = COST_LABELS
@@ -158,7 +156,7 @@ class Labels:
 
     def quantity(self, words: str, no_limit: bool = False) -> str:
         """``"Flow (pallets)"``; with ``no_limit`` the header says that a blank cell means no limit."""
-        return f"{words} ({self.units}; blank = no limit)" if no_limit else f"{words} ({self.units})"
+        return f"{words} ({self.units}; blank = {NO_LIMIT})" if no_limit else f"{words} ({self.units})"
 
     def rate(self, words: str) -> str:
         """``"Rate (EUR per pallet)"``."""

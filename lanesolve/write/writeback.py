@@ -39,7 +39,7 @@ from lanesolve.write import atomic
 from lanesolve.contract import RESULT_PREFIX
 from lanesolve.errors import WriteError
 from lanesolve.write.tables import (  # noqa: F401  (re-exported: the public names of the result sheets)
-    CAUTION, COST_WORDS, DECIMALS, DESIGN_SHEET, FIGURE_WORDS, FINGERPRINT_ITEM, FLOWS_SHEET, KINDS, KNOWN_SHEETS,
+    CAUTION, COST_WORDS, DESIGN_SHEET, FIGURE_WORDS, FINGERPRINT_ITEM, FLOWS_SHEET, KINDS, KNOWN_SHEETS,
     MAX_REDUCED_COST_ROWS, NO_LIMIT, NUMBER_FORMATS,
     NODES_SHEET, SCENARIOS_SHEET, SENSITIVITY_SHEET, SUMMARY_SHEET, TRIPS_SHEET, WHY_SHEET, ResultSheet, cost_keys,
     design_sheet, frame_sheet, insight_sheets, result_sheets, scenario_sheet, sensitivity_sheet, trips_sheet,
@@ -52,11 +52,12 @@ from lanesolve.write.zipindex import (
     defined_name_values)
 
 __all__ = [
-    "CAUTION", "COST_WORDS", "DECIMALS", "DESIGN_SHEET", "FIGURE_WORDS", "FLOWS_SHEET", "KINDS",
+    "CAUTION", "COST_WORDS", "DESIGN_SHEET", "FIGURE_WORDS", "FLOWS_SHEET", "KINDS",
     "MAX_REDUCED_COST_ROWS", "NO_LIMIT", "NODES_SHEET", "SCENARIOS_SHEET", "SENSITIVITY_SHEET", "SUMMARY_SHEET",
     "TABLE_STYLE", "TRIPS_SHEET", "WHY_SHEET", "ResultSheet", "cost_keys", "design_sheet", "frame_sheet",
     "insight_sheets", "result_sheets", "scenario_sheet", "sensitivity_sheet", "sheet_xml", "table_xml",
-    "trips_sheet", "why_no_plan_sheet", "write_results",
+    "trips_sheet", "why_no_plan_sheet", "write_results", "check_result_sheets", "KNOWN_SHEETS", "NUMBER_FORMATS",
+    "FINGERPRINT_ITEM", "MARK_NAME",
 ]
 
 MAX_SHEET_NAME = 31  # the spreadsheet programs' limit on a sheet name's length
