@@ -68,6 +68,11 @@ class SparseModel:
         Per-unit unmet penalty per customer row (NaN for a hard demand).
     design : bool
         The network has design decisions (the breakdown then lists the design components too).
+    product_columns : ProductColumns or None
+        For a multi-product model (:mod:`lanesolve.model.product_model`): the lane and product of each
+        ``product_flow_`` column.
+    emission : numpy.ndarray or None
+        Tonnes CO2e per unit of each column (:mod:`lanesolve.model.emissions`), None when no emissions are asked for.
     """
 
     lower: np.ndarray
@@ -85,6 +90,8 @@ class SparseModel:
     big_m: dict[int, float]
     penalty: np.ndarray
     design: bool = False
+    product_columns: object = None
+    emission: np.ndarray | None = None
 
     @property
     def n_columns(self) -> int:

@@ -34,6 +34,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from lanesolve.model.product_data import EmissionData, ProductData
+
 DEPOT_COLUMNS = ["id", "supply", "handling_cost", "fixed_cost", "status", "latitude", "longitude", "row"]
 CUSTOMER_COLUMNS = ["id", "demand", "unmet_penalty", "single_source", "latitude", "longitude", "row"]
 HUB_COLUMNS = ["id", "capacity", "handling_cost", "fixed_cost", "status", "latitude", "longitude", "row"]
@@ -70,6 +72,9 @@ class Settings:
     distance_unit: str = "km"
     circuity_factor: float = 1.2
     lanes_file: str | None = None
+    tonnes_per_unit: float | None = None
+    carbon_price: float | None = None
+    emissions_cap: float | None = None
 
 
 @dataclass
@@ -83,6 +88,11 @@ class Network:
     settings: Settings = field(default_factory=Settings)
     source: str = ""
     lane_sources: pd.DataFrame | None = None
+    #: Several products (:class:`lanesolve.model.product_data.ProductData`), or None for a single-product network.
+    products: ProductData | None = None
+    #: Distances and factors for the plan's emissions (:class:`lanesolve.model.product_data.EmissionData`), or
+    #: None when the workbook asks for no emissions figures.
+    emissions: EmissionData | None = None
 
     def cost_sources(self) -> pd.DataFrame:
         """:attr:`lane_sources` aligned with :attr:`lanes`; lanes built without one count as given on sheet Lanes."""

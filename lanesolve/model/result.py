@@ -38,6 +38,7 @@ COST_LABELS = {
     "unmet_penalty": "Penalties for unmet demand",
     "fixed_node": "Fixed depot and hub charges",
     "trips": "Trip costs",
+    "carbon": "Carbon price on emissions",
 }
 
 
@@ -200,6 +201,14 @@ class Result:
     trips: pd.DataFrame = field(default_factory=lambda: empty_frame(TRIP_COLUMNS))
     sensitivity: pd.DataFrame = field(default_factory=lambda: empty_frame(SENSITIVITY_COLUMNS))
     diagnosis: object = None
+    #: Several products (:mod:`lanesolve.model.product_plan`): units per lane and product, per node and product.
+    product_flows: pd.DataFrame | None = None
+    product_nodes: pd.DataFrame | None = None
+    #: Emissions (:mod:`lanesolve.model.product_plan`): per lane, and the summary ``--json`` shows.
+    lane_emissions: pd.DataFrame | None = None
+    emissions: dict | None = None
+    #: The cost and emissions trade-off (:mod:`lanesolve.model.tradeoff`): ``{emissions_t, total_cost}`` per plan.
+    tradeoff: list | None = None
 
     def cost_lines(self) -> list[CostLine]:
         """The cost breakdown every report shows: the one source of the chart, the tables, the sheets and the mail.
@@ -268,4 +277,30 @@ class Result:
                              "unique": bool(r.unique), "basis": r.basis, "text": r.text}
                             for r in self.sensitivity.itertuples(index=False)],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
+            **self._goods_json(num),
         }
+
+    def _goods_json(self, num) -> dict:
+        """``flows`` per lane and product (with Products), ``emissions`` and ``tradeoff``, when the plan has them.
+
+        A lane's cost (variable and fixed) is shared among its products in proportion to the capacity each uses,
+        so the entries still add up to the lanes' cost.
+        """
+        extra: dict = {}
+        if self.product_flows is not None and self.status.has_plan:
+            lanes = {(r.origin, r.destination, r.mode): (r.flow, r.variable_cost + r.fixed_charge)
+                     for r in self.flows.itertuples(index=False)}
+            share = self.product_flows.get("capacity_used", self.product_flows["flow"])
+            extra["flows"] = [
+                {"origin": r.origin, "destination": r.destination, "mode": r.mode, "product": r.product,
+                 "flow": num(r.flow),
+                 "cost": num(lanes.get((r.origin, r.destination, r.mode), (1.0, 0.0))[1] * used
+                             / max(lanes.get((r.origin, r.destination, r.mode), (1.0, 0.0))[0], 1e-300))}
+                for r, used in zip(self.product_flows.itertuples(index=False), share.tolist())]
+        if self.emissions is not None:
+            extra["emissions"] = {key: (value if isinstance(value, (dict, int, str)) or value is None else num(value))
+                                  for key, value in self.emissions.items()}
+        if self.tradeoff is not None:
+            extra["tradeoff"] = [{"emissions_t": num(p["emissions_t"]), "total_cost": num(p["total_cost"])}
+                                 for p in self.tradeoff]
+        return extra

@@ -29,8 +29,9 @@ import pandas as pd
 
 from lanesolve.errors import SolverError
 from lanesolve.model.arrays import Answer, SparseModel
-from lanesolve.model.formulation import build_sparse_model
+from lanesolve.model.build import build_model
 from lanesolve.model.network import Network
+from lanesolve.model.product_plan import finish_plan
 from lanesolve.model.result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
                                     Result, SolveStatus, empty_frame)
 
@@ -221,7 +222,7 @@ def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
 
 
 def solve(network: Network, time_limit: float | None = None, solver: str | None = None, msg: bool = False,
-          sensitivity: bool = False, linking: bool = True) -> Result:
+          sensitivity: bool = False, linking: bool = True, cap: float | None = None) -> Result:
     """Build the model of :mod:`lanesolve.model.formulation` for ``network`` once and solve it.
 
     Parameters
@@ -241,6 +242,8 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         computes them from the plan), so ``Result.sensitivity`` stays empty here.
     linking : bool
         Build the per-lane linking rows of node decisions (off only to measure their worth).
+    cap : float, optional
+        Emissions cap in tonnes CO2e, overriding the ``emissions_cap`` setting (:mod:`lanesolve.model.tradeoff`).
 
     Returns
     -------
@@ -275,7 +278,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
 
     tick = time.perf_counter()
-    model = build_sparse_model(network, linking=linking)
+    model = build_model(network, linking=linking, cap=cap)
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     answer = solve_model(model, solver, limit, gap, msg)
@@ -295,6 +298,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     n_lanes = len(model.lane_index)
     _fill_plan(network, model.lane_index, values[:n_lanes], model.unmet_index, values[model.columns("unmet_")],
                model.penalty, model.breakdown(values), result)
+    finish_plan(network, model, values, result, node_balance)
     if model.design:
         result.open_nodes = open_node_frame(network, model, values)
         result.trips = trip_frame(network, dict(zip(model.lane_index.tolist(), values[:n_lanes].tolist())))
