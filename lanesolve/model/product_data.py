@@ -90,7 +90,10 @@ def make_products(products: list[dict], demand: list[dict], supply: list[dict] |
                                 if "weight_per_unit" in frame else default_weight)
     frame["capacity_use"] = frame["capacity_use"].astype(float).fillna(1.0) if "capacity_use" in frame else 1.0
     frame["row"] = range(2, len(frame) + 2)
-    demand_frame = pd.DataFrame(demand, columns=None)
+    demand_frame = pd.DataFrame(demand)
+    for column in ("customer", "product", "demand"):
+        if column not in demand_frame:
+            demand_frame[column] = pd.Series(dtype=float if column == "demand" else object)
     if "unmet_penalty" not in demand_frame:
         demand_frame["unmet_penalty"] = np.nan
     demand_frame["row"] = range(2, len(demand_frame) + 2)
