@@ -137,6 +137,9 @@ HUBS = Sheet(
                doc="Cost per unit passing through the hub. Blank means 0."),
         *_node_design("hub"),
         *_COORDS,
+        Column("emission_per_tonne", NUMBER, default=0.0, minimum=0, unit="kg CO2e per tonne",
+               doc="Emissions of handling one tonne at the hub (hub operations count under ISO 14083). Blank "
+                   "means 0."),
     ),
 )
 
@@ -169,6 +172,74 @@ LANES = Sheet(
                    "distance between the two ends' latitude/longitude times the Settings circuity_factor."),
         Column("active", FLAG, default=True,
                doc="yes or no (blank means yes). Lanes marked no are left out of the plan but still reported."),
+        Column("products", TEXT, default="",
+               doc="Products the lane may carry: ids from the Products sheet, separated by commas. Blank means "
+                   "every product."),
+        Column("emission_factor", NUMBER, minimum=0, unit="kg CO2e per tonne-km",
+               doc="Well-to-wheel emission intensity of this lane; overrides its mode's factor on the Modes sheet. "
+                   "Carrier-specific figures are preferred (ISO 14083)."),
+    ),
+)
+
+PRODUCTS = Sheet(
+    "Products",
+    required=False,
+    id_column="product",
+    doc="Optional. The products that share the network's lanes, hubs and trucks. Without it the network carries "
+        "one product.",
+    columns=(
+        Column("product", ID, required=True, doc="Unique id of the product (text)."),
+        Column("weight_per_unit", NUMBER, minimum=0, unit="tonnes per unit",
+               doc="Weight of one unit, for emissions. Blank takes the Settings tonnes_per_unit."),
+        Column("capacity_use", NUMBER, default=1.0, minimum=0, unit="capacity units per unit",
+               doc="Capacity one unit takes on lanes, hubs and trips (a pallet of light goods 1, of bulky goods "
+                   "2). Lane and hub capacities, trip capacities, minimum volumes and lane costs count in these "
+                   "capacity units. Blank means 1."),
+    ),
+)
+
+SUPPLY = Sheet(
+    "Supply",
+    required=False,
+    doc="Optional (needs Products). What each depot can ship of each product. With it, Depots supply is an overall "
+        "cap across products (blank: no overall cap), and a depot ships only the products listed here for it.",
+    columns=(
+        Column("depot", ID, required=True, doc="Id of a depot on the Depots sheet."),
+        Column("product", ID, required=True, doc="Id of a product on the Products sheet."),
+        Column("supply", NUMBER, required=True, minimum=0, unit="units",
+               doc="Most units of the product the depot can ship in the period (net of what it receives)."),
+    ),
+)
+
+DEMAND = Sheet(
+    "Demand",
+    required=False,
+    doc="Optional (needs Products). What each customer needs of each product. With it, Customers demand must be "
+        "blank.",
+    columns=(
+        Column("customer", ID, required=True, doc="Id of a customer on the Customers sheet."),
+        Column("product", ID, required=True, doc="Id of a product on the Products sheet."),
+        Column("demand", NUMBER, required=True, minimum=0, unit="units",
+               doc="Units of the product to deliver in the period."),
+        Column("unmet_penalty", NUMBER, minimum=0, unit="currency per unit",
+               doc="Cost per unit of this product not delivered. Blank takes the customer's unmet_penalty, then "
+                   "the Settings one; with none the demand is a hard requirement."),
+    ),
+)
+
+MODES = Sheet(
+    "Modes",
+    required=False,
+    id_column="mode",
+    doc="Optional. Emission factors per transport mode (the Lanes mode label). Defaults are averages: ISO 14083 "
+        "prefers carrier-specific data, so replace them where you have it.",
+    columns=(
+        Column("mode", ID, required=True, doc="A mode label as written in the Lanes mode column (case ignored)."),
+        Column("emission_factor", NUMBER, minimum=0, unit="kg CO2e per tonne-km",
+               doc="Well-to-wheel emission intensity of the mode. Blank: lanes of this mode emit 'unknown' unless "
+                   "they have their own factor."),
+        Column("source", TEXT, default="",
+               doc="Where the factor comes from: publication, table and version. Required when a factor is given."),
     ),
 )
 
@@ -224,13 +295,24 @@ SETTINGS_ROWS = (
                 "sheet (which may then be empty or absent). The path is relative to the workbook's folder. "
                 "Parquet needs pyarrow: pip install \"lanesolve[parquet]\".",
             fixed_for_scenarios="the lanes are read once, with the workbook; change rows of Lanes instead"),
+    Setting("tonnes_per_unit", NUMBER, None, minimum=0, unit="tonnes per unit",
+            doc="Weight of one unit, for emissions: of every unit without a Products sheet, else of products whose "
+                "weight_per_unit is blank.",
+            fixed_for_scenarios="weights are read once, with the workbook"),
+    Setting("carbon_price", NUMBER, None, minimum=0, unit="currency per tonne CO2e",
+            doc="Price put on each tonne CO2e the plan emits; added to the total cost as the component carbon. "
+                "Blank means no price."),
+    Setting("emissions_cap", NUMBER, None, minimum=0, unit="tonnes CO2e",
+            doc="Most the whole plan may emit (lanes and hubs). Blank means no cap."),
     Setting("units", TEXT, "units", doc="Label for quantities in the results (pallets, tonnes, cases).",
             fixed_for_scenarios="every scenario is compared in the workbook's own units"),
     Setting("currency", TEXT, "", doc="Label for money in the results (EUR, USD).",
             fixed_for_scenarios="every scenario is compared in the workbook's own currency"),
 )
 
-INPUT_SHEETS = (DEPOTS, CUSTOMERS, HUBS, LANES, SETTINGS)
+INPUT_SHEETS = (DEPOTS, CUSTOMERS, HUBS, LANES, SETTINGS, PRODUCTS, SUPPLY, DEMAND, MODES)
+#: The sheets of several products and of emissions (read by :mod:`lanesolve.read.product_sheets`).
+GOODS_SHEETS = (PRODUCTS, SUPPLY, DEMAND, MODES)
 NODE_SHEETS = (DEPOTS, CUSTOMERS, HUBS)
 #: The optional what-if sheet (its columns are read by :mod:`lanesolve.model.scenarios`).
 SCENARIOS_SHEET = "Scenarios"

@@ -39,6 +39,7 @@ from lanesolve.model import scenarios
 from lanesolve.model.network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS,
                                      TEXT_COLUMNS, Network, Settings, resolve_status)
 from lanesolve.read.cells import BLANK_MEANS_NO_LIMIT
+from lanesolve.read import product_sheets
 from lanesolve.read.findings import Findings, is_blank
 from lanesolve.read.reader import RawWorkbook
 from lanesolve.read.settings_sheet import read_settings
@@ -101,7 +102,8 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     if settings.lanes_file and lanes_sheet is not None and not lanes_sheet.bad_cells and \
             not any(not is_blank(cell) for row in lanes_sheet.rows for cell in row):
         del matched[contract.LANES.name]  # with a lanes file, a Lanes sheet left completely empty counts as absent
-    tables = {spec.name: read_table(spec, matched.get(spec.name), found)
+    specs = product_sheets.sheet_specs(matched)
+    tables = {spec.name: read_table(specs[spec.name], matched.get(spec.name), found)
               for spec in contract.INPUT_SHEETS if spec is not contract.SETTINGS}
     require_cost_column(tables[contract.LANES.name], settings, found)
     if settings.lanes_file:
@@ -112,12 +114,14 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     check_lane_design(tables[contract.LANES.name], found)
     check_lane_costs(tables[contract.LANES.name], settings, found)
 
-    frames = None
+    frames = lane_sources = None
     if all(table.complete for table in tables.values()):
         # Frames are built before raising so that lane costs from distance are checked in the same pass.
-        frames = {name: _network_frame(table, settings) for name, table in tables.items()}
+        frames = {name: _network_frame(table, settings) for name, table in tables.items()
+                  if name in _NETWORK_COLUMNS}
         frames[contract.LANES.name], lane_sources = costs_from_distance(frames, tables[contract.LANES.name],
                                                                           settings, found)
+    products, emissions = product_sheets.read_goods(tables, frames, lane_sources, settings, found)
     errors = found.sorted("error")
     warnings = found.sorted("warning")
     if errors or frames is None:
@@ -130,6 +134,8 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
         settings=settings,
         source=raw.path,
         lane_sources=lane_sources,
+        products=products,
+        emissions=emissions,
     )
     return network, warnings
 
