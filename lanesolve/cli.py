@@ -132,9 +132,11 @@ def check(workbook: str) -> None:
 @click.option("--solver", type=click.Choice(["cbc", "highs"], case_sensitive=False), default=None,
               help="Solver to use (overrides the solver setting): cbc, bundled, or highs (needs highspy).")
 @click.option("--force", is_flag=True, help=FORCE_HELP)
+@click.option("--tradeoff", "tradeoff_points", type=click.IntRange(min=2), default=None, metavar="N",
+              help="Also plan N points from the least-emissions to the least-cost plan (needs emission factors).")
 def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, email_path: str | None,
           attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...],
-          solver: str | None, force: bool) -> None:
+          solver: str | None, force: bool, tradeoff_points: int | None) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from lanesolve.pipeline import run
     from lanesolve.progress import TerminalProgress, no_progress
@@ -149,7 +151,8 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
         try:
             outcome = run(workbook, output=output, time_limit=time_limit, verbose=verbose, progress=progress,
                           scenario_names=list(scenario_names) or None,
-                          solver=solver.lower() if solver else None, email=email_path, force=force)
+                          solver=solver.lower() if solver else None, email=email_path, force=force,
+                          tradeoff=tradeoff_points or 0)
         except NoPlanError as error:
             # The summary explains why there is no plan; the mail carries the same page.
             if email_path and error.result is not None:

@@ -37,7 +37,9 @@ from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.model import scenarios
 from lanesolve.model import diagnose
+from lanesolve.model import tradeoff
 from lanesolve.read import validate
+from lanesolve.write import goods_tables
 from lanesolve.write import writeback
 from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
 from lanesolve.model.network import Network
@@ -161,6 +163,7 @@ def run(
     solver: str | None = None,
     email: str | Path | None = None,
     force: bool = False,
+    tradeoff: int = 0,
 ) -> RunOutcome:
     """Solve a workbook end to end and write the results back.
 
@@ -189,6 +192,9 @@ def run(
         symbolic link resolved) is ``outcome.plan.mail.real``.
     force : bool
         Replace existing files lanesolve did not write (``--force``); see :mod:`lanesolve.write.paths`.
+    tradeoff : int
+        With 2 or more, also trace that many plans from the least-emissions to the least-cost plan
+        (``--tradeoff N``; :func:`lanesolve.model.tradeoff.tradeoff_curve`) into ``result.tradeoff``.
 
     Returns
     -------
@@ -212,14 +218,14 @@ def run(
     path = Path(path)
     try:
         if not write:
-            return _run_stages(path, None, time_limit, verbose, progress, scenario_names, solver)
+            return _run_stages(path, None, time_limit, verbose, progress, scenario_names, solver, tradeoff)
         plan = paths.plan_solve(path, output, email, force)
         target = plan.workbook.real
         for name in dict.fromkeys([path, plan.workbook.given, target]):
             locking.refuse_if_open(name)
         with locking.workbook_lock(target):
             atomic.remove_stale_temporaries(target)
-            return _run_stages(path, plan, time_limit, verbose, progress, scenario_names, solver)
+            return _run_stages(path, plan, time_limit, verbose, progress, scenario_names, solver, tradeoff)
     finally:
         progress(None, None)
 
@@ -241,7 +247,8 @@ def _read(path: Path) -> tuple[reader.RawWorkbook, source.Fingerprint]:
 
 
 def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, verbose: bool,
-                progress: ProgressCallback, scenario_names: list[str] | None, solver: str | None) -> RunOutcome:
+                progress: ProgressCallback, scenario_names: list[str] | None, solver: str | None,
+                tradeoff_points: int = 0) -> RunOutcome:
     timings: dict[str, float] = {}
     tick = time.perf_counter()
     progress("reading", None)
@@ -259,6 +266,8 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
 
     network, warnings = validate.validate(raw)
     variants = scenario_networks(raw, network, scenario_names)
+    if tradeoff_points:
+        tradeoff.require_emissions(network)
     timings["validate"] = time.perf_counter() - tick
     tick = time.perf_counter()
 
@@ -267,6 +276,8 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
     if plan is not None:  # a planner's sheet named like a result sheet stops the run before any solving
         writeback.check_result_sheets(path)
     result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
+    if result.status.has_plan:
+        tradeoff.emission_figures(network, result, tradeoff_points, solver, time_limit)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick
@@ -284,7 +295,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
         unchanged()  # before the write starts, and again just before the new workbook replaces anything
         tick = time.perf_counter()
         progress("writing results", None)
-        sheets = writeback.result_sheets(network, result, info)
+        sheets = writeback.result_sheets(network, result, info) + goods_tables.goods_sheets(network, result)
         if comparison is not None:
             sheets.append(writeback.scenario_sheet(comparison, network.settings))
         writeback.write_results(path, plan.workbook.real, sheets, before_replace=unchanged)

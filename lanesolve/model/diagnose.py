@@ -187,6 +187,9 @@ def diagnose(network: Network, solver: str | None = None, time_limit: float | No
     with_decisions = network.has_fixed_charges or network.has_design
     big = dominating_penalty(network, with_decisions)
     penalised.customers["unmet_penalty"] = np.where(hard, big, penalty)
+    if penalised.products is not None:  # several products: each hard demand by product gets the penalty too
+        big *= max(1.0, float(penalised.products.capacity_use.max(initial=1.0)))
+        penalised.products.demand["unmet_penalty"] = penalised.products.demand["unmet_penalty"].fillna(big)
     diagnosis.penalty = big
     result = solve(penalised, time_limit=time_limit, solver=solver, sensitivity=False)
     if not result.status.has_plan:

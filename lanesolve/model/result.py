@@ -13,7 +13,8 @@ import pandas as pd
 
 #: The caution every plan carries: on the summary sheet, in the HTML summary and (in other words) in README.md.
 CAUTION = ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
-           "carrier contracts; local regulations and licensed professionals take precedence.")
+           "carrier contracts; local regulations and licensed professionals take precedence. Emissions figures are "
+           "estimates from the factors in the workbook (defaults are averages): check them before reporting them.")
 
 #: Columns of :attr:`Result.flows` (one row per active lane with flow > 0).
 FLOW_COLUMNS = ["origin", "destination", "mode", "flow", "cost_per_unit", "variable_cost", "fixed_charge",

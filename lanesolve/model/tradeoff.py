@@ -12,6 +12,7 @@ import math
 
 import numpy as np
 
+from lanesolve.errors import Problem, WorkbookError
 from lanesolve.model.build import build_model
 from lanesolve.model.network import Network
 from lanesolve.model.result import Result
@@ -139,3 +140,21 @@ def _shortfall(result: Result, model, network: Network, prefix: str) -> np.ndarr
         key = (network.customers.at[customer, "id"], network.products.ids[product])
         out.append(float(nodes.get(key, 0.0)) if len(nodes) else 0.0)
     return np.array(out)
+
+
+def require_emissions(network: Network) -> None:
+    """Raise :class:`~lanesolve.errors.WorkbookError` when the trade-off is asked for but the workbook gives no
+    emissions (no factor, price or cap)."""
+    if network.emissions is None:
+        raise WorkbookError(Problem("Modes", None, "emission_factor", None,
+                                    "--tradeoff needs emissions, but the workbook gives no emission factor",
+                                    "give factors on a Modes sheet (the template's defaults, with their sources) or "
+                                    "in the Lanes column emission_factor", "error"))
+
+
+def emission_figures(network: Network, result: Result, points: int = 0, solver: str | None = None,
+                     time_limit: float | None = None) -> None:
+    """The cap's value (when a cap is set) and, with ``points`` >= 2, the trade-off curve, into ``result``."""
+    add_cap_value(network, result, solver, time_limit)
+    if points and network.emissions is not None:
+        result.tradeoff = tradeoff_curve(network, points, solver, time_limit)

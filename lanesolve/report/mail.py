@@ -33,6 +33,7 @@ from lanesolve.write import atomic
 from lanesolve.write import paths
 from lanesolve.report import summary, text
 from lanesolve.report import charts as _charts
+from lanesolve.report import emission_report
 from lanesolve.errors import WriteError
 from lanesolve.model.result import Result
 
@@ -112,7 +113,8 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     WriteError
         The file to attach cannot be read.
     """
-    drawings = _charts.summary_charts(network, result)
+    drawings = _charts.summary_charts(network, result) + emission_report.emission_charts(
+        result, network.settings.currency or "")
     cids = {chart.key: make_msgid(idstring=chart.key, domain=CID_DOMAIN) for chart in drawings}
     html = summary.render_html(network, result, info, warnings, charts=drawings,
                               image_src=lambda chart: "cid:" + cids[chart.key][1:-1], comparison=comparison)

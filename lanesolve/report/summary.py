@@ -24,6 +24,7 @@ import pandas as pd
 from lanesolve.write import atomic
 from lanesolve.report import advice
 from lanesolve.report import charts as _charts
+from lanesolve.report import emission_report
 from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
     CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
 from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, top_few
@@ -428,7 +429,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         The template context.
     """
     if charts is None:
-        charts = _charts.summary_charts(network, result)
+        charts = _charts.summary_charts(network, result) + emission_report.emission_charts(
+            result, network.settings.currency or "")
     image_src = image_src or _charts.Drawing.to_data_uri
     figures = {chart.key: {"title": chart.title, "alt": chart.alt, "src": image_src(chart),
                            "width": round(chart.width)} for chart in charts}
@@ -485,6 +487,7 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "messages": messages,
         "warnings": [str(w) for w in warnings],
         "caution": CAUTION,
+        "emissions": emission_report.emission_rows(result, currency),
     }
 
 

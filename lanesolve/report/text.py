@@ -143,6 +143,8 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list,
             lines += ["", f"Dearest lanes ({len(shown)} of {len(shown) + rest})"]
             lines += [f"  {lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
                       + f": {lane['flow']}, {lane['total_cost']}" for lane in shown]
+    if c["emissions"]:
+        lines += ["", "Emissions"] + [f"  {label}: {value}" for label, value in c["emissions"]]
     if c["scenarios"]:
         lines += ["", "What-if scenarios (change against the baseline)"]
         lines += [f"  {row['scenario']} ({row['status']}): {row['total_cost']}"
