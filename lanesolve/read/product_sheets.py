@@ -262,11 +262,18 @@ def _check_modes(modes_t: Table, found: Findings) -> None:
 
 
 def _emissions_asked(tables: dict[str, Table], settings: Settings) -> bool:
-    """A carbon price, a cap, or any factor (a mode's, a lane's, a hub's per tonne) given."""
+    """A carbon price, a cap, or any factor given: a lane's, a hub's per tonne, or a mode's that a lane uses (the
+    template's default factors for modes no lane uses ask for nothing)."""
     if settings.carbon_price is not None or settings.emissions_cap is not None:
         return True
-    for sheet, column in ((_M, "emission_factor"), (contract.LANES.name, "emission_factor"),
-                          (contract.HUBS.name, "emission_per_tonne")):
+    modes_t, lanes_t = tables[_M], tables[contract.LANES.name]
+    if _present(modes_t) and len(lanes_t):
+        factor = _values(modes_t, "emission_factor").to_numpy(dtype=float)
+        given = {str(m).casefold() for m, f in zip(modes_t.values["mode"].tolist(), factor) if f == f}
+        used = {str(m).strip().casefold() for m in _values(lanes_t, "mode").tolist()}
+        if given & used:
+            return True
+    for sheet, column in ((contract.LANES.name, "emission_factor"), (contract.HUBS.name, "emission_per_tonne")):
         values = tables[sheet].values.get(column)
         if values is not None and len(values) and (pd.to_numeric(values, errors="coerce").fillna(0) > 0).any():
             return True

@@ -10,6 +10,8 @@ cannot drift from what the reader accepts. The workbook holds:
   default), number formats on numeric columns and a drop-down on every choice column (yes/no flags, node status);
 - the Settings sheet prefilled with every setting and its default (blank where there is none), with a drop-down on
   the value of every choice setting (``solver``, ``distance_unit``, yes/no settings);
+- the Modes sheet prefilled with default emission factors, each naming its published source
+  (:mod:`lanesolve.write.default_factors`); modes without a verified default are listed with a blank factor;
 - a Scenarios sheet with two example what-ifs that work on any network (they change every row, ``*``), and
   drop-downs on its ``sheet``, ``column`` and ``change`` columns.
 """
@@ -30,6 +32,7 @@ from lanesolve.write import paths
 from lanesolve import contract
 from lanesolve.errors import WriteError
 from lanesolve.model import scenarios
+from lanesolve.write.default_factors import DEFAULT_MODE_FACTORS
 
 GUIDE_SHEET = "Guide"
 
@@ -341,10 +344,19 @@ def build_template() -> Workbook:
     for sheet in contract.INPUT_SHEETS:
         _add_input_sheet(book, sheet)
     _fill_settings(book)
+    _fill_modes(book)
     _add_scenarios(book)
     _add_guide(book)
     book.active = 0
     return book
+
+
+def _fill_modes(book: Workbook) -> None:
+    """The Modes sheet prefilled with the default factors and their sources
+    (:data:`lanesolve.write.default_factors.DEFAULT_MODE_FACTORS`)."""
+    ws = book[contract.MODES.name]
+    for mode, factor, source in DEFAULT_MODE_FACTORS:
+        ws.append([mode, factor, source])
 
 
 def save_atomically(book: Workbook, path: str | os.PathLike) -> None:
@@ -387,7 +399,7 @@ def write_template(path: str | os.PathLike, force: bool = False) -> None:
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "blank.xlsx"
     >>> write_template(target)
     >>> openpyxl.load_workbook(target).sheetnames
-    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings', 'Scenarios']
+    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings', 'Products', 'Supply', 'Demand', 'Modes', 'Scenarios']
     """
     if Path(path).suffix.lower() == ".xlsx":  # a wrong suffix gets save_atomically's own message
         path = paths.check_new_file(path, "the template", "template", force).real
