@@ -38,7 +38,6 @@ from __future__ import annotations
 
 import copy
 import math
-import time
 from collections import deque
 from dataclasses import dataclass, field
 
@@ -253,19 +252,3 @@ def _saturated(network: Network, result, short_ids: set[str], with_decisions: bo
     if short_ids and not frame["bottleneck"].any() and not with_decisions:
         frame["bottleneck"] = True
     return frame
-
-
-def solve_and_explain(network: Network, time_limit: float | None = None, solver: str | None = None,
-                      msg: bool = False, **options) -> Result:
-    """Solve ``network`` with :func:`lanesolve.model.solve.solve`; when no feasible plan exists, attach the
-    :class:`Diagnosis` to ``Result.diagnosis`` and its sentences to ``Result.messages``.
-
-    ``options`` go to :func:`~lanesolve.model.solve.solve` unchanged.
-    """
-    result = solve(network, time_limit=time_limit, solver=solver, msg=msg, **options)
-    if result.status is SolveStatus.INFEASIBLE:
-        tick = time.perf_counter()
-        result.diagnosis = diagnose(network, solver=solver, time_limit=time_limit)
-        result.messages.extend(result.diagnosis.sentences(network.settings.units or "units"))
-        result.timings["diagnose"] = time.perf_counter() - tick
-    return result

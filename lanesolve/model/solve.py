@@ -447,11 +447,6 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
                                    "(raise time_limit_s in Settings or use --time-limit).")
     else:
         result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
-    if sensitivity and status is SolveStatus.OPTIMAL:
-        from lanesolve.model.sensitivity import analyse  # late import: sensitivity builds on this module
-        tick = time.perf_counter()
-        result.sensitivity = analyse(network, model, solver=solver)
-        result.timings["sensitivity"] = time.perf_counter() - tick
     return result
 
 
@@ -618,11 +613,6 @@ def _solve_by_arrays(network: Network, limit: float | None, msg: bool, sensitivi
     breakdown = {name: float(coefficients @ values) for name, coefficients in arrays.costs.items()}
     _fill_plan(network, arrays.lane_index, flow, arrays.unmet_index, unmet_values, arrays.penalty, breakdown, result)
     result.best_bound = result.total_cost  # an optimal LP's objective is its own bound
-    if sensitivity and status is SolveStatus.OPTIMAL:
-        from lanesolve.model.sensitivity import analyse_arrays  # late import: sensitivity builds on this module
-        tick = time.perf_counter()
-        result.sensitivity = analyse_arrays(network, arrays, answer)
-        result.timings["sensitivity"] = time.perf_counter() - tick
     return result
 
 
