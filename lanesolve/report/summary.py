@@ -24,7 +24,7 @@ import pandas as pd
 from lanesolve.write import atomic
 from lanesolve.report import charts as _charts
 from lanesolve.model.result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus, node_decisions
-from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, top_few
+from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, money_words, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
     from lanesolve.model.network import Network
@@ -295,7 +295,8 @@ def _lane_words(label: str) -> str:
     return label
 
 
-def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str) -> str:
+def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str,
+                         value_up: float | None = None, value_down: float | None = None) -> str:
     """One sensitivity figure in plain words, for the summary page and the mail.
 
     Parameters
@@ -310,6 +311,9 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         Whether the figure is the same in every optimal dual; when not, the sentence says so and shows no number.
     units, currency : str
         The workbook's labels.
+    value_up, value_down : float, optional
+        The two sides when they differ (what one more unit and one unit less cost or save; inf: no plan). Given,
+        the sentence states both.
 
     Returns
     -------
@@ -321,6 +325,8 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     'One more pallet at Runnelby would cost 43.34 EUR.'
     >>> sensitivity_sentence("reduced_cost", "Tarrowick -> Mellisford (rail)", 3.2, True, "pallets", "EUR")
     'Tarrowick→Mellisford rail would need to be 3.20 EUR per pallet cheaper before the plan used it.'
+    >>> sensitivity_sentence("marginal_cost", "Runnelby", math.nan, False, "pallets", "", 0.26, 0.18)
+    'One more pallet at Runnelby would cost 0.26; one less would save 0.18.'
     """
     one = singular(units or "units")
     lane = _lane_words(item)
@@ -331,6 +337,11 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         "lane_capacity_value": f"one more {one} of capacity on {lane}",
         "trip_capacity_value": f"one more {one} of room in the planned trips on {lane}",
     }
+    if not unique and value_up is not None and value_down is not None and figure != "reduced_cost":
+        return _two_sided(figure, subject.get(figure, f"{figure.replace('_', ' ')} of {item}"), value_up,
+                          value_down, currency)
+    if not unique and figure == "reduced_cost" and value_up is not None and math.isinf(value_up):
+        return f"{lane} is unused and no plan can use it as the plan's decisions stand."
     if not unique:
         if figure == "reduced_cost":
             return (f"{lane} is unused; how much cheaper it would need to be is not unique at this plan (the plan "
@@ -338,9 +349,9 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
         return (f"What {what} is worth is not unique at this plan (the plan is degenerate: more than one figure "
                 "fits it), so none is shown.")
-    amount = format_money(abs(value), currency)
+    amount = money_words(abs(value), currency)
     if figure == "reduced_cost":
-        if abs(value) < 0.005:
+        if abs(value) < 1e-9:
             return f"{lane} is unused, but a plan using it would cost no more (an equally cheap alternative)."
         return f"{lane} would need to be {amount} per {one} cheaper before the plan used it."
     what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
@@ -349,6 +360,18 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     else:
         verb = "would save" if value >= 0 else "would cost"
     return f"{what[0].upper()}{what[1:]} {verb} {amount}."
+
+
+def _two_sided(figure: str, what: str, up: float, down: float, currency: str) -> str:
+    """Both sides of a figure whose one-more and one-less values differ; a side without a plan is said so."""
+    more, less = ("cost", "save") if figure == "marginal_cost" else ("save", "cost")
+    first = (f"{what[0].upper()}{what[1:]} could not be met by any plan" if math.isinf(up)
+             else f"{what[0].upper()}{what[1:]} would {more} {money_words(up, currency)}")
+    if math.isnan(down):
+        return f"{first}."
+    second = ("one less would leave no plan" if math.isinf(down)
+              else f"one less would {less} {money_words(down, currency)}")
+    return f"{first}; {second}."
 
 
 #: Figures of the "What the plan is sensitive to" section, in order, each with its heading.
@@ -373,7 +396,8 @@ def _sensitivity_context(result: Result, units: str, currency: str) -> dict:
                 continue
             total = int((frame["figure"] == figure).sum())
             groups.append({"heading": heading, "more": max(total - len(rows), 0), "sentences": [
-                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency)
+                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency,
+                                     float(getattr(r, "value_up", r.value)), float(getattr(r, "value_down", r.value)))
                 for r in rows.itertuples(index=False)]})
     bases = sorted({str(b) for b in frame["basis"]}) if not frame.empty else []
     fixed = FIXED_BASIS in bases

@@ -364,36 +364,46 @@ MAX_REDUCED_COST_ROWS = 500
 def sensitivity_sheet(result) -> ResultSheet:
     """``"LS Sensitivity"``: the figures of ``result.sensitivity``, each in words, with its sentence and basis.
 
-    Every marginal cost and capacity value is listed; of the unused lanes' reduced costs, the
-    :data:`MAX_REDUCED_COST_ROWS` smallest (the lanes closest to being worth using), then one row counting the rest.
-    A figure that is not unique (a degenerate plan) has a blank value and ``unique`` "no"; its sentence says why.
-    With no figures (a plan not proven optimal, or the LP re-solve failed) the sheet holds one row saying so.
+    Every marginal cost and capacity value is listed with both sides (``one more unit``, ``one unit less``) and, when
+    they agree, the one ``value`` (``unique`` "yes"); cells keep full precision. Of the unused lanes' reduced costs,
+    the :data:`MAX_REDUCED_COST_ROWS` smallest (the lanes nearest to being worth using), then one row counting the
+    rest. A side with no plan is blank and its sentence says so. With no figures (a plan not proven optimal) the
+    sheet holds one row saying why.
     """
-    columns = ["figure", "item", "value", "unique", "basis", "in plain words"]
-    kinds = {"figure": "text", "item": "text", "value": "money", "unique": "text", "basis": "text",
-             "in plain words": "text"}
+    columns = ["figure", "item", "value", "one more unit", "one unit less", "unique", "basis", "in plain words"]
+    kinds = {"figure": "text", "item": "text", "value": "number", "one more unit": "number",
+             "one unit less": "number", "unique": "text", "basis": "text", "in plain words": "text"}
     frame = result.sensitivity
     reduced = frame["figure"] == "reduced_cost" if len(frame) else None
     left_out = 0
     if reduced is not None and int(reduced.sum()) > MAX_REDUCED_COST_ROWS:
         lanes = frame[reduced]
-        # Unique figures first, smallest first; a stable sort keeps the model's order among equals.
-        order = lanes.assign(_unsure=~lanes["unique"].astype(bool)).sort_values(["_unsure", "value"], kind="stable")
+        # Nearest to paying first; a lane no plan can use (inf) last; a stable sort keeps the model's order.
+        order = lanes.sort_values("value_up" if "value_up" in lanes else "value", kind="stable", na_position="last")
         left_out = len(lanes) - MAX_REDUCED_COST_ROWS
-        frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS].drop(columns="_unsure")])
+        frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS]])
+
+    def finite(value):
+        value = _plain(value)
+        return value if isinstance(value, (int, float)) and math.isfinite(value) else None
+
     rows = []
     for row in frame.itertuples(index=False):
+        if row.figure == "none":
+            rows.append(["none", None, None, None, None, None, _plain(row.basis), _plain(row.text)])
+            continue
+        up, down = getattr(row, "value_up", row.value), getattr(row, "value_down", row.value)
         rows.append([FIGURE_WORDS.get(row.figure, str(row.figure).replace("_", " ")), _plain(row.item),
-                     _plain(row.value) if bool(row.unique) else None, "yes" if bool(row.unique) else "no",
-                     _plain(row.basis), _plain(row.text)])
+                     finite(row.value) if bool(row.unique) else None, finite(up), finite(down),
+                     "yes" if bool(row.unique) else "no", _plain(row.basis), _plain(row.text)])
     if left_out:
-        rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None,
+        rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None, None, None,
                      f"... and {left_out:,} more unused lanes, each further from being worth using than those above "
                      "(lanesolve solve --json lists every figure)."])
     if not rows:
         why = ("the plan is not proven optimal, so its marginal costs could mislead"
                if result.status.value != "optimal" else "the figures could not be computed for this plan")
-        rows.append(["none", None, None, None, None, f"No sensitivity figures: {why}."])
+        rows.append(["none", None, None, None, None, None, None, f"No sensitivity figures: {why}."])
     return ResultSheet(SENSITIVITY_SHEET, columns, rows, kinds)
 
 
