@@ -32,7 +32,7 @@ from lanesolve.write import locking
 from lanesolve.read import reader
 from lanesolve.report import summary
 from lanesolve.model import scenarios
-from lanesolve.model.analyse import solve_and_analyse
+from lanesolve.model.analyse import explain_no_plan, solve_and_analyse
 from lanesolve.read import validate
 from lanesolve.write import writeback
 from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError
@@ -126,7 +126,7 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     """Run the cheap checks, then the solver when they find nothing."""
     reasons = checks.presolve_checks(network)
     if reasons:
-        return checks.no_plan_result(network, reasons)
+        return explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
     progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
     return solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose)
 

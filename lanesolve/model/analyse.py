@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import time
 
+from lanesolve.model.checks import no_plan_result
 from lanesolve.model.diagnose import diagnose
 from lanesolve.model.network import Network
 from lanesolve.model.result import Result, SolveStatus
@@ -59,4 +60,31 @@ def solve_and_analyse(network: Network, time_limit: float | None = None, solver:
         result.diagnosis = diagnose(network, solver=solver, time_limit=time_limit)
         result.messages.extend(result.diagnosis.sentences(network.settings.units or "units"))
         result.timings["diagnose"] = time.perf_counter() - tick
+    return result
+
+
+def explain_no_plan(network: Network, reasons: list[str], time_limit: float | None = None,
+                    solver: str | None = None) -> Result:
+    """The result for a network the pre-solve checks rule out, with every cause they found *and* the least total
+    shortfall, who would bear it and what restores a plan (:func:`lanesolve.model.diagnose.diagnose`).
+
+    Parameters
+    ----------
+    network : Network
+    reasons : list of str
+        What :func:`lanesolve.model.checks.presolve_checks` found (non-empty).
+    time_limit, solver
+        For the shortfall re-solve.
+
+    Returns
+    -------
+    Result
+        Status ``infeasible``; ``messages`` hold the diagnosis: the total shortfall and the causes first, then the
+        customers one by one.
+    """
+    result = no_plan_result(network, reasons)
+    tick = time.perf_counter()
+    result.diagnosis = diagnose(network, solver=solver, time_limit=time_limit, found_before=reasons)
+    result.messages = result.diagnosis.sentences(network.settings.units or "units")
+    result.timings["diagnose"] = time.perf_counter() - tick
     return result

@@ -204,6 +204,11 @@ def _summary_rows(network, result, info) -> list[list]:
         ["inactive lanes left out", inactive],
         ["customers short", int(len(result.unmet))],
     ]
+    diagnosis = result.diagnosis
+    if diagnosis is not None and getattr(diagnosis, "total_short", None) is not None:
+        # Without a plan, the shortfall is the diagnosis's (the least possible), not the empty plan's.
+        rows[-1] = ["customers short", int(len(diagnosis.short))]
+        rows.append(["total shortfall", float(diagnosis.total_short)])
     rows += [["message", str(message)] for message in result.messages]
     rows.append(["caution", CAUTION])
     return rows
@@ -410,9 +415,10 @@ def sensitivity_sheet(result) -> ResultSheet:
 def why_no_plan_sheet(network, result) -> ResultSheet:
     """``"LS Why no plan"``: the diagnosis of an infeasible result (:class:`lanesolve.model.diagnose.Diagnosis`).
 
-    One row per finding: causes found before solving, customers who would go short (and by how much), lanes,
-    depots and hubs used to their limit with the bottleneck (the minimum cut) marked, notes, and the internal
-    penalty per unit short the re-solve used. Without a diagnosis the result's messages are listed as reasons.
+    One row per finding, the total and the causes first: the least total shortfall, causes found before solving,
+    design rules in the way, customers who would go short (and by how much), lanes, depots and hubs used to their
+    limit with the bottleneck marked and the raise each needs, notes, and the internal penalty per unit short the
+    re-solve used. Without a diagnosis the result's messages are listed as reasons.
     """
     units = network.settings.units or "units"
     columns = ["finding", "item", "demand", "short", "capacity", "used", "bottleneck", "penalty per unit",
@@ -425,14 +431,23 @@ def why_no_plan_sheet(network, result) -> ResultSheet:
     if diagnosis is None:
         rows += [["reason", *blank, str(m)] for m in result.messages]
         return ResultSheet(WHY_SHEET, columns, rows, kinds)
+    total = getattr(diagnosis, "total_short", None)
+    if total is not None:
+        rows.append(["total shortfall", None, None, _plain(total), None, None, None, None,
+                     diagnosis.causes(units)[0] if total > 0 else "no hard demand would go short"])
     rows += [["cause found before solving", *blank, str(c)] for c in diagnosis.structural]
+    rows += [["design rule in the way" if ok else "design rule tried", _plain(name), *blank[:6], str(text)]
+             for name, ok, text in getattr(diagnosis, "rules", [])]
     for r in diagnosis.short.itertuples(index=False):
         rows.append(["customer short", _plain(r.customer), _plain(r.demand), _plain(r.short), None, None, None, None,
                      f"would be {float(r.short):.6g} {units} short of its demand of {float(r.demand):.6g} {units}"])
     for r in diagnosis.saturated.itertuples(index=False):
         cut = bool(r.bottleneck)
+        raise_by = float(getattr(r, "raise_by", 0.0) or 0.0)
         rows.append([f"{r.kind} at its limit", _plain(r.item), None, None, _plain(r.capacity), _plain(r.used),
                      "yes" if cut else "no", None,
+                     f"part of the bottleneck: raise it by {raise_by:.6g} {units} (with the other limits raised by "
+                     "theirs) for a plan" if raise_by > 0 else
                      "part of the bottleneck: the capacity that runs out (raise it, or add a route around it)" if cut
                      else "used to its limit on the way; not part of the bottleneck found"])
     rows += [["note", *blank, str(n)] for n in diagnosis.notes]
