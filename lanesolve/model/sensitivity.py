@@ -87,19 +87,28 @@ def money_words(value: float, currency: str = "") -> str:
     >>> money_words(123456.789)
     '123,456.79'
     """
-    value = float(value) + 0.0
-    if value == 0 or not math.isfinite(value):
-        decimals = 2
-    else:
-        decimals = max(2, 3 - math.floor(math.log10(abs(value))))
-    text = f"{value:,.{decimals}f}"
-    if decimals > 2:
-        text = text.rstrip("0")
-        if len(text.rpartition(".")[2]) < 2:
-            text += "0" * (2 - len(text.rpartition(".")[2]))
-    if text.startswith("-") and text.strip("-0.,") == "":
-        text = text[1:]
-    return f"{text} {currency}" if currency else text
+    return str(_amounts(np.array([value], dtype=float), currency)[0])
+
+
+def _amounts(values: np.ndarray, currency: str = "") -> np.ndarray:
+    """:func:`money_words` for an array, as an object array; values are formatted in groups of equal decimals
+    (a 100k-lane plan formats about 100k of them, so each step is one cheap call per value)."""
+    values = np.asarray(values, dtype=float) + 0.0
+    size = np.abs(values)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        magnitude = np.floor(np.log10(size))
+    decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2).astype(int)
+    out = np.empty(len(values), dtype=object)
+    for d in np.unique(decimals).tolist():
+        chosen = np.flatnonzero(decimals == d)
+        if d == 2:
+            out[chosen] = list(map("{:,.2f}".format, size[chosen].tolist()))
+            continue
+        # Below 10: drop trailing zeros, keep two decimals ("5.000" -> "5.00", "0.1530" -> "0.153").
+        trimmed = [t.rstrip("0") for t in map(f"%.{d}f".__mod__, size[chosen].tolist())]
+        out[chosen] = [(t + "00")[:max(len(t), t.index(".") + 3)] for t in trimmed]
+    out = np.where(values < 0, "-" + out, out)
+    return out + f" {currency}" if currency else out
 
 
 # ------------------------------------------------------------------------------------------------ the plan's graph
@@ -163,14 +172,12 @@ class _Graph:
 
 
 def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> csr_matrix:
-    """A CSR graph keeping explicit zero weights (csgraph treats them as arcs) and the cheapest of parallel arcs."""
-    order = np.lexsort((weight, head, tail))
-    tail, head, weight = tail[order], head[order], weight[order]
-    first = np.ones(len(tail), dtype=bool)
-    first[1:] = (tail[1:] != tail[:-1]) | (head[1:] != head[:-1])
-    tail, head, weight = tail[first], head[first], weight[first]
-    indptr = np.searchsorted(tail, np.arange(n + 1))
-    return csr_matrix((weight, head, indptr), shape=(n, n))
+    """A CSR graph keeping explicit zero weights (csgraph treats them as arcs) and parallel arcs (csgraph's
+    shortest-path routines take the cheapest of repeated entries, as its documentation says)."""
+    order = np.argsort(tail, kind="stable")
+    indptr = np.zeros(n + 1, dtype=np.int64)
+    np.cumsum(np.bincount(tail, minlength=n), out=indptr[1:])
+    return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
 
 
 def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray) -> np.ndarray:
@@ -199,12 +206,6 @@ def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray) 
 
 
 # ---------------------------------------------------------------------------------------------------- the figures
-def _lane_labels(lanes: pd.DataFrame) -> np.ndarray:
-    mode = lanes["mode"].astype(str)
-    return (lanes["origin"].astype(str) + " -> " + lanes["destination"].astype(str)
-            + (" (" + mode + ")").where(mode != "", "")).to_numpy(dtype=object)
-
-
 def _needs_use(network: Network, lanes: pd.DataFrame, design: bool) -> np.ndarray:
     """Per active lane: does the model give it a yes/no "used" decision? (as in the model's docstring)"""
     need = lanes["fixed_cost"].to_numpy(dtype=float) > 0
@@ -264,25 +265,42 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     basis = FIXED_BASIS if (design or bool((lanes["fixed_cost"] > 0).any())) else LP_BASIS
     n_d, n_c, n_h = len(depots), len(customers), len(hubs)
     root = n_d + n_c + 2 * n_h
-    index_of = {node: k for k, node in enumerate(depots["id"])}
-    index_of.update({node: n_d + k for k, node in enumerate(customers["id"])})
-    hub_in = {node: n_d + n_c + k for k, node in enumerate(hubs["id"])}
-    hub_out = {node: n_d + n_c + n_h + k for k, node in enumerate(hubs["id"])}
+    # Every node id at one position (depots, customers, hubs), and the lane ends as positions.
+    node_ids = pd.Index(np.concatenate([depots["id"].to_numpy(dtype=object), customers["id"].to_numpy(dtype=object),
+                                        hubs["id"].to_numpy(dtype=object)]))
+    origins = lanes["origin"].to_numpy(dtype=object)
+    destinations = lanes["destination"].to_numpy(dtype=object)
+    modes = lanes["mode"].to_numpy(dtype=object)
+    at_origin, at_destination = node_ids.get_indexer(origins), node_ids.get_indexer(destinations)
+    first_hub = n_d + n_c
+    # Hubs are split: lanes leave from the "out" node (shifted by n_h), arrive at the "in" node.
+    tail = np.where(at_origin >= first_hub, at_origin + n_h, at_origin)
+    head = at_destination
 
-    # The plan's flows per active lane, and the decisions it fixes.
+    # The plan's flows per active lane, matched on (origin, destination, mode) as integer keys.
     flows = result.flows
-    planned = dict(zip(zip(flows["origin"], flows["destination"], flows["mode"]), flows["flow"].astype(float)))
-    keys = zip(lanes["origin"].tolist(), lanes["destination"].tolist(), lanes["mode"].tolist())
-    flow = np.fromiter((planned.get(k, 0.0) for k in keys), dtype=float, count=len(lanes))
+    modes_seen = pd.Index(pd.unique(np.concatenate([modes, flows["mode"].to_numpy(dtype=object)])))
+    width = len(node_ids) + 1
+
+    def key(at_o, at_d, mode):
+        return (at_o.astype(np.int64) * width + at_d) * max(1, len(modes_seen)) + modes_seen.get_indexer(mode)
+
+    planned = pd.Index(key(node_ids.get_indexer(flows["origin"].to_numpy(dtype=object)),
+                           node_ids.get_indexer(flows["destination"].to_numpy(dtype=object)),
+                           flows["mode"].to_numpy(dtype=object)))
+    where = planned.get_indexer(key(at_origin, at_destination, modes)) if len(planned) else np.full(len(lanes), -1)
+    flow = np.where(where >= 0, flows["flow"].to_numpy(dtype=float)[np.maximum(where, 0)] if len(flows) else 0.0,
+                    0.0)
     closed = closed_nodes(network)
     if len(result.open_nodes):
         closed |= set(result.open_nodes.loc[~result.open_nodes["open"].astype(bool), "node"])
+    is_closed = node_ids.isin(list(closed))
     high = lanes["capacity"].to_numpy(dtype=float).copy()
     low = np.zeros(len(lanes))
-    shut = (lanes["origin"].isin(closed) | lanes["destination"].isin(closed)).to_numpy().copy()
+    shut = is_closed[at_origin] | is_closed[at_destination] if len(lanes) else np.zeros(0, dtype=bool)
     used = flow > 0
     need_use = _needs_use(network, lanes, design)
-    shut |= need_use & ~used
+    shut = shut | (need_use & ~used)
     minimum = lanes["min_volume"].to_numpy(dtype=float)
     low = np.where(need_use & used & design, minimum, low)
     size = lanes["trip_capacity"].to_numpy(dtype=float)
@@ -296,29 +314,26 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     high = np.where(shut, 0.0, np.minimum(high, room))
 
     graph = _Graph(root + 1, root)
-    handling = dict(zip(depots["id"], depots["handling_cost"].astype(float)))
-    origins, destinations = lanes["origin"].tolist(), lanes["destination"].tolist()
-    tail = np.array([hub_out.get(o, index_of.get(o, -1)) for o in origins], dtype=np.int64)
-    head = np.array([hub_in.get(d, index_of.get(d, -1)) for d in destinations], dtype=np.int64)
-    cost = lanes["cost_per_unit"].to_numpy(dtype=float) + np.array([handling.get(o, 0.0) for o in origins])
+    handling = np.zeros(len(node_ids))
+    handling[:n_d] = depots["handling_cost"].to_numpy(dtype=float)
+    cost = lanes["cost_per_unit"].to_numpy(dtype=float) + handling[at_origin]
     lane_arc = graph.add(tail, head, cost, low, high, flow)
-    outflow = pd.Series(flow, index=origins).groupby(level=0).sum() if len(lanes) else pd.Series(dtype=float)
-    inflow = pd.Series(flow, index=destinations).groupby(level=0).sum() if len(lanes) else pd.Series(dtype=float)
-    depot_ids = depots["id"].tolist()
-    supply = np.where(depots["id"].isin(closed), 0.0, depots["supply"].to_numpy(dtype=float))
-    net = outflow.reindex(depot_ids, fill_value=0.0).to_numpy() - inflow.reindex(depot_ids, fill_value=0.0).to_numpy()
+    outflow = np.bincount(at_origin, weights=flow, minlength=len(node_ids))
+    inflow = np.bincount(at_destination, weights=flow, minlength=len(node_ids))
+    depot_ids = depots["id"].to_numpy(dtype=object)
+    supply = np.where(is_closed[:n_d], 0.0, depots["supply"].to_numpy(dtype=float))
+    net = outflow[:n_d] - inflow[:n_d]
     graph.add(root, np.arange(n_d), 0.0, -math.inf, supply, net)
-    hub_ids = hubs["id"].tolist()
-    hub_cap = np.where(hubs["id"].isin(closed), 0.0, hubs["capacity"].to_numpy(dtype=float))
-    through = inflow.reindex(hub_ids, fill_value=0.0).to_numpy()
-    graph.add(n_d + n_c + np.arange(n_h), n_d + n_c + n_h + np.arange(n_h), hubs["handling_cost"].to_numpy(float),
+    hub_ids = hubs["id"].to_numpy(dtype=object)
+    hub_cap = np.where(is_closed[first_hub:], 0.0, hubs["capacity"].to_numpy(dtype=float))
+    through = inflow[first_hub:]
+    graph.add(first_hub + np.arange(n_h), first_hub + n_h + np.arange(n_h), hubs["handling_cost"].to_numpy(float),
               0.0, hub_cap, through)
     penalty = customer_penalties(network)
     hard = np.isnan(penalty)
     demand = customers["demand"].to_numpy(dtype=float)
-    customer_ids = customers["id"].tolist()
-    kept = inflow.reindex(customer_ids, fill_value=0.0).to_numpy() - outflow.reindex(customer_ids,
-                                                                                      fill_value=0.0).to_numpy()
+    customer_ids = customers["id"].to_numpy(dtype=object)
+    kept = inflow[n_d:first_hub] - outflow[n_d:first_hub]
     graph.add(n_d + np.arange(n_c), root, np.where(hard, 0.0, -np.nan_to_num(penalty)), np.where(hard, demand, 0.0),
               demand, kept)
     try:
@@ -334,39 +349,46 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     short = kept < demand - TOLERANCE * np.maximum(1.0, demand)
     down = np.where(~hard & short, np.nan_to_num(penalty), -graph.to_root[node])
     down = np.where(demand <= 0, math.nan, down)  # demand cannot fall below 0
-    frames.append(_frame("marginal_cost", np.array(customer_ids, dtype=object), up, down, basis,
+    frames.append(_frame("marginal_cost", customer_ids, up, down, basis,
                          "of demand at customer", units, currency))
 
     # Depots at their supply: one more saves -d(d, R); one less costs d(R, d).
     binding = ~depots["id"].isin(closed).to_numpy() & _at_bound(net, supply)
     node = np.arange(n_d)[binding]
-    frames.append(_frame("supply_value", np.array(depot_ids, dtype=object)[binding],
+    frames.append(_frame("supply_value", depot_ids[binding],
                          np.maximum(0.0, -graph.to_root[node]), graph.from_root[node], basis, "of supply at depot",
                          units, currency))
 
     # Hubs at capacity and lanes at capacity (or full trips): an arc a = (i, j) at its upper bound.
     binding = (hub_cap > 0) & _at_bound(through, hub_cap)
-    i, j = (n_d + n_c + np.arange(n_h))[binding], (n_d + n_c + n_h + np.arange(n_h))[binding]
+    i, j = (first_hub + np.arange(n_h))[binding], (first_hub + n_h + np.arange(n_h))[binding]
     g = hubs["handling_cost"].to_numpy(float)[binding]
-    frames.append(_frame("hub_capacity_value", np.array(hub_ids, dtype=object)[binding],
+    frames.append(_frame("hub_capacity_value", hub_ids[binding],
                          np.maximum(0.0, -(g + graph.distance(j, i))), graph.distance(i, j) - g, basis,
                          "of capacity at hub", units, currency))
-    labels = _lane_labels(lanes)
+
+    def labels(chosen: np.ndarray) -> np.ndarray:
+        return np.array([f"{o} -> {d} ({m})" if m else f"{o} -> {d}" for o, d, m in
+                         zip(origins[chosen].tolist(), destinations[chosen].tolist(), modes[chosen].tolist())],
+                        dtype=object)
     at_cap = ~shut & (high > 0) & _at_bound(flow, high)
     arc = lane_arc[at_cap]
     saving = np.maximum(0.0, -(graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc])))
     loss = graph.distance(graph.tail[arc], graph.head[arc]) - graph.cost[arc]
     for figure, which, what in (("lane_capacity_value", ~trip_binds[at_cap], "of capacity on lane"),
                                 ("trip_capacity_value", trip_binds[at_cap], "of room in the planned trips on lane")):
-        frames.append(_frame(figure, labels[at_cap][which], saving[which], loss[which], basis, what, units,
+        frames.append(_frame(figure, labels(at_cap)[which], saving[which], loss[which], basis, what, units,
                              currency))
 
     # Unused lanes: their cost must fall by c + d(j, i) before a plan as cheap uses them.
     unused = ~shut & (high > 0) & (flow <= TOLERANCE)
     arc = lane_arc[unused]
     reduced = np.maximum(0.0, graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc]))
-    frame = _reduced_frame(labels[unused], reduced, basis, units, currency, bool(closed) or basis == FIXED_BASIS)
-    frames.append(frame.sort_values("value_up", kind="stable"))
+    order = np.argsort(reduced, kind="stable")  # nearest to paying first
+    chosen = np.flatnonzero(unused)[order]
+    frames.append(_reduced_frame(origins[chosen], destinations[chosen], modes[chosen], reduced[order], basis, units,
+                                 currency,
+                                 bool(closed) or basis == FIXED_BASIS))
     frames = [f for f in frames if len(f)]
     if not frames:
         return empty_frame(SENSITIVITY_COLUMNS)
@@ -394,47 +416,67 @@ def _frame(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndarray, bas
     demand = figure == "marginal_cost"
     more, less = ("costs", "saves") if demand else ("saves", "costs")
     texts = []
-    for item, u, d, s in zip(items.tolist(), up.tolist(), down.tolist(), same.tolist()):
+    up_words, down_words = _amounts(up, currency).tolist(), _amounts(down, currency).tolist()
+    for item, u, d, s, u_text, d_text in zip(items.tolist(), up.tolist(), down.tolist(), same.tolist(), up_words,
+                                             down_words):
         subject = f"unit ({units}) {what} {item}"
         if s:
-            texts.append(f"One more or one less {subject} changes the cost by {money_words(u, currency)}.")
+            texts.append(f"One more or one less {subject} changes the cost by {u_text}.")
             continue
         if math.isinf(u):
             first = (f"One more {subject} cannot be met: no plan delivers it" if demand
                      else f"One more {subject} saves nothing")
         else:
-            first = f"One more {subject} {more} {money_words(u, currency)}"
+            first = f"One more {subject} {more} {u_text}"
         if math.isnan(d):
             second = "it cannot fall below 0"
         elif math.isinf(d):
             second = "with one less there is no plan (the hard demand needs it)"
         else:
-            second = f"one less {less} {money_words(d, currency)}"
+            second = f"one less {less} {d_text}"
         texts.append(f"{first}; {second}.")
-    return pd.DataFrame({"figure": figure, "item": items, "value": np.where(same, up, math.nan), "value_up": up,
-                         "value_down": down, "unique": same, "basis": basis, "text": texts},
+    n = len(items)
+    return pd.DataFrame({"figure": pd.Series([figure] * n, dtype=object), "item": pd.Series(items, dtype=object),
+                         "value": np.where(same, up, math.nan), "value_up": up, "value_down": down, "unique": same,
+                         "basis": pd.Series([basis] * n, dtype=object), "text": pd.Series(texts, dtype=object)},
                         columns=SENSITIVITY_COLUMNS)
 
 
-def _reduced_frame(items: np.ndarray, reduced: np.ndarray, basis: str, units: str, currency: str,
-                   decisions: bool) -> pd.DataFrame:
+def _reduced_frame(origins: np.ndarray, destinations: np.ndarray, modes: np.ndarray, reduced: np.ndarray, basis: str,
+                   units: str, currency: str, decisions: bool) -> pd.DataFrame:
+    """Rows of the unused lanes, label and sentence built in one pass (a 100k-lane plan has about 100k of them, so
+    this loop is most of the figures' time); text columns stay plain object arrays, as
+    :func:`~lanesolve.model.result.empty_frame` makes them."""
     reduced = np.where(np.abs(reduced) < SAME, 0.0, reduced) + 0.0
-    texts = []
-    for item, r in zip(items.tolist(), reduced.tolist()):
-        if math.isinf(r):
-            texts.append(f"Lane {item} is unused and no plan can use it"
-                         + (" while the plan's yes/no and trip decisions stand." if decisions
-                            else " (nothing can flow over it to where it is needed)."))
-        elif r == 0:
-            texts.append(f"Lane {item} is unused, but a plan using it would cost no more (an equally cheap "
-                         "alternative).")
-        else:
-            texts.append(f"Lane {item} is unused; its cost per unit ({units}) would have to fall by "
-                         f"{money_words(r, currency)} before a plan as cheap used it.")
     finite = np.isfinite(reduced)
-    return pd.DataFrame({"figure": "reduced_cost", "item": items, "value": np.where(finite, reduced, math.nan),
-                         "value_up": reduced, "value_down": math.nan, "unique": finite, "basis": basis,
-                         "text": texts}, columns=SENSITIVITY_COLUMNS)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        magnitude = np.floor(np.log10(reduced))
+    decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2).astype(int).tolist()
+    never = (" is unused and no plan can use it while the plan's yes/no and trip decisions stand." if decisions
+             else " is unused and no plan can use it (nothing can flow over it to where it is needed).")
+    middle = f" is unused; its cost per unit ({units}) would have to fall by "
+    end = f" {currency} before a plan as cheap used it." if currency else " before a plan as cheap used it."
+    free = " is unused, but a plan using it would cost no more (an equally cheap alternative)."
+    items, texts = [], []
+    for o, d, m, value, places in zip(origins.tolist(), destinations.tolist(), modes.tolist(), reduced.tolist(),
+                                      decimals):
+        item = f"{o} -> {d} ({m})" if m else f"{o} -> {d}"
+        items.append(item)
+        if value == 0:
+            texts.append(f"Lane {item}{free}")
+        elif value == math.inf:
+            texts.append(f"Lane {item}{never}")
+        elif places == 2:
+            texts.append(f"Lane {item}{middle}{value:,.2f}{end}")
+        else:  # below 10: four significant digits, trailing zeros dropped but two decimals kept
+            amount = f"{value:.{places}f}".rstrip("0")
+            texts.append(f"Lane {item}{middle}{(amount + '00')[:max(len(amount), amount.index('.') + 3)]}{end}")
+    n = len(items)
+    return pd.DataFrame({"figure": pd.Series(["reduced_cost"] * n, dtype=object),
+                         "item": pd.Series(items, dtype=object), "value": np.where(finite, reduced, math.nan),
+                         "value_up": reduced, "value_down": np.full(n, math.nan), "unique": finite,
+                         "basis": pd.Series([basis] * n, dtype=object), "text": pd.Series(texts, dtype=object)},
+                        columns=SENSITIVITY_COLUMNS)
 
 
 def top_few(sensitivity: pd.DataFrame, figure: str, count: int = TOP_FEW) -> pd.DataFrame:
