@@ -18,6 +18,8 @@ from __future__ import annotations
 
 import csv
 import hashlib
+import io
+import json
 import math
 import os
 import sys
@@ -29,6 +31,8 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 from lanesolve.errors import LanesolveError, NoPlanError, SolverError, WorkbookError, WriteError
+from lanesolve.write import atomic
+from lanesolve.write import paths as write_paths
 
 #: Status of a run that failed in an unexpected way (a bug in lanesolve; the error names the exception type).
 INTERNAL_ERROR = "internal_error"
@@ -95,14 +99,26 @@ class BatchReport:
         return [{k: getattr(run, k) for k in SUMMARY_COLUMNS} for run in self.runs]
 
     def to_csv(self, path: str | os.PathLike) -> None:
-        """Write the summary (one row per workbook, :data:`SUMMARY_COLUMNS`) as CSV, UTF-8."""
-        with open(path, "w", newline="", encoding="utf-8") as fh:
-            writer = csv.DictWriter(fh, fieldnames=SUMMARY_COLUMNS)
-            writer.writeheader()
-            for row in self.rows():
-                row["total_cost"] = "" if math.isnan(row["total_cost"]) else repr(row["total_cost"])
-                row["seconds"] = f"{row['seconds']:.3f}"
-                writer.writerow(row)
+        """Write the summary (one row per workbook, :data:`SUMMARY_COLUMNS`) as CSV, UTF-8, atomically.
+
+        Text cells a spreadsheet program would run as a formula are neutralised (:func:`csv_safe`); the JSON
+        summary keeps the raw values.
+        """
+        text = io.StringIO(newline="")
+        writer = csv.DictWriter(text, fieldnames=SUMMARY_COLUMNS)
+        writer.writeheader()
+        for row in self.rows():
+            row["total_cost"] = "" if math.isnan(row["total_cost"]) else repr(row["total_cost"])
+            row["seconds"] = f"{row['seconds']:.3f}"
+            writer.writerow({k: csv_safe(v) if k in ("path", "status", "error") else v for k, v in row.items()})
+        with atomic.replacing(path, "the batch summary") as handle:
+            handle.write(text.getvalue().encode("utf-8"))
+
+    def write(self, csv_path: str | os.PathLike, json_path: str | os.PathLike) -> None:
+        """Write the summary as CSV to ``csv_path`` and as JSON (raw values) to ``json_path``, each atomically."""
+        self.to_csv(csv_path)
+        with atomic.replacing(json_path, "the batch summary JSON") as handle:
+            handle.write(json.dumps(self.to_json(), indent=2).encode("utf-8"))
 
     def to_json(self, documents: bool = False) -> dict:
         """The summary as a JSON-ready dict; with ``documents`` each run also carries its ``--json`` document."""
@@ -132,6 +148,20 @@ class BatchReport:
         lines.append(f"{len(self.runs) - len(self.failed)} of {len(self.runs)} workbook(s) solved with a plan in "
                      f"{self.seconds:.2f} s ({self.backend}, {self.workers} worker(s))")
         return "\n".join(line.rstrip() for line in lines)
+
+
+#: First characters that make a spreadsheet program read a CSV cell as a formula (or, tab and CR, that some
+#: programs strip before looking): the cell-injection list of the OWASP "CSV Injection" page (recalled from memory).
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def csv_safe(text: str) -> str:
+    """``text`` with a single quote in front when a spreadsheet program would run it as a formula.
+
+    >>> csv_safe("=1+2"), csv_safe("north.xlsx")
+    ("'=1+2", 'north.xlsx')
+    """
+    return "'" + text if isinstance(text, str) and text.startswith(FORMULA_STARTS) else text
 
 
 def _first_line(text: str) -> str:
@@ -169,15 +199,16 @@ def _failure(path: str, error: BaseException, seconds: float) -> BatchRun:
                     LanesolveError.exit_code)
 
 
-def solve_one(path: str, time_limit: float | None = None, solver: str | None = None) -> BatchRun:
+def solve_one(path: str, time_limit: float | None = None, solver: str | None = None,
+              force: bool = False) -> BatchRun:
     """Solve one workbook as ``lanesolve solve`` would and return its :class:`BatchRun`; never raises."""
     tick = time.perf_counter()
     try:
-        if not Path(path).is_file():
+        if not Path(path).exists():
             raise WorkbookError(f"{path}: no such file (check the name and folder)")
         from lanesolve import pipeline  # imported here so a batch can start before the solver stack is loaded
 
-        outcome = pipeline.run(path, time_limit=time_limit, solver=solver)
+        outcome = pipeline.run(path, time_limit=time_limit, solver=solver, force=force)
     except Exception as error:  # noqa: BLE001 -- one workbook must never stop the batch
         return _failure(str(path), error, time.perf_counter() - tick)
     return BatchRun(str(path), outcome.result.status.value, float(outcome.result.total_cost),
@@ -247,6 +278,8 @@ def run_batch(
     progress: bool = True,
     time_limit: float | None = None,
     solver: str | None = None,
+    summary_csv: str | os.PathLike | None = None,
+    force: bool = False,
 ) -> BatchReport:
     """Solve many workbooks; one failure never stops the rest.
 
@@ -264,6 +297,11 @@ def run_batch(
         Seconds the solver may run on each workbook (overrides their ``time_limit_s`` setting).
     solver : {"cbc", "highs"}, optional
         Overrides each workbook's ``solver`` setting.
+    summary_csv : path-like, optional
+        Write the batch summary here as CSV, and as JSON beside it (same name, ``.json``), when the batch ends.
+        Both are checked with every workbook's files before anything is solved (:func:`lanesolve.write.paths.plan_batch`).
+    force : bool
+        Replace existing files lanesolve did not write (the summaries, and each workbook's HTML summary).
 
     Returns
     -------
@@ -273,12 +311,18 @@ def run_batch(
     Raises
     ------
     LanesolveError
-        ``workers`` is below 1, Dask is not installed, or its scheduler cannot be reached. Failures of single
-        workbooks are never raised; they are recorded in the report.
+        ``workers`` is below 1, Dask is not installed, or its scheduler cannot be reached.
+    WriteError
+        The batch summary files clash with each other or with a workbook or its summary, or two workbooks' summaries
+        are one file, or a summary file exists that lanesolve did not write (without ``force``); nothing is solved.
+        Failures of single workbooks are never raised; they are recorded in the report.
     """
     paths = [str(p) for p in paths]
     if workers < 1:
         raise LanesolveError(f"workers must be at least 1, not {workers}")
+    summaries = None
+    if summary_csv is not None:
+        summaries = write_paths.plan_batch(paths, summary_csv, force)
     tick = time.perf_counter()
     runs: dict[int, BatchRun] = {}
     # The same workbook twice would have two processes writing into one file; run it once.
@@ -298,16 +342,16 @@ def run_batch(
         bar.step(runs[index])
     try:
         if dask_address is not None:
-            workers = _run_dask(paths, todo, dask_address, time_limit, solver, runs, bar.step)
+            workers = _run_dask(paths, todo, dask_address, time_limit, solver, runs, bar.step, force)
             backend = "dask"
         elif workers == 1 or len(todo) <= 1:
             for index in todo:
-                runs[index] = solve_one(paths[index], time_limit, solver)
+                runs[index] = solve_one(paths[index], time_limit, solver, force)
                 bar.step(runs[index])
             backend = "local"
         else:
             with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
-                futures = {pool.submit(solve_one, paths[index], time_limit, solver): index for index in todo}
+                futures = {pool.submit(solve_one, paths[index], time_limit, solver, force): index for index in todo}
                 for future in as_completed(futures):
                     index = futures[future]
                     try:
@@ -318,7 +362,10 @@ def run_batch(
             backend = "processes"
     finally:
         bar.close()
-    return BatchReport([runs[i] for i in range(len(paths))], time.perf_counter() - tick, workers, backend)
+    report = BatchReport([runs[i] for i in range(len(paths))], time.perf_counter() - tick, workers, backend)
+    if summaries is not None:
+        report.write(summaries[0].real, summaries[1].real)
+    return report
 
 
 def _dask_client(address: str):
@@ -338,48 +385,38 @@ def _sha256(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
-def _write_atomic(path: Path, data: bytes) -> None:
-    """Replace ``path`` with ``data`` in one step, so a crash never leaves a half-written workbook."""
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(handle, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(temporary, path)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
-
-
-def _collect(path: str, sent_checksum: str, answer: dict) -> BatchRun:
-    """Turn a Dask task's answer into a BatchRun, writing the solved workbook and summary beside the input."""
-    from lanesolve.pipeline import summary_path_for
-
+def _collect(path: str, sent_checksum: str, answer: dict, plan: write_paths.WritePlan) -> BatchRun:
+    """Turn a Dask task's answer into a BatchRun, writing the solved workbook and summary where ``plan`` says
+    (beside the input; symbolic links written through to their targets)."""
     run = BatchRun(**{**answer["run"], "path": path})
     if answer["workbook"] is None:
         return run
-    target = Path(path)
+
+    def unchanged() -> None:
+        # Someone may have saved the workbook while it was solved remotely; never overwrite that.
+        try:
+            same = _sha256(Path(path).read_bytes()) == sent_checksum
+        except OSError:
+            same = False
+        if not same:
+            raise WriteError(f"{path}: the workbook changed while solving; run again (its results were not written)")
+
     try:
-        # Someone may have edited the workbook while it was being solved remotely; never overwrite that.
-        if _sha256(target.read_bytes()) != sent_checksum:
-            raise WriteError(f"{path} changed while it was being solved; its results were not written "
-                             "(run the batch again)")
-        _write_atomic(target, answer["workbook"])
-        _write_atomic(summary_path_for(target), answer["summary"])
+        unchanged()
+        with atomic.replacing(plan.workbook.real, "the results to", before_replace=unchanged) as handle:
+            handle.write(answer["workbook"])
+        with atomic.replacing(plan.summary.real, "the HTML summary") as handle:
+            handle.write(answer["summary"])
     except WriteError as error:
         return BatchRun(path, "write_error", math.nan, run.seconds, str(error), error.exit_code)
-    except OSError as error:
-        return BatchRun(path, "write_error", math.nan, run.seconds,
-                        f"{path}: the results could not be written ({error.strerror or error})", WriteError.exit_code)
     if run.document is not None:
         # The worker solved a temporary copy; show the paths the planner knows.
-        run.document.update(input=path, output=path, summary=str(summary_path_for(target)))
+        run.document.update(input=path, output=path, summary=str(plan.summary.given))
     return run
 
 
 def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float | None, solver: str | None,
-              runs: dict[int, BatchRun], step: Callable[[BatchRun], None]) -> int:
+              runs: dict[int, BatchRun], step: Callable[[BatchRun], None], force: bool = False) -> int:
     """Run the batch on the cluster at ``address``, filling ``runs``; return how many workers it had."""
     client = _dask_client(address)  # first: it turns a missing dask into a clear LanesolveError
     from dask.distributed import as_completed as dask_completed
@@ -388,7 +425,14 @@ def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float
         worker_count = len(client.scheduler_info().get("workers", {}))
         futures = {}
         checksums = {}
+        plans = {}
         for index in todo:
+            try:
+                plans[index] = write_paths.plan_solve(paths[index], force=force)
+            except LanesolveError as error:
+                runs[index] = _failure(paths[index], error, 0.0)
+                step(runs[index])
+                continue
             try:
                 data = Path(paths[index]).read_bytes()
             except OSError as error:
@@ -402,7 +446,7 @@ def _run_dask(paths: list[str], todo: list[int], address: str, time_limit: float
         for future in dask_completed(list(futures)):
             index = futures[future]
             try:
-                runs[index] = _collect(paths[index], checksums[index], future.result())
+                runs[index] = _collect(paths[index], checksums[index], future.result(), plans[index])
             except Exception as error:  # noqa: BLE001 -- a worker died or lacks lanesolve; keep the others
                 runs[index] = _failure(paths[index], error, 0.0)
             step(runs[index])

@@ -7,6 +7,7 @@ Exit codes: 0 a plan was found (or the check passed); 1 the workbook has input e
 from __future__ import annotations
 
 import json
+import math
 import sys
 
 import click
@@ -16,6 +17,24 @@ from lanesolve.errors import LanesolveError, NoPlanError, Problem, SolverError, 
 
 #: At most this many problems are printed; the rest are counted.
 MAX_PRINTED_PROBLEMS = 50
+
+
+class Seconds(click.ParamType):
+    """A number of seconds: finite and not negative (``nan``, ``inf`` and ``-1`` are usage errors)."""
+
+    name = "seconds"
+
+    def convert(self, value, param, ctx):
+        try:
+            seconds = float(value)
+        except (TypeError, ValueError):
+            self.fail(f"{value!r} is not a number of seconds", param, ctx)
+        if not math.isfinite(seconds) or seconds < 0:
+            self.fail(f"{value!r} is not a number of seconds (give a finite number, 0 or more)", param, ctx)
+        return seconds
+
+
+FORCE_HELP = "Replace existing files lanesolve did not write (it never replaces a read-only file or the input)."
 
 
 def _say(text: str = "", err: bool = True) -> None:
@@ -62,12 +81,13 @@ def main() -> None:
 
 @main.command()
 @click.argument("path", type=click.Path(dir_okay=False))
-def template(path: str) -> None:
+@click.option("--force", is_flag=True, help="Replace PATH if it exists (it may be a filled workbook).")
+def template(path: str, force: bool) -> None:
     """Write a blank workbook to PATH, with every sheet, column and a guide."""
     from lanesolve.write.template import write_template
 
     try:
-        write_template(path)
+        write_template(path, force=force)
     except LanesolveError as error:
         _fail(error, False)
     _say(f"Wrote the blank template {path}", err=False)
@@ -99,7 +119,7 @@ def check(workbook: str) -> None:
 @click.argument("workbook", type=click.Path(exists=True, dir_okay=False))
 @click.option("-o", "--output", type=click.Path(dir_okay=False),
               help="Write the solved workbook here instead of back into WORKBOOK.")
-@click.option("--time-limit", type=click.FloatRange(min=0), metavar="S",
+@click.option("--time-limit", type=Seconds(), metavar="S",
               help="Seconds the solver may run (overrides the time_limit_s setting).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document on stdout; messages go to stderr.")
 @click.option("--email", "email_path", type=click.Path(dir_okay=False), metavar="PATH",
@@ -111,9 +131,10 @@ def check(workbook: str) -> None:
               help="Solve only this scenario of the Scenarios sheet beside the baseline (repeatable; default: all).")
 @click.option("--solver", type=click.Choice(["cbc", "highs"], case_sensitive=False), default=None,
               help="Solver to use (overrides the solver setting): cbc, bundled, or highs (needs highspy).")
+@click.option("--force", is_flag=True, help=FORCE_HELP)
 def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, email_path: str | None,
           attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...],
-          solver: str | None) -> None:
+          solver: str | None, force: bool) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from lanesolve.pipeline import run
     from lanesolve.progress import TerminalProgress, no_progress
@@ -128,7 +149,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
         try:
             outcome = run(workbook, output=output, time_limit=time_limit, verbose=verbose, progress=progress,
                           scenario_names=list(scenario_names) or None,
-                          solver=solver.lower() if solver else None)
+                          solver=solver.lower() if solver else None, email=email_path, force=force)
         except NoPlanError as error:
             # The summary explains why there is no plan; the mail carries the same page.
             if email_path and error.result is not None:
@@ -153,8 +174,13 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
 def _write_email(path: str, outcome, attach_workbook: bool) -> None:
     from lanesolve.report.mail import write_email
 
-    write_email(path, outcome.network, outcome.result, outcome.info, outcome.warnings,
-                attach=outcome.info.output_path if attach_workbook else None)
+    try:
+        write_email(outcome.plan.mail.real, outcome.network, outcome.result, outcome.info, outcome.warnings,
+                    attach=outcome.info.output_path if attach_workbook else None)
+    except WriteError as error:
+        # The workbook and summary are written by now; say so rather than let "not written" cover them too.
+        raise WriteError(f"the results were written to {outcome.info.output_path} and "
+                         f"{outcome.info.summary_path}, but the mail {path} was not: {error}") from error
 
 
 @main.command()
@@ -163,27 +189,24 @@ def _write_email(path: str, outcome, attach_workbook: bool) -> None:
               help="Workbooks solved at once, each in its own process.")
 @click.option("--dask", "dask_address", metavar="ADDRESS",
               help="Run on this Dask scheduler (tcp://host:8786) instead of local processes.")
-@click.option("--time-limit", type=click.FloatRange(min=0), metavar="S",
+@click.option("--time-limit", type=Seconds(), metavar="S",
               help="Seconds the solver may run on each workbook (overrides their time_limit_s settings).")
 @click.option("--solver", type=click.Choice(["cbc", "highs"]),
               help="Solver for every workbook (overrides their solver settings; highs needs lanesolve[highs]).")
 @click.option("--summary", "summary_csv", type=click.Path(dir_okay=False), default="batch-summary.csv",
               show_default=True, help="Write the batch summary as CSV here (a .json beside it holds the same).")
 @click.option("--json", "as_json", is_flag=True, help="Print the batch summary as JSON on stdout.")
+@click.option("--force", is_flag=True, help=FORCE_HELP)
 def batch(paths: tuple[str, ...], workers: int, dask_address: str | None, time_limit: float | None,
-          solver: str | None, summary_csv: str, as_json: bool) -> None:
+          solver: str | None, summary_csv: str, as_json: bool, force: bool) -> None:
     """Solve many workbooks (each with its scenarios), writing each one's results as solve does."""
-    from pathlib import Path
-
     from lanesolve.batch import run_batch
 
     try:
         report = run_batch(paths, workers=workers, dask_address=dask_address, progress=not as_json,
-                           time_limit=time_limit, solver=solver)
+                           time_limit=time_limit, solver=solver, summary_csv=summary_csv, force=force)
     except LanesolveError as error:
         _fail(error, as_json)
-    report.to_csv(summary_csv)
-    Path(summary_csv).with_suffix(".json").write_text(json.dumps(report.to_json(), indent=2), encoding="utf-8")
     _say(report.table(), err=as_json)
     _say(f"Batch summary written to {summary_csv}", err=as_json)
     if as_json:

@@ -16,7 +16,9 @@ report             :mod:`lanesolve.report.summary`     ``<stem>-summary.html``
 
 from __future__ import annotations
 
+import os
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -30,16 +32,19 @@ from lanesolve import contract
 from lanesolve.read import guard
 from lanesolve.write import locking
 from lanesolve.read import reader
+from lanesolve.read import source
+from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.model import scenarios
 from lanesolve.model.analyse import explain_no_plan, solve_and_analyse
 from lanesolve.read import validate
 from lanesolve.write import writeback
-from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError
+from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
 from lanesolve.model.network import Network
 from lanesolve.progress import ProgressCallback, no_progress
 from lanesolve.model.result import Result, SolveStatus
 from lanesolve.runinfo import RunInfo, file_checksum  # noqa: F401 (RunInfo is part of this module's API)
+from lanesolve.write.paths import WritePlan, summary_path_for  # noqa: F401 (part of this module's API)
 
 
 @dataclass
@@ -52,6 +57,7 @@ class RunOutcome:
     warnings: list[Problem]
     scenario_results: dict[str, Result] = field(default_factory=dict)
     comparison: pd.DataFrame | None = None
+    plan: WritePlan | None = None
 
     def to_json(self) -> dict:
         doc = self.result.to_json()
@@ -131,9 +137,17 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     return solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose)
 
 
-def summary_path_for(output: str | Path) -> Path:
-    output = Path(output)
-    return output.with_name(f"{output.stem}-summary.html")
+def _no_pause(outcome: RunOutcome) -> None:
+    """The default :data:`before_write`: nothing."""
+
+
+#: Called with the :class:`RunOutcome` after solving and before anything is written. Tests set it to act at that
+#: moment deterministically (save the workbook as a spreadsheet program would); it may raise to stop the run.
+before_write: Callable[[RunOutcome], None] = _no_pause
+
+#: What a run says when the workbook was saved by someone else between reading and writing.
+CHANGED_MESSAGE = ("the workbook changed while solving; run again (nothing was written, so the change is kept and "
+                   "no results of the old contents sit beside the new)")
 
 
 def run(
@@ -145,6 +159,8 @@ def run(
     progress: ProgressCallback = no_progress,
     scenario_names: list[str] | None = None,
     solver: str | None = None,
+    email: str | Path | None = None,
+    force: bool = False,
 ) -> RunOutcome:
     """Solve a workbook end to end and write the results back.
 
@@ -167,6 +183,12 @@ def run(
         Solve only these scenarios of the Scenarios sheet (default: every one). The baseline is always solved.
     solver : {"cbc", "highs"}, optional
         Overrides the workbook's ``solver`` setting (CBC, bundled, is the default).
+    email : path-like, optional
+        The mail the caller will write (``--email``): planned and checked with the other files before anything is
+        read, so a clash or a missing folder stops the run before it writes anything. The path to write it to (a
+        symbolic link resolved) is ``outcome.plan.mail.real``.
+    force : bool
+        Replace existing files lanesolve did not write (``--force``); see :mod:`lanesolve.write.paths`.
 
     Returns
     -------
@@ -181,31 +203,56 @@ def run(
     SolverError
         The solver failed.
     WriteError
-        The results could not be written, the workbook is open in a spreadsheet program, or another lanesolve
-        run is writing it; the original workbook is untouched.
+        A file to write is refused (see :func:`lanesolve.write.paths.plan_solve`: two outputs are one file, an
+        output is the input, an existing file lanesolve did not write without ``force``, a read-only file, a
+        folder or pipe); the results could not be written; the workbook is open in a spreadsheet program, or
+        another lanesolve run is writing it; or the workbook changed while it was solved
+        (:data:`CHANGED_MESSAGE`). The original workbook is untouched.
     """
     path = Path(path)
-    output = Path(output) if output is not None else path
     try:
         if not write:
-            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names, solver)
-        guard.check_write_target(path, output)
-        for target in dict.fromkeys([path, output]):
-            locking.refuse_if_open(target)
-        with locking.workbook_lock(output):
-            atomic.remove_stale_temporaries(output)
-            return _run_stages(path, output, time_limit, write, verbose, progress, scenario_names, solver)
+            return _run_stages(path, None, time_limit, verbose, progress, scenario_names, solver)
+        plan = paths.plan_solve(path, output, email, force)
+        target = plan.workbook.real
+        for name in dict.fromkeys([path, plan.workbook.given, target]):
+            locking.refuse_if_open(name)
+        with locking.workbook_lock(target):
+            atomic.remove_stale_temporaries(target)
+            return _run_stages(path, plan, time_limit, verbose, progress, scenario_names, solver)
     finally:
         progress(None, None)
 
 
-def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool, verbose: bool,
+def _read(path: Path) -> tuple[reader.RawWorkbook, source.Fingerprint]:
+    """Read the workbook and fingerprint exactly the bytes the reader parsed (see :mod:`lanesolve.read.source`)."""
+    try:
+        mark = source.fingerprint(path)
+    except (OSError, ValueError):
+        mark = None  # missing, unreadable or not a file: the reader says which in its own words
+    raw = reader.read_workbook(path)
+    try:
+        unchanged = mark is not None and mark.same_stat(os.stat(path))
+    except OSError:
+        unchanged = False
+    if not unchanged:
+        raise WriteError(f"{path.name}: the workbook changed while it was read; run again (nothing was written)")
+    return raw, mark
+
+
+def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, verbose: bool,
                 progress: ProgressCallback, scenario_names: list[str] | None, solver: str | None) -> RunOutcome:
     timings: dict[str, float] = {}
     tick = time.perf_counter()
     progress("reading", None)
 
-    raw = reader.read_workbook(path)
+    if plan is not None and not {path.suffix.lower(), plan.workbook.given.suffix.lower()} <= \
+            set(guard.WRITABLE_SUFFIXES):
+        guard.check_write_target(path, plan.workbook.given)  # by name alone: an .ods is refused unread
+    raw, mark = _read(path)
+    if plan is not None:
+        # By content after reading, so a file that is no workbook at all is called that (an input error).
+        guard.check_write_target(path, plan.workbook.given)
     timings["read"] = time.perf_counter() - tick
     tick = time.perf_counter()
     progress("checking", None)
@@ -215,25 +262,33 @@ def _run_stages(path: Path, output: Path, time_limit: float | None, write: bool,
     timings["validate"] = time.perf_counter() - tick
     tick = time.perf_counter()
 
-    info = RunInfo(str(path), str(output), str(summary_path_for(output)), file_checksum(path))
+    output = plan.workbook.given if plan is not None else path
+    info = RunInfo(str(path), str(output), str(summary_path_for(output)), mark.sha256)
     result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
     comparison = scenarios.compare(result, scenario_results) if scenario_results else None
-    outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison)
+    outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison, plan)
 
-    if write:
+    if plan is not None:
+        before_write(outcome)
+
+        def unchanged() -> None:
+            if source.changed_since(mark, path):
+                raise WriteError(f"{path.name}: {CHANGED_MESSAGE}")
+
+        unchanged()  # before the write starts, and again just before the new workbook replaces anything
         tick = time.perf_counter()
         progress("writing results", None)
         sheets = writeback.result_sheets(network, result, info)
         if comparison is not None:
             sheets.append(writeback.scenario_sheet(comparison))
-        writeback.write_results(path, output, sheets)
+        writeback.write_results(path, plan.workbook.real, sheets, before_replace=unchanged)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()
-        summary.write_html(summary_path_for(output), network, result, info, warnings, comparison)
+        summary.write_html(plan.summary.real, network, result, info, warnings, comparison)
         result.timings["report"] = time.perf_counter() - tick
 
     if result.status is SolveStatus.NOT_SOLVED:

@@ -239,3 +239,72 @@ def test_no_progress_when_not_a_terminal(monkeypatch):
     bar.step(batch.BatchRun("a.xlsx", "optimal"))
     bar.close()
     assert quiet.getvalue() == ""
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# the batch summary files: formula-safe CSV, and planned before anything is solved
+
+# Cells a spreadsheet program runs as formulas start with = + - @ (or tab / CR, which some strip first): the
+# OWASP "CSV Injection" page lists these and the single-quote prefix as the neutralisation (recalled from memory).
+FORMULA_NAMES = ["=cmd.xlsx", "+sum.xlsx", "-neg.xlsx", "@at.xlsx"]
+
+
+def test_workbook_names_that_look_like_formulas_are_neutralised_in_the_csv_only(tmp_path, monkeypatch):
+    import csv
+
+    monkeypatch.chdir(tmp_path)
+    for name in FORMULA_NAMES:
+        write_book(tmp_path / name, book_data(1))
+    report = batch.run_batch([f"./{name}" if name.startswith("-") else name for name in FORMULA_NAMES],
+                             progress=False, summary_csv="batch-summary.csv")
+    assert report.exit_code == 0, [run.error for run in report.runs]
+    rows = list(csv.DictReader(open(tmp_path / "batch-summary.csv", encoding="utf-8", newline="")))
+    for row in rows:
+        assert not row["path"].startswith(batch.FORMULA_STARTS), row["path"]
+    assert [row["path"] for row in rows][:2] == ["'=cmd.xlsx", "'+sum.xlsx"]
+    raw = json.loads((tmp_path / "batch-summary.json").read_text(encoding="utf-8"))
+    assert [run["path"] for run in raw["runs"]][:2] == ["=cmd.xlsx", "+sum.xlsx"]
+
+
+@pytest.mark.parametrize("text", ["\tcmd", "\rcmd", "-2+3", "@SUM(A1)"])
+def test_csv_safe_prefixes_every_formula_start(text):
+    assert batch.csv_safe(text) == "'" + text
+
+
+def test_summary_csv_that_is_one_of_the_workbooks_is_refused_before_solving(books):
+    from lanesolve.errors import WriteError
+
+    paths, _ = books()
+    before = open(paths[0], "rb").read()
+    with pytest.raises(WriteError, match="the same file"):
+        batch.run_batch(paths, progress=False, summary_csv=paths[0].replace(".xlsx", ".csv").replace(
+            "region0.csv", "region0-summary.html"))
+    with pytest.raises(WriteError, match="the same file"):
+        batch.run_batch(paths, progress=False, summary_csv=paths[0])
+    assert open(paths[0], "rb").read() == before
+    assert "LS Summary" not in openpyxl.load_workbook(paths[1], read_only=True).sheetnames  # nothing was solved
+
+
+def test_existing_csv_lanesolve_did_not_write_is_refused_unless_force(tmp_path):
+    from lanesolve.errors import WriteError
+
+    write_book(tmp_path / "north.xlsx", book_data(0))
+    summary = tmp_path / "batch-summary.csv"
+    summary.write_text("my,own,table\n1,2,3\n", encoding="utf-8")
+    with pytest.raises(WriteError, match="batch-summary.csv already exists and lanesolve did not write it"):
+        batch.run_batch([str(tmp_path / "north.xlsx")], progress=False, summary_csv=summary)
+    assert summary.read_text(encoding="utf-8") == "my,own,table\n1,2,3\n"
+    batch.run_batch([str(tmp_path / "north.xlsx")], progress=False, summary_csv=summary, force=True)
+    # A summary lanesolve wrote is replaced by the next batch without --force.
+    again = batch.run_batch([str(tmp_path / "north.xlsx")], progress=False, summary_csv=summary)
+    assert again.exit_code == 0 and summary.read_text(encoding="utf-8").startswith("path,status,")
+
+
+def test_two_workbooks_whose_summaries_would_be_one_file_are_refused(tmp_path):
+    from lanesolve.errors import WriteError
+
+    write_book(tmp_path / "plan.xlsx", book_data(0))
+    (tmp_path / "plan.xlsm").write_bytes((tmp_path / "plan.xlsx").read_bytes())
+    with pytest.raises(WriteError, match=r"summary of .*plan.xlsx \(.*plan-summary.html\) and .*summary of .*plan.xlsm.*the same file"):
+        batch.run_batch([str(tmp_path / "plan.xlsx"), str(tmp_path / "plan.xlsm")], progress=False,
+                        summary_csv=tmp_path / "batch.csv")

@@ -8,6 +8,7 @@ reads from the original .xlsx.
 
 from __future__ import annotations
 
+import json
 import shutil
 import subprocess
 import zipfile
@@ -200,3 +201,23 @@ def test_check_write_target_accepts_xlsx_and_refuses_odd_output_names(book, tmp_
     fake.write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"\0" * 504)  # an OLE file named .xlsx
     with pytest.raises(WriteError, match=r"binary"):
         guard.check_write_target(fake, fake)
+
+
+# PNG signature: the eight bytes of the PNG specification (ISO/IEC 15948, section 5.2).
+PNG_HEAD = b"\x89PNG\r\n\x1a\n" + b"\0" * 64
+
+
+@pytest.mark.parametrize("kind, contents, words", [
+    ("csv", lambda _book: b"origin,destination,cost_per_unit\nA,B,1\n", "a text file (perhaps CSV)"),
+    ("empty", lambda _book: b"", "is empty"),
+    ("truncated", lambda book: book.read_bytes()[:300], "damaged or incomplete"),
+    ("png", lambda _book: PNG_HEAD, "not a workbook"),
+])
+def test_solve_calls_a_file_that_is_no_workbook_an_input_error(tmp_path, book, kind, contents, words):
+    path = tmp_path / f"{kind}.xlsx"
+    path.write_bytes(contents(book))
+    result = CliRunner().invoke(main, ["solve", str(path), "--json"])
+    assert result.exit_code == 1, result.output
+    doc = json.loads(result.stdout)
+    assert doc["status"] == "input_error", doc
+    assert words in doc["error"] and "binary" not in doc["error"] and "reads it" not in doc["error"]

@@ -7,16 +7,19 @@ element; the zip bomb is a part of one repeated byte, which DEFLATE (RFC 1951) s
 
 from __future__ import annotations
 
+import os
 import zipfile
 
 import openpyxl
 import pytest
+from click.testing import CliRunner
 
 import _workbooks as wbk
 from conftest import valid_sheets, write_workbook
 from lanesolve.read import guard
 from lanesolve import pipeline
 from lanesolve.read import reader
+from lanesolve.cli import main
 from lanesolve.errors import WorkbookError
 
 LAUGHS = ('<!DOCTYPE lolz [<!ENTITY lol "lol">'
@@ -213,3 +216,45 @@ def test_macros_are_kept_byte_for_byte_and_never_run(tmp_path):
     assert "macroEnabled" in after["[Content_Types].xml"].decode()
     assert all(after[n] == data for n, data in before.items() if n not in wbk.INDEX_PARTS)
     assert "LS Summary" in openpyxl.load_workbook(path, keep_vba=True).sheetnames
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# files that are not files: a named pipe would block the first open forever, /dev/zero never ends
+
+
+def test_workbook_that_is_a_fifo_is_refused_without_opening_it(tmp_path):
+    fifo = tmp_path / "book.xlsx"
+    os.mkfifo(fifo)
+    with pytest.raises(WorkbookError, match=r"named pipe \(FIFO\), not a file"):
+        pipeline.run(fifo, write=False)
+    result = CliRunner().invoke(main, ["check", str(fifo)])
+    assert result.exit_code == 1 and "named pipe" in result.output
+
+
+def _with_lanes_file(tmp_path, target_maker):
+    sheets = valid_sheets()
+    sheets["Settings"].append(["lanes_file", "lanes.csv"])
+    book = write_workbook(tmp_path / "book.xlsx", sheets)
+    target_maker(tmp_path / "lanes.csv")
+    return book
+
+
+def test_lanes_file_that_is_a_fifo_is_refused(tmp_path):
+    book = _with_lanes_file(tmp_path, os.mkfifo)
+    with pytest.raises(WorkbookError, match=r"Settings.*lanes_file 'lanes.csv'.*named pipe"):
+        pipeline.run(book, write=False)
+
+
+def test_lanes_file_linked_to_dev_zero_is_refused(tmp_path):
+    book = _with_lanes_file(tmp_path, lambda path: path.symlink_to("/dev/zero"))
+    with pytest.raises(WorkbookError, match=r"lanes_file 'lanes.csv'.*is a device"):
+        pipeline.run(book, write=False)
+
+
+def test_lanes_file_larger_than_the_bound_is_refused_before_reading(tmp_path, monkeypatch):
+    from lanesolve.read import lanes_file
+
+    book = _with_lanes_file(tmp_path, lambda path: path.write_text("origin,destination,cost_per_unit\n" * 40))
+    monkeypatch.setattr(lanes_file, "MAX_BYTES", 100)  # the real bound is 2 GiB; the rule is the same
+    with pytest.raises(WorkbookError, match=r"lanes_file 'lanes.csv'.*more than the 100 lanesolve reads"):
+        pipeline.run(book, write=False)

@@ -60,3 +60,23 @@ def test_second_run_waits_for_a_short_first_run(tmp_path):
         holder.join()
     assert entered
     assert not (tmp_path / ".plan.xlsx.lanesolve-lock").exists()
+
+
+def test_lock_file_of_another_workbook_does_not_block_this_one(tmp_path):
+    # "~$plan.xlsx" is the lock file of plan.xlsx, which sits in the folder; it is not Excel's shortened lock file
+    # of abplan.xlsx (Excel replaces the first two characters of a long name with ~$ -- recalled from memory).
+    (tmp_path / "plan.xlsx").write_bytes(b"")
+    (tmp_path / "~$plan.xlsx").write_bytes(b"owner")
+    locking.refuse_if_open(tmp_path / "abplan.xlsx")
+    with pytest.raises(WriteError, match="open in a spreadsheet program"):
+        locking.refuse_if_open(tmp_path / "plan.xlsx")
+
+
+def test_shortened_excel_lock_file_still_counts_when_no_other_workbook_owns_it(tmp_path):
+    (tmp_path / "~$ekly-plan.xlsx").write_bytes(b"owner")
+    assert locking.spreadsheet_lock_files(tmp_path / "weekly-plan.xlsx") == [tmp_path / "~$ekly-plan.xlsx"]
+
+
+def test_libreoffice_lock_file_of_another_workbook_does_not_count(tmp_path):
+    (tmp_path / ".~lock.other.xlsx#").write_text("user,host")
+    assert locking.spreadsheet_lock_files(tmp_path / "plan.xlsx") == []

@@ -10,6 +10,8 @@ The test runs as root, so permissions are denied by monkeypatching, not by chmod
 from __future__ import annotations
 
 import errno
+import hashlib
+import json
 import os
 import random
 import signal
@@ -276,3 +278,71 @@ def test_two_runs_at_once_take_turns_and_leave_one_valid_workbook(large, tmp_pat
     assert names.count("LS Summary") == 1 and names.count("LS Lane flows") == 1
     assert _input_cells(path) == original_cells
     assert not [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# the planner saves the workbook while it is being solved
+
+
+def _save_as_a_spreadsheet_program_does(path: Path, demand: int) -> bytes:
+    """Save ``path`` with a new first demand the way spreadsheet programs save: a temporary file, then a rename."""
+    sheets = valid_sheets()
+    sheets["Customers"][1][1] = demand
+    temporary = path.with_name("saving.tmp.xlsx")
+    write_workbook(temporary, sheets)
+    os.replace(temporary, path)
+    return path.read_bytes()
+
+
+def test_a_save_between_solve_and_write_survives_and_no_results_are_written(book, monkeypatch):
+    saved = {}
+
+    def planner_saves(_outcome):
+        saved["bytes"] = _save_as_a_spreadsheet_program_does(book, 61)
+
+    monkeypatch.setattr(pipeline, "before_write", planner_saves)
+    with pytest.raises(WriteError, match=r"the workbook changed while solving; run again"):
+        pipeline.run(book)
+    assert book.read_bytes() == saved["bytes"]
+    assert not any(name.startswith("LS ") for name in openpyxl.load_workbook(book).sheetnames)
+    _folder_has_only(book.parent, book.name)  # no summary either
+
+
+def test_a_save_during_the_write_survives(book, monkeypatch):
+    # The save lands while the new workbook is being built, after the check made before writing started.
+    real = writeback._build_zip
+    saved = {}
+
+    def build_then_planner_saves(*args, **kwargs):
+        real(*args, **kwargs)
+        saved["bytes"] = _save_as_a_spreadsheet_program_does(book, 62)
+
+    monkeypatch.setattr(writeback, "_build_zip", build_then_planner_saves)
+    with pytest.raises(WriteError, match=r"the workbook changed while solving"):
+        pipeline.run(book)
+    assert book.read_bytes() == saved["bytes"]
+    _folder_has_only(book.parent, book.name)
+
+
+def test_a_save_while_solving_into_an_output_copy_writes_no_mixed_copy(book, tmp_path, monkeypatch):
+    # With --output the input is not replaced, but the copy would carry the new inputs beside the old results.
+    monkeypatch.setattr(pipeline, "before_write", lambda _outcome: _save_as_a_spreadsheet_program_does(book, 63))
+    with pytest.raises(WriteError, match=r"changed while solving"):
+        pipeline.run(book, output=tmp_path / "solved.xlsx")
+    assert not (tmp_path / "solved.xlsx").exists()
+
+
+def test_a_save_while_solving_is_a_write_error_in_json(book, monkeypatch):
+    monkeypatch.setattr(pipeline, "before_write", lambda _outcome: _save_as_a_spreadsheet_program_does(book, 64))
+    result = CliRunner().invoke(main, ["solve", str(book), "--json"])
+    assert result.exit_code == 1
+    doc = json.loads(result.stdout)
+    assert doc["status"] == "write_error" and "changed while solving" in doc["error"]
+
+
+def test_recorded_checksum_is_that_of_the_bytes_read(book):
+    # Reference: hashlib's SHA-256 of the file as it was before the run (FIPS 180-4).
+    want = hashlib.sha256(book.read_bytes()).hexdigest()
+    outcome = pipeline.run(book)
+    assert outcome.info.checksum == want
+    assert hashlib.sha256(book.read_bytes()).hexdigest() != want  # rewritten; the checksum stays the input's

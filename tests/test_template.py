@@ -170,7 +170,7 @@ def test_template_passes_the_reader_and_has_only_the_expected_gap(template_path)
 def test_write_is_atomic_and_replaces(tmp_path):
     target = tmp_path / "blank.xlsx"
     target.write_bytes(b"not a workbook yet")
-    write_template(target)
+    write_template(target, force=True)  # replacing an existing file needs --force
     assert openpyxl.load_workbook(target).sheetnames[0] == GUIDE_SHEET
     assert os.listdir(tmp_path) == ["blank.xlsx"]
 

@@ -27,9 +27,13 @@ import pandas as pd
 
 from lanesolve import contract
 from lanesolve.errors import Problem, WorkbookError
+from lanesolve.read import source
 
 #: Suffixes accepted for a lanes file, and the reader of each.
 SUFFIXES = (".csv", ".parquet", ".pq")
+#: Largest lanes file read (2 GiB): checked from its size before reading and enforced while reading. Far above a
+#: strategic lane set (a million lanes of CSV is about 60 MB) and below what a 64-bit machine reads into memory.
+MAX_BYTES = 2 << 30
 PARQUET_HINT = 'install pyarrow to read Parquet files: pip install "lanesolve[parquet]" (or save the lanes as .csv)'
 
 
@@ -108,15 +112,14 @@ def read_lanes_file(workbook_path: str | Path, value: str) -> LanesFile:
     if path.is_dir():
         raise fail(f"{path} is a folder, not a file", "name the CSV or Parquet file inside it")
     try:
-        with open(path, "rb"):
-            pass
+        stream = source.open_bounded(path, MAX_BYTES)  # refuses a pipe or device before opening, and bounds reading
+    except ValueError as exc:
+        raise fail(str(exc), "name a regular CSV or Parquet file of at most 2 GiB (split a larger one)") from exc
     except OSError as exc:
         raise fail(f"{path} cannot be opened: {exc.strerror or exc}", "check that you may read the file") from exc
 
-    if suffix == ".csv":
-        header, data = _read_csv(path, fail)
-    else:
-        header, data = _read_parquet(path, fail)
+    with stream:
+        header, data = (_read_csv if suffix == ".csv" else _read_parquet)(stream, fail)
     return LanesFile(label, path, header, data)
 
 

@@ -26,6 +26,7 @@ import python_calamine
 
 from lanesolve import contract
 from lanesolve.read import guard
+from lanesolve.read import source
 from lanesolve.errors import WorkbookError
 
 _ZIP_MAGIC = b"PK\x03\x04"
@@ -99,6 +100,8 @@ def read_workbook(path: str | Path) -> RawWorkbook:
         raise WorkbookError(f"{path}: no such file (check the name and folder)")
     if path.is_dir():
         raise WorkbookError(f"{path} is a folder, not a workbook file")
+    if (reason := source.require_regular_file(path)) is not None:  # a FIFO or device would block or never end
+        raise WorkbookError(f"{reason} (name the workbook file itself)")
     try:
         with open(path, "rb") as fh:
             head = fh.read(8)

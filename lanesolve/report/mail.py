@@ -28,7 +28,9 @@ from email.utils import formatdate, make_msgid
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from lanesolve import __version__
 from lanesolve.write import atomic
+from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.report import charts as _charts
 from lanesolve.errors import WriteError
@@ -102,6 +104,8 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     message["Subject"] = subject_for(network, result, info)
     message["Date"] = formatdate(localtime=True)
     message["X-Unsent"] = "1"
+    # Marks the file as lanesolve's, so a later run may replace it without --force (lanesolve.write.paths).
+    message[paths.MAIL_HEADER] = __version__
     message.set_content(summary.render_text(network, result, info, warnings))
     message.add_alternative(html, subtype="html")
     html_part = message.get_payload()[1]

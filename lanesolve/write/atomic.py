@@ -14,7 +14,7 @@ import os
 import stat
 import tempfile
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import BinaryIO
 
@@ -30,8 +30,8 @@ def _prefix(path: Path) -> str:
 
 
 @contextlib.contextmanager
-def replacing(path: str | os.PathLike, what: str, hint: str = "", mode_from: str | os.PathLike | None = None
-              ) -> Iterator[BinaryIO]:
+def replacing(path: str | os.PathLike, what: str, hint: str = "", mode_from: str | os.PathLike | None = None,
+              before_replace: Callable[[], None] | None = None) -> Iterator[BinaryIO]:
     """Yield a binary file to write; when the block ends cleanly, it replaces ``path`` atomically.
 
     Parameters
@@ -45,6 +45,10 @@ def replacing(path: str | os.PathLike, what: str, hint: str = "", mode_from: str
     mode_from : path-like, optional
         Give the new file this file's permission bits (temporary files are created private); by default the
         permissions of ``path`` when it exists, else the process default.
+    before_replace : callable, optional
+        Called with no arguments once the new file is complete and on disk, just before it replaces ``path``; it
+        may raise (a :class:`~lanesolve.errors.WriteError`) to leave ``path`` as it is. The pipeline checks here,
+        as late as it can, that the workbook was not saved by someone else while it was solved.
 
     Raises
     ------
@@ -58,8 +62,8 @@ def replacing(path: str | os.PathLike, what: str, hint: str = "", mode_from: str
     try:
         handle = tempfile.NamedTemporaryFile(dir=folder, prefix=_prefix(path), suffix=".tmp", delete=False)
     except OSError as exc:
-        raise WriteError(f"cannot write into the folder {folder}: {exc.strerror or exc} ({hint}; nothing was "
-                         "written)") from exc
+        raise WriteError(f"cannot write into the folder {folder}: {exc.strerror or exc} ({hint}; "
+                         f"{what} {path.name} was not written)") from exc
     temp = Path(handle.name)
     try:
         with handle:
@@ -73,6 +77,8 @@ def replacing(path: str | os.PathLike, what: str, hint: str = "", mode_from: str
             umask = os.umask(0)
             os.umask(umask)
             os.chmod(temp, 0o666 & ~umask)
+        if before_replace is not None:
+            before_replace()
         try:
             os.replace(temp, path)
         except OSError as exc:

@@ -21,13 +21,18 @@ from lanesolve.errors import WriteError
 def spreadsheet_lock_files(path: str | Path) -> list[Path]:
     """Lock files of spreadsheet programs that have ``path`` open (empty when none).
 
+    ``~$<name>`` and ``.~lock.<name>#`` name their workbook exactly. Excel's shortened form for long names,
+    ``~$`` + the name without its first two characters, is ambiguous: ``~$plan.xlsx`` is also the exact lock file of
+    a workbook ``plan.xlsx``. It is taken as this workbook's only when no workbook of that shorter name sits in the
+    folder, so a stray lock file of another workbook never blocks this one.
+
     >>> spreadsheet_lock_files("/nonexistent/plan.xlsx")
     []
     """
     path = Path(path)
     candidates = [path.with_name("~$" + path.name), path.with_name(f".~lock.{path.name}#")]
     # Excel shortens long names in its owner file: it keeps the last characters and replaces the first two with ~$.
-    if len(path.name) > 2:
+    if len(path.name) > 2 and not path.with_name(path.name[2:]).exists():
         candidates.append(path.with_name("~$" + path.name[2:]))
     return [c for c in dict.fromkeys(candidates) if c.exists()]
 

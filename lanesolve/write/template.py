@@ -23,6 +23,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
 from lanesolve.write import atomic
+from lanesolve.write import paths
 from lanesolve import contract
 from lanesolve.errors import WriteError
 
@@ -270,18 +271,21 @@ def save_atomically(book: Workbook, path: str | os.PathLike) -> None:
         book.save(handle)
 
 
-def write_template(path: str | os.PathLike) -> None:
-    """Write the blank workbook to ``path`` (atomically; an existing file is replaced whole).
+def write_template(path: str | os.PathLike, force: bool = False) -> None:
+    """Write the blank workbook to ``path`` (atomically; through a symbolic link to the file it names).
 
     Parameters
     ----------
     path : path-like
         Where to write; must end in .xlsx.
+    force : bool
+        Replace an existing file (``--force``); without it an existing file is refused, since it may be a filled
+        workbook.
 
     Raises
     ------
     WriteError
-        The file cannot be written.
+        The file exists and ``force`` is false; it is read-only, a folder or a pipe; or it cannot be written.
 
     Examples
     --------
@@ -291,4 +295,6 @@ def write_template(path: str | os.PathLike) -> None:
     >>> openpyxl.load_workbook(target).sheetnames
     ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings']
     """
+    if Path(path).suffix.lower() == ".xlsx":  # a wrong suffix gets save_atomically's own message
+        path = paths.check_new_file(path, "the template", "template", force).real
     save_atomically(build_template(), path)

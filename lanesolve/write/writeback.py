@@ -35,6 +35,7 @@ import re
 import shutil
 import time
 import zipfile
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -1077,7 +1078,8 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
                 zout.writestr(info, text.encode("utf-8"))
 
 
-def write_results(source: str | Path, target: str | Path, sheets: list[ResultSheet]) -> None:
+def write_results(source: str | Path, target: str | Path, sheets: list[ResultSheet],
+                  before_replace: Callable[[], None] | None = None) -> None:
     """Write result sheets into a copy of the source workbook and move it onto the target atomically.
 
     Parameters
@@ -1090,6 +1092,8 @@ def write_results(source: str | Path, target: str | Path, sheets: list[ResultShe
     sheets : list of ResultSheet
         The sheets to write, in tab order, after the workbook's own sheets. Earlier sheets whose name starts with
         :data:`~lanesolve.contract.RESULT_PREFIX` are replaced; every other sheet and part is kept byte for byte.
+    before_replace : callable, optional
+        Passed to :func:`lanesolve.write.atomic.replacing`: a last check before the new file replaces the target.
 
     Raises
     ------
@@ -1111,5 +1115,5 @@ def write_results(source: str | Path, target: str | Path, sheets: list[ResultShe
     # The new file keeps the permissions of the file it replaces (or of the source, for a new --output).
     with atomic.replacing(target, "the results to", mode_from=target if target.exists() else source,
                           hint="close the workbook in the spreadsheet program, or choose another --output "
-                               "folder, and run again") as handle:
+                               "folder, and run again", before_replace=before_replace) as handle:
         _build_zip(source, handle, sheets, target)
