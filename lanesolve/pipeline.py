@@ -36,7 +36,7 @@ from lanesolve.read import source
 from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.model import scenarios
-from lanesolve.model.analyse import explain_no_plan, solve_and_analyse
+from lanesolve.model import analyse
 from lanesolve.read import validate
 from lanesolve.write import writeback
 from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
@@ -132,9 +132,9 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     """Run the cheap checks, then the solver when they find nothing."""
     reasons = checks.presolve_checks(network)
     if reasons:
-        return explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
+        return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
     progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
-    return solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose)
+    return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose)
 
 
 def _no_pause(outcome: RunOutcome) -> None:
