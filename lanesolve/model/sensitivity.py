@@ -98,6 +98,9 @@ def _amounts(values: np.ndarray, currency: str = "") -> np.ndarray:
     with np.errstate(divide="ignore", invalid="ignore"):
         magnitude = np.floor(np.log10(size))
     decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2).astype(int)
+    # Rounded once here, so the text shows the same digits whichever way it is formatted (ties go to even).
+    with np.errstate(invalid="ignore", over="ignore"):
+        size = np.where(np.isfinite(size) & (size < 1e15), np.round(size * 10.0 ** decimals) / 10.0 ** decimals, size)
     out = np.empty(len(values), dtype=object)
     for d in np.unique(decimals).tolist():
         chosen = np.flatnonzero(decimals == d)
@@ -444,39 +447,69 @@ def _frame(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndarray, bas
 
 def _reduced_frame(origins: np.ndarray, destinations: np.ndarray, modes: np.ndarray, reduced: np.ndarray, basis: str,
                    units: str, currency: str, decisions: bool) -> pd.DataFrame:
-    """Rows of the unused lanes, label and sentence built in one pass (a 100k-lane plan has about 100k of them, so
-    this loop is most of the figures' time); text columns stay plain object arrays, as
+    """Rows of the unused lanes (a 100k-lane plan has about 100k of them, so their labels and sentences are most of
+    the figures' time): built column-wise by Arrow's string kernels where pyarrow is installed (pandas uses it for
+    its text columns), else row by row; both give the same text. Text columns are plain object arrays, as
     :func:`~lanesolve.model.result.empty_frame` makes them."""
     reduced = np.where(np.abs(reduced) < SAME, 0.0, reduced) + 0.0
     finite = np.isfinite(reduced)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        magnitude = np.floor(np.log10(reduced))
-    decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2).astype(int).tolist()
     never = (" is unused and no plan can use it while the plan's yes/no and trip decisions stand." if decisions
              else " is unused and no plan can use it (nothing can flow over it to where it is needed).")
     middle = f" is unused; its cost per unit ({units}) would have to fall by "
     end = f" {currency} before a plan as cheap used it." if currency else " before a plan as cheap used it."
     free = " is unused, but a plan using it would cost no more (an equally cheap alternative)."
-    items, texts = [], []
-    for o, d, m, value, places in zip(origins.tolist(), destinations.tolist(), modes.tolist(), reduced.tolist(),
-                                      decimals):
-        item = f"{o} -> {d} ({m})" if m else f"{o} -> {d}"
-        items.append(item)
-        if value == 0:
-            texts.append(f"Lane {item}{free}")
-        elif value == math.inf:
-            texts.append(f"Lane {item}{never}")
-        elif places == 2:
-            texts.append(f"Lane {item}{middle}{value:,.2f}{end}")
-        else:  # below 10: four significant digits, trailing zeros dropped but two decimals kept
-            amount = f"{value:.{places}f}".rstrip("0")
-            texts.append(f"Lane {item}{middle}{(amount + '00')[:max(len(amount), amount.index('.') + 3)]}{end}")
+    try:
+        items, texts = _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, free, never)
+    except ImportError:
+        items, texts = _reduced_words_rows(origins, destinations, modes, reduced, middle, end, free, never)
     n = len(items)
     return pd.DataFrame({"figure": pd.Series(["reduced_cost"] * n, dtype=object),
                          "item": pd.Series(items, dtype=object), "value": np.where(finite, reduced, math.nan),
                          "value_up": reduced, "value_down": np.full(n, math.nan), "unique": finite,
                          "basis": pd.Series([basis] * n, dtype=object), "text": pd.Series(texts, dtype=object)},
                         columns=SENSITIVITY_COLUMNS)
+
+
+def _reduced_words_rows(origins, destinations, modes, reduced, middle, end, free, never):
+    """Labels and sentences of unused lanes, row by row (no pyarrow)."""
+    amounts = _amounts(reduced).tolist()
+    items, texts = [], []
+    for o, d, m, value, amount in zip(origins.tolist(), destinations.tolist(), modes.tolist(), reduced.tolist(),
+                                      amounts):
+        item = f"{o} -> {d} ({m})" if m else f"{o} -> {d}"
+        items.append(item)
+        texts.append(f"Lane {item}{free}" if value == 0 else f"Lane {item}{never}" if value == math.inf
+                     else f"Lane {item}{middle}{amount}{end}")
+    return np.array(items, dtype=object), np.array(texts, dtype=object)
+
+
+def _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, free, never):
+    """Labels and sentences of unused lanes with Arrow's string kernels; amounts as :func:`money_words` writes them
+    (four significant digits, at least two decimals). Raises ImportError without pyarrow."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    join = pc.binary_join_element_wise
+    origin, destination, mode = (pa.array(a, type=pa.string()) for a in (origins, destinations, modes))
+    item = join(origin, destination, " -> ")
+    item = pc.if_else(pc.equal(mode, ""), item, join(item, " (", mode, ")", ""))
+    size = np.where(np.isfinite(reduced), reduced, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        magnitude = np.floor(np.log10(size))
+    decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2)
+    rounded = np.round(size * 10.0 ** decimals) / 10.0 ** decimals
+    amount = pc.cast(pa.array(rounded), pa.string())  # shortest text of the rounded value
+    amount = pc.replace_substring_regex(amount, r"^(\d+)$", r"\1.00")
+    amount = pc.replace_substring_regex(amount, r"^(\d+\.\d)$", r"\1" + "0")
+    odd = np.flatnonzero((size >= 1000) | ((size > 0) & (size < 1e-4)))  # thousands separators, tiny values
+    if len(odd):
+        fixed = amount.to_numpy(zero_copy_only=False).astype(object)
+        fixed[odd] = _amounts(size[odd])
+        amount = pa.array(fixed, type=pa.string())
+    text = join("Lane ", item, middle, amount, end, "")
+    text = pc.if_else(pa.array(reduced == 0), join("Lane ", item, free, ""), text)
+    text = pc.if_else(pa.array(np.isinf(reduced)), join("Lane ", item, never, ""), text)
+    return item.to_numpy(zero_copy_only=False), text.to_numpy(zero_copy_only=False)
 
 
 def top_few(sensitivity: pd.DataFrame, figure: str, count: int = TOP_FEW) -> pd.DataFrame:
