@@ -389,8 +389,8 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     reduced = np.maximum(0.0, graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc]))
     order = np.argsort(reduced, kind="stable")  # nearest to paying first
     chosen = np.flatnonzero(unused)[order]
-    frames.append(_reduced_frame(origins[chosen], destinations[chosen], modes[chosen], reduced[order], basis, units,
-                                 currency,
+    frames.append(_reduced_frame((lanes["origin"], lanes["destination"], lanes["mode"]), chosen, reduced[order],
+                                 basis, units, currency,
                                  bool(closed) or basis == FIXED_BASIS))
     frames = [f for f in frames if len(f)]
     if not frames:
@@ -445,8 +445,8 @@ def _frame(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndarray, bas
                         columns=SENSITIVITY_COLUMNS)
 
 
-def _reduced_frame(origins: np.ndarray, destinations: np.ndarray, modes: np.ndarray, reduced: np.ndarray, basis: str,
-                   units: str, currency: str, decisions: bool) -> pd.DataFrame:
+def _reduced_frame(ends: tuple, chosen: np.ndarray, reduced: np.ndarray, basis: str, units: str, currency: str,
+                   decisions: bool) -> pd.DataFrame:
     """Rows of the unused lanes (a 100k-lane plan has about 100k of them, so their labels and sentences are most of
     the figures' time): built column-wise by Arrow's string kernels where pyarrow is installed (pandas uses it for
     its text columns), else row by row; both give the same text. Text columns are plain object arrays, as
@@ -458,16 +458,29 @@ def _reduced_frame(origins: np.ndarray, destinations: np.ndarray, modes: np.ndar
     middle = f" is unused; its cost per unit ({units}) would have to fall by "
     end = f" {currency} before a plan as cheap used it." if currency else " before a plan as cheap used it."
     free = " is unused, but a plan using it would cost no more (an equally cheap alternative)."
+    # ends: the lanes' origin, destination and mode columns; chosen: the unused lanes' positions, nearest first.
     try:
-        items, texts = _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, free, never)
+        import pyarrow as pa
+
+        columns = [_arrow_column(pa, column).take(pa.array(chosen)) for column in ends]
+        items, texts = _reduced_words_arrow(*columns, reduced, middle, end, free, never)
     except ImportError:
-        items, texts = _reduced_words_rows(origins, destinations, modes, reduced, middle, end, free, never)
+        columns = [column.to_numpy(dtype=object)[chosen] for column in ends]
+        items, texts = _reduced_words_rows(*columns, reduced, middle, end, free, never)
     n = len(items)
     return pd.DataFrame({"figure": pd.Series(["reduced_cost"] * n, dtype=object),
                          "item": pd.Series(items, dtype=object), "value": np.where(finite, reduced, math.nan),
                          "value_up": reduced, "value_down": np.full(n, math.nan), "unique": finite,
                          "basis": pd.Series([basis] * n, dtype=object), "text": pd.Series(texts, dtype=object)},
                         columns=SENSITIVITY_COLUMNS)
+
+
+def _arrow_column(pa, column: pd.Series):
+    """A text column as an Arrow array: zero-copy when pandas already keeps it in Arrow, else converted."""
+    try:
+        return pa.array(column.array, type=pa.string())
+    except (TypeError, ValueError, pa.ArrowException):
+        return pa.array(column.to_numpy(dtype=object), type=pa.string())
 
 
 def _reduced_words_rows(origins, destinations, modes, reduced, middle, end, free, never):
@@ -490,7 +503,8 @@ def _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, fre
     import pyarrow.compute as pc
 
     join = pc.binary_join_element_wise
-    origin, destination, mode = (pa.array(a, type=pa.string()) for a in (origins, destinations, modes))
+    origin, destination, mode = (pa.array(a, type=pa.string()) if not isinstance(a, (pa.Array, pa.ChunkedArray))
+                                 else a.cast(pa.string()) for a in (origins, destinations, modes))
     item = join(origin, destination, " -> ")
     item = pc.if_else(pc.equal(mode, ""), item, join(item, " (", mode, ")", ""))
     size = np.where(np.isfinite(reduced), reduced, 0.0)
