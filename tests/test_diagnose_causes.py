@@ -22,6 +22,7 @@ from lanesolve.model.network import Settings, make_network
 from lanesolve.model.result import SolveStatus
 from lanesolve.model.solve import solve
 from lanesolve.pipeline import run
+from lanesolve.report import summary as report
 from lanesolve.write import writeback
 
 TOL = 1e-6
@@ -203,6 +204,11 @@ def test_pre_solve_checks_report_every_cause_and_the_total_shortfall(variant, tm
     assert summary_rows["customers short"] == len(diagnosis.short) > 0
     assert summary_rows["total shortfall"] == pytest.approx(hard - most)
     assert sheets["LS Why no plan"].rows[0][0] == "total shortfall"
+    page = report.render_html(outcome.network, result, outcome.info, [])
+    first_short = f"Customer {diagnosis.short['customer'].iloc[0]} would be"
+    # The HTML states the total and the causes before the customers one by one.
+    assert "Least total shortfall" in page
+    assert page.index("No plan meets every hard demand") < page.index("Total depot supply") < page.index(first_short)
 
 
 @pytest.mark.parametrize("variant", VARIANTS)

@@ -482,6 +482,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
             ("Unmet demand", format_quantity(unmet_total, units), "unmet"),
             ("Lanes used", f"{len(result.flows):,d}", "lanes-used"),
         ]
+    elif getattr(result.diagnosis, "total_short", None) is not None:  # no plan: the least shortfall, first
+        kpis.append(("Least total shortfall", format_quantity(result.diagnosis.total_short, units), "shortfall"))
     kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
              ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
