@@ -1,144 +1,103 @@
-"""The bare-solver baseline: lanesolve's LP as one scipy.sparse matrix, solved by HiGHS through ``scipy.optimize.linprog``.
+"""The bare-solver baseline: lanesolve's own model arrays handed straight to HiGHS, with nothing around the solve.
 
-This is the floor the benchmark compares lanesolve against: no workbook, no modelling layer, just the matrix build
-(timed separately) and the solve. It follows the formulation in the docstring of ``lanesolve/model.py`` for networks
-without fixed charges:
+The arrays are :func:`lanesolve.model.formulation.build_sparse_model`'s (the same bounds, costs and sparse matrix
+lanesolve's solvers read), so the baseline and lanesolve solve exactly the same LP; the matrix build is timed apart.
+Two bare solves are offered:
 
-- variables: flow ``x_l`` on each active lane (bounds ``0 <= x_l <= capacity``) and, for customers with an unmet
-  penalty, the shortfall ``z_c`` (``0 <= z_c <= demand``);
-- cost: ``cost_per_unit`` + the origin depot's ``handling_cost`` (per unit shipped out) + the destination hub's
-  ``handling_cost`` (per unit through), and the penalty on ``z_c``;
-- rows: depot net outflow <= supply; customer inflow - outflow + z = demand; hub inflow - outflow = 0; hub inflow <=
-  capacity where finite.
+- ``linprog``: ``scipy.optimize.linprog(method="highs")`` with SciPy's defaults (rows split into ``A_ub`` / ``A_eq``
+  as linprog wants them). This is the baseline ``run.py`` reports.
+- ``highspy``: ``Highs.passModel`` with the arrays and ``Highs.run``, no options set: HiGHS itself, as lanesolve's
+  in-memory path calls it, minus lanesolve's reading of the answer (bench_model.py compares the two).
 
 Usage (on a cached network pickle written by generate.py)::
 
-    python benchmarks/bare_highs.py benchmarks/cache/lanes-100k-s7.network.pkl
+    python benchmarks/bare_highs.py benchmarks/cache/lanes-100k-s7.network.pkl [--engine linprog|highspy]
 """
 
 from __future__ import annotations
 
+import argparse
 import math
 import pickle
 import sys
 import time
-from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import scipy
-import scipy.sparse as sp
 from scipy.optimize import linprog
 
-
-@dataclass
-class LinearProgram:
-    """``min c x  s.t.  A_ub x <= b_ub,  A_eq x = b_eq,  lower <= x <= upper`` (SciPy's linprog form)."""
-
-    c: np.ndarray
-    a_ub: sp.csr_matrix
-    b_ub: np.ndarray
-    a_eq: sp.csr_matrix
-    b_eq: np.ndarray
-    bounds: np.ndarray  # shape (n, 2); np.inf for no upper limit
-
-    @property
-    def shape(self) -> tuple[int, int]:
-        return self.a_ub.shape[0] + self.a_eq.shape[0], len(self.c)
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+from lanesolve.model.formulation import build_sparse_model  # noqa: E402
 
 
-def build_lp(network) -> LinearProgram:
-    """Build the sparse LP of a :class:`lanesolve.model.network.Network` without fixed charges.
+def build_lp(network):
+    """The :class:`~lanesolve.model.arrays.SparseModel` of a network without yes/no decisions.
 
     Raises
     ------
     ValueError
-        The network has fixed charges (the bare LP baseline is only defined for pure LPs) or a lane names an
-        unknown node.
+        The network has fixed charges or design decisions (the bare baseline is an LP).
     """
-    if network.has_fixed_charges:
-        raise ValueError("the bare HiGHS baseline is an LP; this network has fixed charges (generate it without "
+    model = build_sparse_model(network)
+    if model.is_mip:
+        raise ValueError("the bare HiGHS baseline is an LP; this network has yes/no decisions (generate it without "
                          "--fixed-charges)")
-    depots, customers, hubs = network.depots, network.customers, network.hubs
-    lanes = network.active_lanes
-    n_d, n_c, n_h = len(depots), len(customers), len(hubs)
-    node_ids = np.concatenate([depots["id"].to_numpy(), customers["id"].to_numpy(), hubs["id"].to_numpy()])
-    index = {node: i for i, node in enumerate(node_ids)}
-    origin = lanes["origin"].map(index).to_numpy()
-    dest = lanes["destination"].map(index).to_numpy()
-    if np.isnan(origin.astype(float)).any() or np.isnan(dest.astype(float)).any():
-        raise ValueError("a lane names a node that is not a depot, customer or hub")
-    origin, dest = origin.astype(np.int64), dest.astype(np.int64)
-    n_nodes, n_lanes = len(node_ids), len(lanes)
-
-    # Node-lane incidence: +1 where the lane leaves the node, -1 where it enters (nodes in the order D, C, H).
-    cols = np.arange(n_lanes)
-    incidence = sp.csr_matrix(
-        (np.concatenate([np.ones(n_lanes), -np.ones(n_lanes)]),
-         (np.concatenate([origin, dest]), np.concatenate([cols, cols]))),
-        shape=(n_nodes, n_lanes),
-    )
-    inflow = sp.csr_matrix((np.ones(n_lanes), (dest, cols)), shape=(n_nodes, n_lanes))
-
-    penalty = customers["unmet_penalty"].to_numpy(dtype=float)
-    if network.settings.unmet_penalty is not None:
-        penalty = np.where(np.isnan(penalty), network.settings.unmet_penalty, penalty)
-    soft = np.flatnonzero(~np.isnan(penalty))
-    demand = customers["demand"].to_numpy(dtype=float)
-
-    handling = np.zeros(n_nodes)
-    handling[:n_d] = depots["handling_cost"].to_numpy(dtype=float)
-    handling[n_d + n_c:] = hubs["handling_cost"].to_numpy(dtype=float)
-    is_depot = np.zeros(n_nodes, dtype=bool)
-    is_depot[:n_d] = True
-    is_hub = np.zeros(n_nodes, dtype=bool)
-    is_hub[n_d + n_c:] = True
-    lane_cost = (lanes["cost_per_unit"].to_numpy(dtype=float)
-                 + np.where(is_depot[origin], handling[origin], 0.0)
-                 + np.where(is_hub[dest], handling[dest], 0.0))
-    c = np.concatenate([lane_cost, penalty[soft]])
-
-    unmet_columns = sp.csr_matrix((np.ones(len(soft)), (soft, np.arange(len(soft)))), shape=(n_c, len(soft)))
-    depot_rows = sp.hstack([incidence[:n_d], sp.csr_matrix((n_d, len(soft)))])
-    customer_rows = sp.hstack([-incidence[n_d:n_d + n_c], unmet_columns])
-    hub_rows = sp.hstack([incidence[n_d + n_c:], sp.csr_matrix((n_h, len(soft)))])
-    hub_capacity = hubs["capacity"].to_numpy(dtype=float)
-    limited = np.flatnonzero(np.isfinite(hub_capacity))
-    hub_cap_rows = sp.hstack([inflow[n_d + n_c + limited], sp.csr_matrix((len(limited), len(soft)))])
-
-    a_ub = sp.vstack([depot_rows, hub_cap_rows]).tocsr()
-    b_ub = np.concatenate([depots["supply"].to_numpy(dtype=float), hub_capacity[limited]])
-    a_eq = sp.vstack([customer_rows, hub_rows]).tocsr()
-    b_eq = np.concatenate([demand, np.zeros(n_h)])
-    upper = np.concatenate([lanes["capacity"].to_numpy(dtype=float), demand[soft]])
-    bounds = np.column_stack([np.zeros(len(c)), upper])
-    return LinearProgram(c, a_ub, b_ub, a_eq, b_eq, bounds)
+    return model
 
 
-def solve_lp(lp: LinearProgram):
-    """Solve with HiGHS (``linprog(method="highs")``, SciPy's defaults otherwise); return SciPy's result."""
-    return linprog(lp.c, A_ub=lp.a_ub, b_ub=lp.b_ub, A_eq=lp.a_eq, b_eq=lp.b_eq, bounds=lp.bounds, method="highs")
+def solve_linprog(model) -> tuple[int, float, str]:
+    """``scipy.optimize.linprog(method="highs")`` on the model's arrays: (status, objective, message)."""
+    equal = model.row_lower == model.row_upper
+    at_most = np.isinf(model.row_lower) & ~equal
+    at_least = ~equal & ~at_most
+    one_sided = at_most | at_least
+    a_ub = model.matrix[one_sided]
+    sign = np.where(at_least[one_sided], -1.0, 1.0)  # an at-least row is an at-most row negated
+    b_ub = np.where(at_least, -model.row_lower, model.row_upper)[one_sided]
+    res = linprog(model.cost, A_ub=a_ub.multiply(sign[:, None]).tocsr(), b_ub=b_ub, A_eq=model.matrix[equal],
+                  b_eq=model.row_lower[equal], bounds=np.column_stack([model.lower, model.upper]), method="highs")
+    return int(res.status), float(res.fun) if res.status == 0 else math.nan, str(res.message)
 
 
-def measure(network_pickle: str) -> dict:
-    """Load a cached network, build and solve its LP; return timings, objective and status."""
+def solve_highspy(model) -> tuple[int, float, str]:
+    """``Highs.passModel`` + ``Highs.run`` on the model's arrays, output off: (0 when optimal, objective, status)."""
+    import highspy
+
+    matrix = model.matrix.tocsc()
+    highs = highspy.Highs()
+    highs.setOptionValue("output_flag", False)
+    highs.passModel(model.n_columns, model.n_rows, int(matrix.nnz), int(highspy.MatrixFormat.kColwise),
+                    int(highspy.ObjSense.kMinimize), 0.0, model.cost, model.lower, model.upper, model.row_lower,
+                    model.row_upper, matrix.indptr.astype(np.int32), matrix.indices.astype(np.int32), matrix.data,
+                    np.zeros(model.n_columns, dtype=np.int32))
+    highs.run()
+    status = highs.getModelStatus()
+    optimal = status == highspy.HighsModelStatus.kOptimal
+    return (0 if optimal else 1), (highs.getInfo().objective_function_value if optimal else math.nan), str(status)
+
+
+def measure(network_pickle: str, engine: str = "linprog") -> dict:
+    """Load a cached network, build its arrays and solve them bare; return timings, objective and status."""
     tick = time.perf_counter()
     with open(network_pickle, "rb") as fh:
         network = pickle.load(fh)
     load_s = time.perf_counter() - tick
     tick = time.perf_counter()
-    lp = build_lp(network)
+    model = build_lp(network)
     build_s = time.perf_counter() - tick
     tick = time.perf_counter()
-    res = solve_lp(lp)
+    status, objective, message = (solve_linprog if engine == "linprog" else solve_highspy)(model)
     solve_s = time.perf_counter() - tick
-    return {
-        "load": load_s, "build": build_s, "solve": solve_s,
-        "objective": float(res.fun) if res.status == 0 else math.nan,
-        "status": int(res.status), "message": str(res.message), "rows": lp.shape[0], "columns": lp.shape[1],
-        "solver": f"HiGHS via SciPy {scipy.__version__} linprog",
-    }
+    solver = f"HiGHS via SciPy {scipy.__version__} linprog" if engine == "linprog" else "HiGHS via highspy passModel"
+    return {"load": load_s, "build": build_s, "solve": solve_s, "objective": objective, "status": status,
+            "message": message, "rows": model.n_rows, "columns": model.n_columns, "solver": solver}
 
 
 if __name__ == "__main__":
-    for path in sys.argv[1:]:
-        print(path, measure(path))
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("pickles", nargs="+")
+    parser.add_argument("--engine", choices=["linprog", "highspy"], default="linprog")
+    args = parser.parse_args()
+    for path in args.pickles:
+        print(path, measure(path, args.engine))

@@ -6,7 +6,7 @@
 3. solve: CBC through ``PULP_CBC_CMD(msg=False)``;
 4. write: ``openpyxl.load_workbook`` of the whole input, add the result sheets (lanes with flow, nodes), ``save``.
 
-The model is the one in the docstring of ``lanesolve/model.py`` (depot handling per unit shipped out, hub handling
+The model is the one in the docstring of ``lanesolve/model/formulation.py`` (depot handling per unit shipped out, hub handling
 per unit in, fixed charges with a big-M of the smaller of lane capacity and total demand), so its objective can be
 compared with lanesolve's and with bare HiGHS.
 

@@ -264,6 +264,8 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
 
     output = plan.workbook.given if plan is not None else path
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), mark.sha256)
+    if plan is not None:  # a planner's sheet named like a result sheet stops the run before any solving
+        writeback.check_result_sheets(path)
     result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
@@ -284,7 +286,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
         progress("writing results", None)
         sheets = writeback.result_sheets(network, result, info)
         if comparison is not None:
-            sheets.append(writeback.scenario_sheet(comparison))
+            sheets.append(writeback.scenario_sheet(comparison, network.settings))
         writeback.write_results(path, plan.workbook.real, sheets, before_replace=unchanged)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()

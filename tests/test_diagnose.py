@@ -67,7 +67,7 @@ def test_structural_causes_are_reported_without_the_solver(monkeypatch):
     def forbidden(*args, **kwargs):
         raise AssertionError("the solver must not run for a structural cause")
 
-    monkeypatch.setattr(solve_module, "build_model", forbidden)
+    monkeypatch.setattr(solve_module, "build_sparse_model", forbidden)
     net = make_network([{"id": "Shut", "supply": 20, "status": "closed"}, {"id": "Open", "supply": 20}],
                        [{"id": "C", "demand": 5}],
                        [{"origin": "Shut", "destination": "C", "cost_per_unit": 1},

@@ -201,8 +201,8 @@ def test_pre_solve_checks_report_every_cause_and_the_total_shortfall(variant, tm
     outcome = caught.value.result
     sheets = {s.name: s for s in writeback.result_sheets(outcome.network, result, outcome.info)}
     summary_rows = {r[0]: r[1] for r in sheets["LS Summary"].rows}
-    assert summary_rows["customers short"] == len(diagnosis.short) > 0
-    assert summary_rows["total shortfall"] == pytest.approx(hard - most)
+    assert summary_rows["Customers short"] == len(diagnosis.short) > 0
+    assert summary_rows["Total shortfall"] == pytest.approx(hard - most)
     assert sheets["LS Why no plan"].rows[0][0] == "total shortfall"
     page = report.render_html(outcome.network, result, outcome.info, [])
     first_short = f"Customer {diagnosis.short['customer'].iloc[0]} would be"

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy.optimize import Bounds, LinearConstraint, milp
 
-from lanesolve.model.formulation import build_model
+from lanesolve.model.formulation import build_sparse_model
 from lanesolve.model.network import make_network
 from lanesolve.model.result import COST_COMPONENTS, SolveStatus
 from lanesolve.model.solve import solve
@@ -142,4 +142,4 @@ def test_fixed_charge_optimum_matches_scipy_milp(seed):
     assert result.flows["fixed_charge"].sum() == pytest.approx(result.cost_breakdown["fixed_lane"], abs=TOL)
     if net.has_fixed_charges:
         assert result.mip_gap is not None and result.mip_gap <= 1e-6
-        assert build_model(net).is_mip
+        assert build_sparse_model(net).is_mip

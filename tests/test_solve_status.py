@@ -12,7 +12,8 @@ import pytest
 from scipy.optimize import linprog
 
 from lanesolve.errors import SolverError
-from lanesolve.model.formulation import build_model
+from lanesolve.model import cbc as cbc_module
+from lanesolve.model.formulation import build_sparse_model
 from lanesolve.model.network import Settings, make_network
 from lanesolve.model.result import COST_COMPONENTS, FLOW_COLUMNS, NODE_COLUMNS, UNMET_COLUMNS, SolveStatus
 from lanesolve.model.solve import solve
@@ -86,9 +87,9 @@ def root_lp_bound(net) -> float:
 
 def test_pure_lp_is_optimal_without_binaries_or_gap():
     net = beer_network()
-    model = build_model(net)
-    assert not model.is_mip and model.use == {}
-    assert all(var.cat == pulp.LpContinuous for var in model.problem.variables())
+    model = build_sparse_model(net)
+    assert not model.is_mip and len(model.ids("use_")) == 0
+    assert not model.integer.any()
     result = solve(net)
     assert result.status is SolveStatus.OPTIMAL
     assert result.mip_gap is None
@@ -101,9 +102,11 @@ def test_pure_lp_is_optimal_without_binaries_or_gap():
 
 def test_fixed_charge_model_has_one_binary_per_charged_lane():
     net = beer_network(fixed_cost=100)
-    model = build_model(net)
-    assert len(model.use) == 10
-    assert all(var.cat == pulp.LpInteger for var in model.use.values())
+    model = build_sparse_model(net)
+    use = model.columns("use_")
+    assert len(model.ids("use_")) == 10
+    assert model.integer[use].all() and (model.lower[use] == 0).all() and (model.upper[use] == 1).all()
+    assert model.integer.sum() == 10  # no other integer column
     # Big-M for a lane from a depot with no inbound lanes to a customer with no outbound ones is
     # min(supply, demand): A->1 min(1000, 500), B->3 min(4000, 1800) (data: BeerDistributionProblem.py).
     lane = net.lanes.set_index(["origin", "destination"]).index
@@ -245,9 +248,9 @@ def test_missing_cbc_binary_is_a_solver_error(monkeypatch):
 
 
 def test_solver_crash_is_a_solver_error(monkeypatch):
-    def crash(self, solver=None, **kwargs):
-        raise pulp.PulpSolverError("Pulp: Error while executing cbc")
+    class Killed:
+        returncode = -11  # the CBC program ended by a signal (a crash)
 
-    monkeypatch.setattr(pulp.LpProblem, "solve", crash)
+    monkeypatch.setattr(cbc_module.subprocess, "run", lambda *args, **kwargs: Killed())
     with pytest.raises(SolverError, match="CBC solver failed"):
-        solve(beer_network(), fast=False)  # the PuLP path; the array path: tests/test_model_speedpath.py
+        solve(beer_network(fixed_cost=100))

@@ -34,7 +34,7 @@ import pandas as pd
 from lanesolve import contract
 from lanesolve.errors import Problem
 from lanesolve.model.network import Network
-from lanesolve.model.result import Result
+from lanesolve.model.result import COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result
 
 SHEET = "Scenarios"
 HEADERS = ("scenario", "sheet", "match", "column", "change", "value")
@@ -509,8 +509,11 @@ def volume_shifts(baseline_result: Result, scenario_result: Result, top: int | N
     return frame if top is None else frame.head(top)
 
 
+#: The cost columns of :func:`compare`: every component a result can have (zero where a plan has none of it).
+COST_KEYS = (*COST_COMPONENTS, *DESIGN_COST_COMPONENTS)
+
 #: Columns of the frame :func:`compare` returns.
-COMPARE_COLUMNS = ["scenario", "status", "total_cost", "transport", "handling", "fixed_lane", "unmet_penalty",
+COMPARE_COLUMNS = ["scenario", "status", "total_cost", *COST_COMPONENTS, *DESIGN_COST_COMPONENTS,
                    "delta_cost", "delta_pct", "unmet_units", "lanes_used", "lanes_opened", "lanes_closed",
                    "nodes_opened", "nodes_closed", "largest_shifts"]
 
@@ -530,7 +533,8 @@ def compare(baseline_result: Result, scenario_results: dict[str, Result], top_sh
     -------
     DataFrame
         One row per scenario, the baseline first, columns :data:`COMPARE_COLUMNS`: the status, the total cost and
-        its breakdown, ``delta_cost`` (scenario minus baseline) and ``delta_pct`` (percent of the baseline cost; NaN
+        its breakdown (every component of :data:`COST_KEYS`, from :meth:`Result.cost_lines`, adding up to the
+        total), ``delta_cost`` (scenario minus baseline) and ``delta_pct`` (percent of the baseline cost; NaN
         when that is 0 or either has no plan), ``unmet_units`` (units not delivered), ``lanes_used``,
         ``lanes_opened``/``lanes_closed`` and ``nodes_opened``/``nodes_closed`` (text lists of lanes and of
         shipping depots or used hubs that carry flow in the scenario but not the baseline, or the reverse) and
@@ -546,12 +550,13 @@ def compare(baseline_result: Result, scenario_results: dict[str, Result], top_sh
         is_base = result is baseline_result and name == BASELINE
         shifts = volume_shifts(baseline_result, result, top_shifts) if has_plan and not is_base else None
         delta = cost - base_cost
+        amounts = {line.key: line.amount for line in result.cost_lines()}
         records.append({
             "scenario": name,
             "status": result.status.value,
             "total_cost": cost,
-            **{k: (float(result.cost_breakdown.get(k, 0.0)) if has_plan else math.nan)
-               for k in ("transport", "handling", "fixed_lane", "unmet_penalty")},
+            # Every component, from the breakdown every report reads, so the columns add up to total_cost.
+            **{k: (amounts.get(k, 0.0) if has_plan else math.nan) for k in COST_KEYS},
             "delta_cost": delta,
             "delta_pct": delta / base_cost * 100.0 if base_cost else math.nan,
             "unmet_units": float(result.unmet["quantity"].sum()) if has_plan and len(result.unmet) else
