@@ -197,8 +197,10 @@ def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray) 
         return phi
     tolerance = SAME * max(1.0, float(np.abs(cost).max()))
     order = np.argsort(head, kind="stable")
-    tail, head, cost = tail[order], head[order], cost[order]
-    heads, starts = np.unique(head, return_index=True)
+    tail, cost = tail[order], cost[order]
+    counts = np.bincount(head, minlength=n)  # arcs per head, in head order: the groups reduceat needs
+    heads = np.flatnonzero(counts)
+    starts = np.concatenate([[0], np.cumsum(counts[heads])[:-1]])
     for _ in range(n + 1):
         best = np.minimum.reduceat(phi[tail] + cost, starts)
         better = best < phi[heads] - tolerance
