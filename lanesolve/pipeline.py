@@ -109,7 +109,7 @@ def scenario_networks(raw: reader.RawWorkbook, network: Network,
             raise WorkbookError(Problem(scenarios.SHEET, None, None, None, "the workbook has no Scenarios sheet",
                                         "add one, or leave out --scenario"))
         return {}
-    parsed, problems = scenarios.parse_scenarios(sheet.rows)
+    parsed, problems = scenarios.parse_scenarios(sheet.rows, sheet.percent_cells)
     by_name = {s.name: s for s in parsed}
     for name in only or []:
         if name not in by_name:
