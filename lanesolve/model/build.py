@@ -11,7 +11,8 @@ from lanesolve.model.network import Network
 from lanesolve.model.product_model import build_product_model
 
 
-def build_model(network: Network, linking: bool = True, cap: float | None = None) -> SparseModel:
+def build_model(network: Network, linking: bool = True, cap: float | None = None,
+                single_product=build_sparse_model) -> SparseModel:
     """The one model of ``network`` every solver reads.
 
     Parameters
@@ -21,6 +22,9 @@ def build_model(network: Network, linking: bool = True, cap: float | None = None
         As for :func:`lanesolve.model.formulation.build_sparse_model`.
     cap : float, optional
         Emissions cap in tonnes CO2e overriding the ``emissions_cap`` setting.
+    single_product : callable
+        The single-product builder (:func:`~lanesolve.model.formulation.build_sparse_model`); the solve stage
+        passes the one it imported, so a test can stand in for it there.
 
     Examples
     --------
@@ -33,5 +37,5 @@ def build_model(network: Network, linking: bool = True, cap: float | None = None
     if network.products is not None:
         model = build_product_model(network, linking=linking)
     else:
-        model = build_sparse_model(network, linking=linking)
+        model = single_product(network, linking=linking)
     return with_emissions(model, network, cap)

@@ -13,7 +13,7 @@ from lanesolve.model.arrays import SparseModel
 from lanesolve.model.emissions import lane_intensity
 from lanesolve.model.network import Network
 from lanesolve.model.product_model import demand_penalties, pair_table
-from lanesolve.model.result import UNMET_COLUMNS, Result, empty_frame
+from lanesolve.model.result import SENSITIVITY_COLUMNS, UNMET_COLUMNS, Result, empty_frame
 
 #: Columns of :attr:`Result.product_flows`: units of each product on each lane (flow > 0 only) and the lane
 #: capacity they take (units x capacity_use).
@@ -150,3 +150,22 @@ def fill_emissions(network: Network, model: SparseModel, values: np.ndarray, res
             f"{unknown} lane(s) carrying flow have no emission factor (neither their own nor their mode's): their "
             "emissions are unknown and not in the total, which is therefore a lower bound. Give those lanes or "
             "modes a factor.")
+
+
+def figures_left_out(network: Network) -> str:
+    """Why the sensitivity figures are not computed for ``network`` ("" when they are): they are figures of the
+    single-product flow network without a carbon price or emissions cap."""
+    if network.products is not None:
+        return ("Sensitivity figures are not computed for several products (they are figures of the one-product "
+                "flow network).")
+    if network.emissions is not None and (network.settings.carbon_price or network.settings.emissions_cap is not None):
+        return ("Sensitivity figures are not computed with a carbon price or an emissions cap (they leave the "
+                "carbon cost out); the cap's own value is on LS Emissions.")
+    return ""
+
+
+def no_figures(reason: str) -> pd.DataFrame:
+    """A sensitivity frame of one row (figure ``none``) saying ``reason``."""
+    row = {column: None for column in SENSITIVITY_COLUMNS}
+    row.update(figure="none", basis="", text=reason, unique=False)
+    return pd.DataFrame([row], columns=SENSITIVITY_COLUMNS)

@@ -30,6 +30,7 @@ import pandas as pd
 from lanesolve.errors import SolverError
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
+from lanesolve.model.formulation import build_sparse_model
 from lanesolve.model.network import Network
 from lanesolve.model.product_plan import finish_plan
 from lanesolve.model.result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMNS, TRIP_COLUMNS, UNMET_COLUMNS,
@@ -278,7 +279,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
 
     tick = time.perf_counter()
-    model = build_model(network, linking=linking, cap=cap)
+    model = build_model(network, linking=linking, cap=cap, single_product=build_sparse_model)
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     answer = solve_model(model, solver, limit, gap, msg)
