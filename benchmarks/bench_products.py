@@ -131,7 +131,9 @@ def child_bare(workbook: str) -> dict:
 def in_child(kind: str, workbook: Path) -> dict:
     code = (f"import json, sys; sys.path.insert(0, {str(HERE)!r}); import bench_products as b; "
             f"print(json.dumps(b.child_{kind}({str(workbook)!r})))")
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    if out.returncode != 0:
+        raise SystemExit(f"the {kind} measurement failed:\n{out.stderr}")
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
