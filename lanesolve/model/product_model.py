@@ -85,18 +85,15 @@ def product_columns(network: Network) -> ProductColumns:
     """The (active lane, product) pairs that get a column: every product a lane allows (blank = all)."""
     data = network.products
     lanes = network.active_lanes
-    ids = data.ids
-    allowed = data.lane_products.reindex(lanes.index)
-    position = {pid: k for k, pid in enumerate(ids)}
-    lane_pos, product = [], []
-    every = np.arange(len(ids))
-    for p, entry in enumerate(allowed.tolist()):
-        chosen = every if entry is None or (isinstance(entry, float) and entry != entry) else np.array(
-            sorted(position[e] for e in entry if e in position), dtype=np.int64)
-        lane_pos.append(np.full(len(chosen), p, dtype=np.int64))
-        product.append(chosen.astype(np.int64))
-    lane_pos = np.concatenate(lane_pos) if lane_pos else np.zeros(0, dtype=np.int64)
-    product = np.concatenate(product) if product else np.zeros(0, dtype=np.int64)
+    position = {pid: k for k, pid in enumerate(data.ids)}
+    allowed = data.lane_products.reindex(lanes.index).to_numpy(dtype=object)
+    # A (lane, product) table: every product on a lane whose cell is blank; only the listed lanes are visited.
+    table = np.ones((len(lanes), len(position)), dtype=bool)
+    for row in np.flatnonzero(pd.notna(allowed) & (allowed != None)).tolist():  # noqa: E711 (element-wise)
+        table[row] = False
+        table[row, [position[e] for e in allowed[row] if e in position]] = True
+    lane_pos, product = np.nonzero(table)  # row-major: lane by lane, products in sheet order
+    lane_pos, product = lane_pos.astype(np.int64), product.astype(np.int64)
     return ProductColumns(lane_pos, lanes.index.to_numpy()[lane_pos], product)
 
 

@@ -97,10 +97,10 @@ def _lane_products(lanes: Table, product_ids: set[str] | None, found: Findings) 
     allowed = pd.Series([None] * len(lanes), dtype=object)
     if values is None:
         return allowed
-    for pos in np.flatnonzero(_usable(lanes, "products")):
-        text = values.iloc[pos]
-        if not isinstance(text, str) or not text.strip():
-            continue
+    texts = values.to_numpy(dtype=object)
+    filled = np.array([isinstance(t, str) and bool(t.strip()) for t in texts], dtype=bool)
+    for pos in np.flatnonzero(_usable(lanes, "products") & filled):
+        text = texts[pos]
         sheet, row, header = lanes.where(pos, "products")
         if product_ids is None:
             found.add(sheet, row, header, text, "the lane lists products, but the workbook has no Products sheet",
