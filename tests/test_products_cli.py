@@ -48,3 +48,16 @@ def test_a_cap_no_plan_can_meet_is_infeasible(tmp_path):
     result = solved(tmp_path, Settings=[("setting", "value"), ("emissions_cap", 0.001)])
     assert result.exit_code == 3
     assert json.loads(result.stdout)["status"] == "infeasible"
+
+
+def test_summary_and_mail_show_emissions_and_the_tradeoff_chart(tmp_path):
+    path = workbook(tmp_path / "book.xlsx", base())
+    mail = tmp_path / "plan.eml"
+    result = CliRunner().invoke(main, ["solve", str(path), "--output", str(tmp_path / "out.xlsx"), "--tradeoff", "3",
+                                       "--email", str(mail)])
+    assert result.exit_code == 0, result.output
+    html = (tmp_path / "out-summary.html").read_text(encoding="utf-8")
+    assert 'id="emissions-table"' in html and "Cost and emissions trade-off" in html
+    assert "0.05 t CO2e" in html  # 50.92 kg, by hand in the test above
+    text = mail.read_text(encoding="utf-8", errors="replace")
+    assert "tradeoff.png" in text and "Emissions, total: 0.05 t CO2e" in text
