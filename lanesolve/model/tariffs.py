@@ -47,9 +47,12 @@ tight.
   bracket binaries :math:`v_{lj}` (``tariff_pick_<l>_<j>``), ``tariff_lo_<l>_<j>``: :math:`\\delta_{lj} \\ge
   \\beta_j v_{lj}`, ``tariff_hi_<l>_<j>``: :math:`\\delta_{lj} \\le \\beta_{j+1} v_{lj}` (the last bracket up to
   :math:`U_l`), ``tariff_one_<l>``: :math:`\\sum_j v_{lj} \\le 1`. At exactly :math:`x = \\beta_{j+1}` both
-  brackets fit and the cheaper is charged (the sheet's rule when rates fall with volume, as tariffs do).
+  brackets fit and the cheaper is charged: the sheet's rule when the rate falls at the break, as tariffs do. Where
+  it rises instead, bracket :math:`j` ends a relative :data:`RISING_STEP` (:math:`10^{-6}`) before
+  :math:`\\beta_{j+1}`, so the break volume itself pays the higher rate (a cost that jumps up has no minimum at the
+  jump; the step stands in for "just below").
 
-Breaks at or beyond :math:`U_l` can never apply and are left out. Minimum charges, with binary :math:`y_l`
+Breaks beyond :math:`U_l` (for incremental rates: at or beyond) can never apply and are left out. Minimum charges, with binary :math:`y_l`
 (``charged_<l>``) and continuous top-up :math:`t_l \\ge 0` (``min_charge_top_<l>``, in the *transport* cost):
 
 - ``charged_link_<l>``: :math:`x_l \\le U_l y_l`;
@@ -84,6 +87,11 @@ import pandas as pd
 
 from lanesolve.model.arrays import Assembly
 from lanesolve.model.network import Network
+
+
+#: Where an all-units rate rises at a break, the bracket below ends this much (relative) before it, so a lane
+#: carrying exactly the break volume pays the higher rate, as the Rate breaks sheet defines.
+RISING_STEP = 1e-6
 
 
 @dataclass
@@ -155,10 +163,13 @@ def _tariff_segments(network: Network, upper: np.ndarray) -> pd.DataFrame:
         starts = [0.0, *group["from_volume"].tolist()]
         lane_rates = [float(rates[pos]), *group["cost_per_unit"].tolist()]
         kind = group["kind"].iloc[0]
-        kept = [j for j, start in enumerate(starts) if start < top]
+        # An incremental segment starting at the bound is empty; an all-units bracket starting there still applies.
+        kept = [j for j, start in enumerate(starts) if start < top or (kind == "all_units" and start <= top)]
         convex = bool(np.all(np.diff([lane_rates[j] for j in kept]) >= 0))
         for j in kept:
-            end = starts[j + 1] if j + 1 < len(starts) and starts[j + 1] < top else top
+            end = starts[j + 1] if j + 1 < len(starts) and starts[j + 1] <= top else top
+            if kind == "all_units" and j + 1 in kept and lane_rates[j + 1] > lane_rates[j]:
+                end -= RISING_STEP * max(1.0, end)  # a dearer bracket starts *at* its break (module docstring)
             records.append((pos, int(lanes.index[pos]), j, starts[j], end, lane_rates[j], float(rates[pos]), kind,
                             convex))
     return pd.DataFrame(records, columns=["pos", "lane", "j", "start", "end", "rate", "base", "kind", "convex"])
