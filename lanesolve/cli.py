@@ -138,6 +138,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from lanesolve.pipeline import run
     from lanesolve.progress import TerminalProgress, no_progress
+    from lanesolve.report.carrier_report import change_lines
     from lanesolve.report.text import terminal_lines
 
     if attach_workbook and not email_path:
@@ -165,6 +166,8 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
         click.echo(json.dumps(outcome.to_json(), indent=2))
     if not quiet:
         for line in terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison):
+            _say(line, err=as_json)
+        for line in change_lines(outcome.changes, outcome.network.settings):
             _say(line, err=as_json)
         if email_path:
             _say(f"Mail written to {email_path}" + (" (solved workbook attached)" if attach_workbook else ""),

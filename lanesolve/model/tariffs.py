@@ -153,26 +153,36 @@ def _tariff_segments(network: Network, upper: np.ndarray) -> pd.DataFrame:
     if breaks.empty or lanes.empty:
         return pd.DataFrame()
     position = pd.Index(lanes.index).get_indexer(breaks["lane"].to_numpy())
-    breaks = breaks.assign(pos=position)[position >= 0]
-    records = []
+    breaks = breaks[position >= 0]
+    position = position[position >= 0]
     rates = lanes["cost_per_unit"].to_numpy(dtype=float)
-    for pos, group in breaks.groupby("pos", sort=True):
-        top = float(upper[pos])
-        if not top > 0:
-            continue  # the lane can carry nothing
-        starts = [0.0, *group["from_volume"].tolist()]
-        lane_rates = [float(rates[pos]), *group["cost_per_unit"].tolist()]
-        kind = group["kind"].iloc[0]
-        # An incremental segment starting at the bound is empty; an all-units bracket starting there still applies.
-        kept = [j for j, start in enumerate(starts) if start < top or (kind == "all_units" and start <= top)]
-        convex = bool(np.all(np.diff([lane_rates[j] for j in kept]) >= 0))
-        for j in kept:
-            end = starts[j + 1] if j + 1 < len(starts) and starts[j + 1] <= top else top
-            if kind == "all_units" and j + 1 in kept and lane_rates[j + 1] > lane_rates[j]:
-                end -= RISING_STEP * max(1.0, end)  # a dearer bracket starts *at* its break (module docstring)
-            records.append((pos, int(lanes.index[pos]), j, starts[j], end, lane_rates[j], float(rates[pos]), kind,
-                            convex))
-    return pd.DataFrame(records, columns=["pos", "lane", "j", "start", "end", "rate", "base", "kind", "convex"])
+    # Every lane with breaks: its own rate from 0 (j = 0), then one segment per break (j = 1, 2, ...), in order.
+    first = np.unique(position)
+    kind_of = pd.Series(breaks["kind"].to_numpy(), index=position).groupby(level=0).first()
+    frame = pd.concat([
+        pd.DataFrame({"pos": first, "j": 0, "start": 0.0, "rate": rates[first]}),
+        pd.DataFrame({"pos": position, "j": breaks.groupby(position).cumcount().to_numpy() + 1,
+                      "start": breaks["from_volume"].to_numpy(dtype=float),
+                      "rate": breaks["cost_per_unit"].to_numpy(dtype=float)}),
+    ], ignore_index=True).sort_values(["pos", "j"], kind="stable").reset_index(drop=True)
+    pos = frame["pos"].to_numpy()
+    frame["kind"] = kind_of.reindex(pos).to_numpy()
+    frame["base"] = rates[pos]
+    top = upper[pos]
+    all_units = (frame["kind"] == "all_units").to_numpy()
+    start = frame["start"].to_numpy()
+    same_lane = np.r_[pos[1:] == pos[:-1], False]
+    next_start = np.where(same_lane, np.r_[start[1:], np.inf], np.inf)
+    next_rate = np.where(same_lane, np.r_[frame["rate"].to_numpy()[1:], np.nan], np.nan)
+    # An incremental segment starting at the bound is empty; an all-units bracket starting there still applies.
+    keep = (top > 0) & ((start < top) | (all_units & (start <= top)))
+    end = np.where(next_start <= top, next_start, top)
+    rising = all_units & (next_start <= top) & (next_rate > frame["rate"].to_numpy())
+    end = np.where(rising, end - RISING_STEP * np.maximum(1.0, end), end)  # the dearer bracket starts at its break
+    frame = frame.assign(end=end, lane=lanes.index.to_numpy()[pos])[keep].reset_index(drop=True)
+    falls = frame.groupby("pos")["rate"].diff() < 0
+    frame["convex"] = ~falls.groupby(frame["pos"]).transform("any").to_numpy()
+    return frame[["pos", "lane", "j", "start", "end", "rate", "base", "kind", "convex"]]
 
 
 def add_rate_breaks(model: Assembly, network: Network, flow: np.ndarray, upper: np.ndarray

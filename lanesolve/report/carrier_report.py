@@ -73,3 +73,12 @@ def summary_extra(result, changes: PlanChanges | None, settings) -> dict:
     units, currency = settings.units or "", settings.currency or ""
     return {"changes": changes_context(changes, units, currency), "carriers": carriers_context(result, units,
                                                                                                 currency)}
+
+
+def change_lines(changes: PlanChanges | None, settings) -> list[str]:
+    """The terminal's lines on what changed: the headline (one line when there is no earlier run) and the summary
+    sentences of the HTML section."""
+    context = changes_context(changes, settings.units or "", settings.currency or "")
+    if context is None:
+        return []
+    return [context["title"] + (":" if context["lines"] else "")] + [f"  {line}" for line in context["lines"]]
