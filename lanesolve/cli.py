@@ -175,12 +175,14 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
 
 
 def _write_email(path: str, outcome, attach_workbook: bool) -> None:
+    from lanesolve.report.carrier_report import summary_extra
     from lanesolve.report.mail import write_email
 
     try:
         write_email(outcome.plan.mail.real, outcome.network, outcome.result, outcome.info, outcome.warnings,
                     attach=outcome.info.output_path if attach_workbook else None,
-                    comparison=getattr(outcome, "comparison", None))
+                    comparison=getattr(outcome, "comparison", None),
+                    extra=summary_extra(outcome.result, getattr(outcome, "changes", None), outcome.network.settings))
     except WriteError as error:
         # The workbook and summary are written by now; say so rather than let "not written" cover them too.
         raise WriteError(f"the results were written to {outcome.info.output_path} and "
