@@ -85,8 +85,10 @@ TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips
 #: moves one unit down / up (inf: not possible with the plan's other decisions; NaN: not binding) and a sentence.
 CARRIER_RESULT_COLUMNS = ["carrier", "lanes", "volume", "share", "cost", "commitment", "bound", "state",
                           "cost_one_less", "cost_one_more", "text"]
-#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`).
-SENSITIVITY_COLUMNS = ["figure", "item", "value", "unique", "basis", "text"]
+#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`): ``value_up`` is what one more unit
+#: costs (demand) or saves (a capacity), ``value_down`` what one unit less saves or costs; ``value`` is the figure when
+#: both sides agree (``unique``), NaN when they differ; ``inf`` marks a side with no plan.
+SENSITIVITY_COLUMNS = ["figure", "item", "value", "value_up", "value_down", "unique", "basis", "text"]
 
 
 def singular(units: str) -> str:
@@ -275,6 +277,8 @@ class Result:
             "trips": [{"origin": r.origin, "destination": r.destination, "mode": r.mode, "trips": int(r.trips)}
                       for r in self.trips.itertuples(index=False)],
             "sensitivity": [{"figure": r.figure, "item": r.item, "value": num(r.value) if r.unique else None,
+                             "value_up": num(getattr(r, "value_up", r.value)),
+                             "value_down": num(getattr(r, "value_down", r.value)),
                              "unique": bool(r.unique), "basis": r.basis, "text": r.text}
                             for r in self.sensitivity.itertuples(index=False)],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
