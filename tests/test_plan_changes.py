@@ -46,8 +46,7 @@ def test_a_first_run_says_there_is_no_earlier_run(tmp_path):
     outcome = run(path)
     doc = outcome.to_json()
     assert doc["changes"] == [] and doc["changes_summary"] is None
-    rows = [[c.value for c in r] for r in openpyxl.load_workbook(path)["LS Changes"].iter_rows()]
-    assert rows[1][0] == "No earlier run" and len(rows) == 2
+    assert "LS Changes" not in openpyxl.load_workbook(path).sheetnames  # nothing to list: one line elsewhere
     page = (tmp_path / "plan-summary.html").read_text(encoding="utf-8")
     assert "No earlier run: the workbook holds no results of an earlier lanesolve run" in page
 

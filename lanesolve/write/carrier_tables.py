@@ -35,15 +35,14 @@ def carriers_sheet(result, settings) -> ResultSheet | None:
     return ResultSheet(CARRIERS_SHEET, [c for c, _ in spec], rows, dict(spec))
 
 
-def changes_sheet(changes: PlanChanges, settings) -> ResultSheet:
+def changes_sheet(changes: PlanChanges | None, settings) -> ResultSheet | None:
     """``"LS Changes"``: the earlier run's time, the cost change per component, the depots and hubs newly used or
-    no longer used, then every lane whose flow moved, largest move first. Without an earlier run: one row saying
-    so."""
+    no longer used, then every lane whose flow moved, largest move first. None without an earlier run (the summary
+    and the terminal say so in one line)."""
     labels = Labels.of(settings)
     columns = ["What", "Item", "Origin", "Destination", "Mode", "Earlier", "Now", "Change"]
-    if changes.earlier is None:
-        return ResultSheet(CHANGES_SHEET, columns, [["No earlier run", changes.headline, None, None, None, None,
-                                                     None, None]], {c: "text" for c in columns[:5]})
+    if changes is None or changes.earlier is None:
+        return None
     rows: list[list] = [["Earlier run", changes.earlier.run_at, None, None, None, None, None, None]]
     kinds: dict[tuple[int, int], str] = {}
     money = labels.money("Total cost")
