@@ -80,16 +80,16 @@ def apply_lane_costs(result: Result, network: Network, model: SparseModel, value
     if terms is None or not len(terms.lanes) or result.flows.empty:
         return
     charged = lane_cost(network, model, values)
-    touched = set(terms.lanes.tolist())
     lanes = network.lanes
-    key_to_lane = {key: i for i, key in zip(lanes.index, zip(lanes["origin"], lanes["destination"], lanes["mode"]))}
+    key = ["origin", "destination", "mode"]
     flows = result.flows
-    for row, key in enumerate(zip(flows["origin"], flows["destination"], flows["mode"])):
-        lane = key_to_lane.get(key)
-        if lane in touched:
-            cost = float(charged.get(lane, 0.0))
-            flows.iloc[row, flows.columns.get_loc("variable_cost")] = cost
-            flows.iloc[row, flows.columns.get_loc("cost_per_unit")] = cost / float(flows["flow"].iloc[row])
+    # Flow rows are the used active lanes in lane order; find each row's lane by its (unique) key.
+    lane_of_row = flows[key].merge(lanes[key].reset_index(), on=key, how="left")["index"].to_numpy()
+    touched = np.isin(lane_of_row, terms.lanes)
+    if touched.any():
+        cost = charged.reindex(lane_of_row[touched]).to_numpy(dtype=float)
+        flows.loc[touched, "variable_cost"] = cost
+        flows.loc[touched, "cost_per_unit"] = cost / flows.loc[touched, "flow"].to_numpy(dtype=float)
 
 
 def fixed_lp(model: SparseModel, values: np.ndarray) -> SparseModel:
