@@ -32,7 +32,7 @@ tight.
 
 - *Incremental, rates not falling* (convex :math:`C_l`): segment :math:`j` covers
   :math:`[\\beta_j, \\beta_{j+1}]`, :math:`0 \\le \\delta_{lj} \\le \\beta_{j+1} - \\beta_j` (the last up to
-  :math:`U_l`, unbounded when :math:`u_l = \\infty` and the model needs no bound). No binaries: a minimising LP fills
+  :math:`U_l`, which holds for the plans a planner means, see below). No binaries: a minimising LP fills
   the cheaper, earlier segments first, so the LP charges exactly :math:`C_l` (separable convex programming; the
   standard textbook result, e.g. Bazaraa, Sherali & Shetty, *Nonlinear Programming*, ch. 11 -- recalled from
   memory).
