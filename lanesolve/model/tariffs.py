@@ -37,13 +37,13 @@ tight.
   standard textbook result, e.g. Bazaraa, Sherali & Shetty, *Nonlinear Programming*, ch. 11 -- recalled from
   memory).
 - *Incremental, some rate lower than an earlier one* (concave somewhere): the incremental model (Croxton et al.'s
-  IM, after Markowitz & Manne 1957) with binaries :math:`w_{lj}` (``tariff_fill_use_<l>_<j>``, "segment
+  IM) with binaries :math:`w_{lj}` (``tariff_fill_use_<l>_<j>``, "segment
   :math:`j` is full"), :math:`j < J`: ``tariff_fill_<l>_<j>``: :math:`\\delta_{lj} \\ge (\\beta_{j+1} -
   \\beta_j) w_{lj}` and ``tariff_next_<l>_<j>``: :math:`\\delta_{l,j+1} \\le (\\beta_{j+2} - \\beta_{j+1})
   w_{lj}`, so a segment takes units only once every earlier one is full. The last segment's length is
   :math:`U_l - \\beta_J`: the derived bound, never a constant.
 - *All units*: the rate of the highest break reached applies to every unit, :math:`C_l(x) = r_j x` for
-  :math:`\\beta_j \\le x < \\beta_{j+1}`. The multiple choice model (Croxton et al.'s MCM; Jeroslow & Lowe 1984):
+  :math:`\\beta_j \\le x < \\beta_{j+1}`. The multiple choice model (Croxton et al.'s MCM):
   bracket binaries :math:`v_{lj}` (``tariff_pick_<l>_<j>``), ``tariff_lo_<l>_<j>``: :math:`\\delta_{lj} \\ge
   \\beta_j v_{lj}`, ``tariff_hi_<l>_<j>``: :math:`\\delta_{lj} \\le \\beta_{j+1} v_{lj}` (the last bracket up to
   :math:`U_l`), ``tariff_one_<l>``: :math:`\\sum_j v_{lj} \\le 1`. At exactly :math:`x = \\beta_{j+1}` both
