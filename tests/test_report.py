@@ -144,7 +144,7 @@ def test_page_is_self_contained(network, result):
 
 def test_caution_line_present(network, result):
     text = parse(report.render_html(network, result, make_info(), [])).text
-    # The sentence the issue asks for, word for word.
+    # The sentence the summary promises, word for word.
     assert ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
             "carrier contracts; local regulations and licensed professionals take precedence.") in text
 
