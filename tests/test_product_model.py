@@ -237,3 +237,25 @@ def test_single_sourcing_is_per_customer_and_product():
     assert result.status is SolveStatus.OPTIMAL
     assert result.total_cost == pytest.approx(7.0)
     assert "single_source_product_0_0" in build_product_model(net).row_names
+
+
+def test_carrier_commitment_and_minimum_charge_count_capacity_units_with_products():
+    # Arithmetic: ale (use 1) and bran (use 2) must reach Cobham: 3 ale + 2 bran = 7 capacity units. Carrier Kestrel
+    # runs the cheap lane (rate 1) and may carry at most 5 capacity units; the rail lane costs 3 each but at least its
+    # minimum charge of 10 once used. With x units on Kestrel's lane the cost is x + max(10, 3 (7 - x)), x <= 5:
+    # least at x = 11/3 (rail's 10/3 units cost exactly the minimum charge), 11/3 + 10 = 41/3.
+    import pandas as pd
+
+    net = make_network([{"id": "Ashby", "supply": 100}], [{"id": "Cobham", "demand": 0}],
+                       [{"origin": "Ashby", "destination": "Cobham", "cost_per_unit": 1, "carrier": "Kestrel"},
+                        {"origin": "Ashby", "destination": "Cobham", "mode": "rail", "cost_per_unit": 3,
+                         "minimum_charge": 10}])
+    net.carriers = pd.DataFrame({"id": ["Kestrel"], "min_volume": [math.nan], "max_volume": [5.0],
+                                 "max_share": [math.nan], "row": [2]})
+    net.products = make_products([{"id": "ale"}, {"id": "bran", "capacity_use": 2}],
+                                 [{"customer": "Cobham", "product": "ale", "demand": 3},
+                                  {"customer": "Cobham", "product": "bran", "demand": 2}], n_lanes=2)
+    result = solve(net, solver="highs")
+    assert result.status is SolveStatus.OPTIMAL
+    assert result.total_cost == pytest.approx(41 / 3, abs=1e-6)
+    assert result.flows["flow"].sum() == pytest.approx(7.0, abs=1e-6)

@@ -33,6 +33,8 @@ Constraints, replacing ``supply_``, ``balance_`` and ``hub_flow_`` of the single
   for every customer and product;
 - ``hub_flow_product_<h>_<k>``: inflow of :math:`k` equals outflow of :math:`k`;
 - ``hub_cap_<h>``: :math:`\\sum_{\\delta^-(h)} x_l \\le k_h` (capacity units);
+- carrier commitments, minimum charges and rate breaks (:mod:`lanesolve.model.tariffs`) apply to :math:`x_l`, in
+  capacity units; a carrier's share counts the units short of every product;
 - single sourcing per customer and product: ``source_product_<l>_<k>`` yes/no columns for the lanes into a
   single-sourced customer, ``source_link_<l>_<k>``: :math:`x_{lk} \\le (M_l / a_k)\\, y_{lk}` and
   ``single_source_product_<c>_<k>``: :math:`\\sum_{l \\in \\delta^-(c)} y_{lk} \\le 1`.
@@ -69,6 +71,7 @@ from lanesolve.model.formulation import (_Ends, _row_table, add_fixed_charge_lin
                                          fixed_charges_of_open_nodes, lane_bounds, needs_use)
 from lanesolve.model.network import Network
 from lanesolve.model.result import COST_COMPONENTS, DESIGN_COST_COMPONENTS
+from lanesolve.model.tariffs import add_carrier_terms
 
 
 @dataclasses.dataclass
@@ -298,12 +301,13 @@ def build_product_model(network: Network, linking: bool = True) -> SparseModel:
     add_lane_totals(model, network, ends, pairs, columns)
     add_product_supply(model, network, ends, pairs, columns)
     penalty = demand_penalties(network)
-    add_product_balance(model, network, ends, pairs, columns, penalty)
+    unmet_of_pair = add_product_balance(model, network, ends, pairs, columns, penalty)
     add_product_hubs(model, network, ends, pairs, columns)
 
     need = needs_use(flat)
     single = network.has_design and network.customers["single_source"].any()
-    bounds = lane_bounds(flat) if (need.any() or design or single) else np.zeros(len(lanes))
+    bounds = (lane_bounds(flat) if (need.any() or design or single or network.has_carrier_terms)
+              else np.zeros(len(lanes)))
     use = add_fixed_charge_links(model, flat, ends, need, bounds)
     constant = {}
     if design:
@@ -316,6 +320,10 @@ def build_product_model(network: Network, linking: bool = True) -> SparseModel:
                 add_open_links(model, flat, ends, kind, open_of_node, bounds)
             add_max_open(model, flat, kind, open_of_node)
         constant["fixed_node"] = fixed_charges_of_open_nodes(network)
-    return model.finish(constant=constant, lane_index=lanes.index.to_numpy(), unmet_index=np.zeros(0, dtype=np.int64),
+    # Carrier terms count capacity units on the lanes (flow_), as lane capacities do; a carrier's share counts the
+    # units short of every product.
+    unmet = unmet_of_pair[unmet_of_pair >= 0]
+    lane_cost_terms = add_carrier_terms(model, flat, flow, unmet, np.ones(len(unmet), dtype=bool), bounds, capacity)
+    return model.finish(lane_cost_terms=lane_cost_terms, constant=constant, lane_index=lanes.index.to_numpy(), unmet_index=np.zeros(0, dtype=np.int64),
                         big_m=dict(zip(lanes.index[need].tolist(), bounds[need].tolist())),
                         penalty=np.full(len(network.customers), np.nan), design=design, product_columns=pairs)

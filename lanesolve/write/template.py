@@ -399,7 +399,8 @@ def write_template(path: str | os.PathLike, force: bool = False) -> None:
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "blank.xlsx"
     >>> write_template(target)
     >>> openpyxl.load_workbook(target).sheetnames
-    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings', 'Products', 'Supply', 'Demand', 'Modes', 'Scenarios']
+    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Carriers', 'Rate breaks', 'Settings', 'Products', 'Supply',
+     'Demand', 'Modes', 'Scenarios']
     """
     if Path(path).suffix.lower() == ".xlsx":  # a wrong suffix gets save_atomically's own message
         path = paths.check_new_file(path, "the template", "template", force).real
