@@ -398,7 +398,7 @@ def write_template(path: str | os.PathLike, force: bool = False) -> None:
     >>> import tempfile, pathlib, openpyxl
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "blank.xlsx"
     >>> write_template(target)
-    >>> openpyxl.load_workbook(target).sheetnames
+    >>> openpyxl.load_workbook(target).sheetnames  # doctest: +NORMALIZE_WHITESPACE
     ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Carriers', 'Rate breaks', 'Settings', 'Products', 'Supply',
      'Demand', 'Modes', 'Scenarios']
     """
