@@ -59,8 +59,10 @@ class RunOutcome:
     comparison: pd.DataFrame | None = None
     plan: WritePlan | None = None
 
-    def to_json(self) -> dict:
-        doc = self.result.to_json()
+    def to_json(self, all_figures: bool = False) -> dict:
+        """The ``--json`` document; ``all_figures`` lists every sensitivity figure (see
+        :meth:`lanesolve.model.result.Result.to_json`), in the baseline and every scenario."""
+        doc = self.result.to_json(all_figures=all_figures)
         sources = self.network.cost_source_by_lane()
         if sources is not None:
             for flow in doc["flows"]:
@@ -68,7 +70,7 @@ class RunOutcome:
                 flow["distance"] = distance if distance == distance else None  # NaN -> null
                 flow["cost_source"] = source
         if self.scenario_results:
-            doc["scenarios"] = [{"scenario": name, **result.to_json()}
+            doc["scenarios"] = [{"scenario": name, **result.to_json(all_figures=all_figures)}
                                 for name, result in self.scenario_results.items()]
         doc.update(
             input=self.info.input_path,
