@@ -261,6 +261,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
 
     network, warnings = validate.validate(raw)
     variants = scenario_networks(raw, network, scenario_names)
+    del raw  # the cell values (most of a gigabyte at a million lanes) are not needed once the network is built
     timings["validate"] = time.perf_counter() - tick
     tick = time.perf_counter()
 
