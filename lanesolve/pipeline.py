@@ -8,7 +8,7 @@ stage              module                      hands on
 read               :mod:`lanesolve.read.reader`     :class:`~lanesolve.read.reader.RawWorkbook` (cell values)
 validate           :mod:`lanesolve.read.validate`   :class:`~lanesolve.model.network.Network` + warnings
 check              :mod:`lanesolve.model.checks`     reasons a plan cannot exist (before any solving)
-model and solve    :mod:`lanesolve.model.diagnose`   :class:`~lanesolve.model.result.Result`
+model and solve    :mod:`lanesolve.model.analyse`    :class:`~lanesolve.model.result.Result`
 write back         :mod:`lanesolve.write.writeback`  result sheets in the workbook (atomic replace)
 report             :mod:`lanesolve.report.summary`     ``<stem>-summary.html``
 =================  ==========================  ==================================================
@@ -36,7 +36,7 @@ from lanesolve.read import source
 from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.model import scenarios
-from lanesolve.model import diagnose
+from lanesolve.model import analyse
 from lanesolve.read import validate
 from lanesolve.write import writeback
 from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
@@ -134,9 +134,9 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     """Run the cheap checks, then the solver when they find nothing."""
     reasons = checks.presolve_checks(network)
     if reasons:
-        return checks.no_plan_result(network, reasons)
+        return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
     progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
-    return diagnose.solve_and_explain(network, time_limit=time_limit, solver=solver, msg=verbose)
+    return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose)
 
 
 def _no_pause(outcome: RunOutcome) -> None:

@@ -24,7 +24,7 @@ from lanesolve.cli import main
 from lanesolve.model.network import Settings, make_network
 from lanesolve.pipeline import RunInfo
 from lanesolve.model.sensitivity import FIXED_BASIS
-from lanesolve.model.solve import solve
+from lanesolve.model.analyse import solve_and_analyse as solve
 
 INFO = RunInfo("/plans/week-07.xlsx", "/plans/week-07.xlsx", "/plans/week-07-summary.html", "cd" * 32)
 
@@ -180,7 +180,8 @@ def test_html_shows_open_closed_trips_and_sensitivity_in_plain_words(solved):
     # the hand-worked figures, in the brief's wording
     assert "One more pallet at Runnelby would cost 4.00 EUR." in page
     assert "One more pallet of room in the planned trips on Quistmoor→Runnelby road would save 3.00 EUR." in page
-    assert "is not unique at this plan" in page  # Harrowquay's degenerate figure said honestly, with no number
+    # Harrowquay's figure (degenerate in the LP's duals) is exact from the plan: its trip has room, 1 per unit.
+    assert "One more pallet at Harrowquay would cost 1.00 EUR." in page
     assert "yes/no and trip decisions fixed" in page
     # the breakdown loops over the keys: the v2 components appear with their labels
     assert report.COST_LABELS["fixed_node"] in page and report.COST_LABELS["trips"] in page

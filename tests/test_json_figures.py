@@ -2,6 +2,7 @@
 ``sensitivity_omitted``, and lists every one with ``--all-figures``."""
 
 import json
+import math
 
 import pandas as pd
 import pytest
@@ -18,10 +19,10 @@ PARALLEL = 600  # lanes between one depot and one customer: one used, 599 unused
 def _figures(n_lanes: int) -> Result:
     rows = [{"figure": "marginal_cost", "item": "C1", "value": 12.5, "unique": True, "basis": "LP", "text": "c1"},
             {"figure": "supply_value", "item": "D1", "value": 3.0, "unique": True, "basis": "LP", "text": "d1"}]
-    # Figures n, n-1, ..., 1 so the smallest come last; the smallest is not unique, so it must sort last too.
+    # Figures n, n-1, ..., 1 so the smallest come last; one lane has no figure (NaN), so it must sort last.
     for k in range(n_lanes):
-        rows.append({"figure": "reduced_cost", "item": f"L{k}", "value": float(n_lanes - k),
-                     "unique": k != n_lanes - 1, "basis": "LP", "text": f"lane {k}"})
+        rows.append({"figure": "reduced_cost", "item": f"L{k}", "value": float(n_lanes - k) if k else math.nan,
+                     "unique": bool(k), "basis": "LP", "text": f"lane {k}"})
     return Result(SolveStatus.OPTIMAL, total_cost=1.0, sensitivity=pd.DataFrame(rows))
 
 

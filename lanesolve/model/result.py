@@ -81,8 +81,10 @@ def cost_order(keys) -> list[str]:
 OPEN_NODE_COLUMNS = ["node", "kind", "status", "open", "fixed_charge"]
 #: Columns of :attr:`Result.trips` (one row per lane with a trip capacity and flow > 0).
 TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips", "cost_per_trip", "trip_cost"]
-#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`).
-SENSITIVITY_COLUMNS = ["figure", "item", "value", "unique", "basis", "text"]
+#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`): ``value_up`` is what one more unit
+#: costs (demand) or saves (a capacity), ``value_down`` what one unit less saves or costs; ``value`` is the figure when
+#: both sides agree (``unique``), NaN when they differ; ``inf`` marks a side with no plan.
+SENSITIVITY_COLUMNS = ["figure", "item", "value", "value_up", "value_down", "unique", "basis", "text"]
 
 
 def singular(units: str) -> str:
@@ -282,6 +284,8 @@ class Result:
             "trips": [{"origin": r.origin, "destination": r.destination, "mode": r.mode, "trips": int(r.trips)}
                       for r in self.trips.itertuples(index=False)],
             "sensitivity": [{"figure": r.figure, "item": r.item, "value": num(r.value) if r.unique else None,
+                             "value_up": num(getattr(r, "value_up", r.value)),
+                             "value_down": num(getattr(r, "value_down", r.value)),
                              "unique": bool(r.unique), "basis": r.basis, "text": r.text}
                             for r in self.sensitivity.itertuples(index=False)],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
@@ -298,14 +302,13 @@ def capped_figures(sensitivity: pd.DataFrame, limit: int = JSON_UNUSED_LANES) ->
     """The sensitivity figures with at most ``limit`` unused lanes, and how many unused lanes were left out.
 
     Every figure of another kind is kept, in its order; then the unused lanes nearest to paying, as *LS
-    Sensitivity* chooses them: the smallest ``value_up`` where the frame has both sides, else the unique figures
-    by ``value`` before the not-unique ones; a lane with no figure last, the model's order among equals.
+    Sensitivity* chooses them: the smallest ``value_up`` (``value`` in a frame without it) first, a lane no plan
+    can use (``inf``) after every finite one, a lane without a figure (NaN) last, the model's order among equals.
 
     Examples
     --------
     >>> frame = pd.DataFrame({"figure": ["marginal_cost", "reduced_cost", "reduced_cost", "reduced_cost"],
-    ...                       "item": ["C1", "a", "b", "c"], "value": [4.0, 3.0, float("nan"), 1.0],
-    ...                       "unique": [True, True, False, True]})
+    ...                       "item": ["C1", "a", "b", "c"], "value": [4.0, 3.0, float("nan"), 1.0]})
     >>> kept, omitted = capped_figures(frame, limit=1)
     >>> kept["item"].tolist(), omitted
     (['C1', 'c'], 2)
@@ -317,11 +320,8 @@ def capped_figures(sensitivity: pd.DataFrame, limit: int = JSON_UNUSED_LANES) ->
     if count <= limit:
         return sensitivity, 0
     lanes = sensitivity[unused]
-    if "value_up" in lanes.columns:
-        keys = [lanes["value_up"].to_numpy(dtype=float)]
-    else:
-        keys = [lanes["value"].to_numpy(dtype=float), ~lanes["unique"].to_numpy(dtype=bool)]
-    # lexsort sorts by its last key first, puts NaN last and is stable: equal figures keep the model's order.
-    nearest = np.lexsort(keys)[:limit]
+    key = lanes["value_up"] if "value_up" in lanes.columns else lanes["value"]
+    # argsort puts NaN last; "stable" keeps the model's order among equal figures.
+    nearest = np.argsort(key.to_numpy(dtype=float), kind="stable")[:limit]
     return pd.concat([sensitivity[~unused], lanes.iloc[nearest]]), count - limit
 

@@ -27,7 +27,7 @@ from lanesolve.report import advice
 from lanesolve.report import charts as _charts
 from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
     CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
-from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, top_few
+from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, money_words, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
     from lanesolve.model.network import Network
@@ -284,7 +284,8 @@ def _lane_words(label: str) -> str:
     return label
 
 
-def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str) -> str:
+def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str,
+                         value_up: float | None = None, value_down: float | None = None) -> str:
     """One sensitivity figure in plain words, for the summary page and the mail.
 
     Parameters
@@ -299,6 +300,9 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         Whether the figure is the same in every optimal dual; when not, the sentence says so and shows no number.
     units, currency : str
         The workbook's labels.
+    value_up, value_down : float, optional
+        The two sides when they differ (what one more unit and one unit less cost or save; inf: no plan). Given,
+        the sentence states both.
 
     Returns
     -------
@@ -310,6 +314,8 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     'One more pallet at Runnelby would cost 43.34 EUR.'
     >>> sensitivity_sentence("reduced_cost", "Tarrowick -> Mellisford (rail)", 3.2, True, "pallets", "EUR")
     'Tarrowick→Mellisford rail would need to be 3.20 EUR per pallet cheaper before the plan used it.'
+    >>> sensitivity_sentence("marginal_cost", "Runnelby", math.nan, False, "pallets", "", 0.26, 0.18)
+    'One more pallet at Runnelby would cost 0.26; one less would save 0.18.'
     """
     one = singular(units or "units")
     lane = _lane_words(item)
@@ -320,6 +326,11 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         "lane_capacity_value": f"one more {one} of capacity on {lane}",
         "trip_capacity_value": f"one more {one} of room in the planned trips on {lane}",
     }
+    if not unique and value_up is not None and value_down is not None and figure != "reduced_cost":
+        return _two_sided(figure, subject.get(figure, f"{figure.replace('_', ' ')} of {item}"), value_up,
+                          value_down, currency)
+    if not unique and figure == "reduced_cost" and value_up is not None and math.isinf(value_up):
+        return f"{lane} is unused and no plan can use it as the plan's decisions stand."
     if not unique:
         if figure == "reduced_cost":
             return (f"{lane} is unused; how much cheaper it would need to be is not unique at this plan (the plan "
@@ -327,9 +338,9 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
         return (f"What {what} is worth is not unique at this plan (the plan is degenerate: more than one figure "
                 "fits it), so none is shown.")
-    amount = format_money(abs(value), currency)
+    amount = money_words(abs(value), currency)
     if figure == "reduced_cost":
-        if abs(value) < 0.005:
+        if abs(value) < 1e-9:
             return f"{lane} is unused, but a plan using it would cost no more (an equally cheap alternative)."
         return f"{lane} would need to be {amount} per {one} cheaper before the plan used it."
     what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
@@ -338,6 +349,18 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     else:
         verb = "would save" if value >= 0 else "would cost"
     return f"{what[0].upper()}{what[1:]} {verb} {amount}."
+
+
+def _two_sided(figure: str, what: str, up: float, down: float, currency: str) -> str:
+    """Both sides of a figure whose one-more and one-less values differ; a side without a plan is said so."""
+    more, less = ("cost", "save") if figure == "marginal_cost" else ("save", "cost")
+    first = (f"{what[0].upper()}{what[1:]} could not be met by any plan" if math.isinf(up)
+             else f"{what[0].upper()}{what[1:]} would {more} {money_words(up, currency)}")
+    if math.isnan(down):
+        return f"{first}."
+    second = ("one less would leave no plan" if math.isinf(down)
+              else f"one less would {less} {money_words(down, currency)}")
+    return f"{first}; {second}."
 
 
 #: Figures of the "What the plan is sensitive to" section, in order, each with its heading.
@@ -362,7 +385,8 @@ def _sensitivity_context(result: Result, units: str, currency: str) -> dict:
                 continue
             total = int((frame["figure"] == figure).sum())
             groups.append({"heading": heading, "more": max(total - len(rows), 0), "sentences": [
-                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency)
+                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency,
+                                     float(getattr(r, "value_up", r.value)), float(getattr(r, "value_down", r.value)))
                 for r in rows.itertuples(index=False)]})
     bases = sorted({str(b) for b in frame["basis"]}) if not frame.empty else []
     fixed = FIXED_BASIS in bases
@@ -447,6 +471,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
             ("Unmet demand", format_quantity(unmet_total, units), "unmet"),
             ("Lanes used", f"{len(result.flows):,d}", "lanes-used"),
         ]
+    elif getattr(result.diagnosis, "total_short", None) is not None:  # no plan: the least shortfall, first
+        kpis.append(("Least total shortfall", format_quantity(result.diagnosis.total_short, units), "shortfall"))
     kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
              ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)

@@ -192,6 +192,11 @@ def _summary_rows(network, result, info, labels: Labels) -> tuple[list[list], di
         ("Inactive lanes left out", inactive, "count"),
         ("Customers short", int(len(result.unmet)), "count"),
     ]
+    diagnosis = result.diagnosis
+    if diagnosis is not None and getattr(diagnosis, "total_short", None) is not None:
+        # Without a plan, the shortfall is the diagnosis's (the least possible), not the empty plan's.
+        rows[-1] = ("Customers short", int(len(diagnosis.short)), "count")
+        rows.append(("Total shortfall", float(diagnosis.total_short), "quantity"))
     rows += [("Message", str(message), "text") for message in result.messages]
     rows.append(("Caution", CAUTION, "text"))
     return [[item, value] for item, value, _ in rows], {(i, 1): kind for i, (_, _, kind) in enumerate(rows)}
@@ -354,45 +359,56 @@ MAX_REDUCED_COST_ROWS = 500
 def sensitivity_sheet(result) -> ResultSheet:
     """``"LS Sensitivity"``: the figures of ``result.sensitivity``, each in words, with its sentence and basis.
 
-    Every marginal cost and capacity value is listed; of the unused lanes' reduced costs, the
-    :data:`MAX_REDUCED_COST_ROWS` smallest (the lanes closest to being worth using), then one row counting the rest.
-    A figure that is not unique (a degenerate plan) has a blank value and ``unique`` "no"; its sentence says why.
-    With no figures (a plan not proven optimal, or the LP re-solve failed) the sheet holds one row saying so.
+    Every marginal cost and capacity value is listed with both sides (``one more unit``, ``one unit less``) and, when
+    they agree, the one ``value`` (``unique`` "yes"); cells keep full precision. Of the unused lanes' reduced costs,
+    the :data:`MAX_REDUCED_COST_ROWS` smallest (the lanes nearest to being worth using), then one row counting the
+    rest. A side with no plan is blank and its sentence says so. With no figures (a plan not proven optimal) the
+    sheet holds one row saying why.
     """
-    columns = ["figure", "item", "value", "unique", "basis", "in plain words"]
-    kinds = {"figure": "text", "item": "text", "value": "money", "unique": "text", "basis": "text",
-             "in plain words": "text"}
+    columns = ["figure", "item", "value", "one more unit", "one unit less", "unique", "basis", "in plain words"]
+    kinds = {"figure": "text", "item": "text", "value": "number", "one more unit": "number",
+             "one unit less": "number", "unique": "text", "basis": "text", "in plain words": "text"}
     frame = result.sensitivity
     reduced = frame["figure"] == "reduced_cost" if len(frame) else None
     left_out = 0
     if reduced is not None and int(reduced.sum()) > MAX_REDUCED_COST_ROWS:
         lanes = frame[reduced]
-        # Unique figures first, smallest first; a stable sort keeps the model's order among equals.
-        order = lanes.assign(_unsure=~lanes["unique"].astype(bool)).sort_values(["_unsure", "value"], kind="stable")
+        # Nearest to paying first; a lane no plan can use (inf) last; a stable sort keeps the model's order.
+        order = lanes.sort_values("value_up" if "value_up" in lanes else "value", kind="stable", na_position="last")
         left_out = len(lanes) - MAX_REDUCED_COST_ROWS
-        frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS].drop(columns="_unsure")])
+        frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS]])
+
+    def finite(value):
+        value = _plain(value)
+        return value if isinstance(value, (int, float)) and math.isfinite(value) else None
+
     rows = []
     for row in frame.itertuples(index=False):
+        if row.figure == "none":
+            rows.append(["none", None, None, None, None, None, _plain(row.basis), _plain(row.text)])
+            continue
+        up, down = getattr(row, "value_up", row.value), getattr(row, "value_down", row.value)
         rows.append([FIGURE_WORDS.get(row.figure, str(row.figure).replace("_", " ")), _plain(row.item),
-                     _plain(row.value) if bool(row.unique) else None, "yes" if bool(row.unique) else "no",
-                     _plain(row.basis), _plain(row.text)])
+                     finite(row.value) if bool(row.unique) else None, finite(up), finite(down),
+                     "yes" if bool(row.unique) else "no", _plain(row.basis), _plain(row.text)])
     if left_out:
-        rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None,
+        rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None, None, None,
                      f"... and {left_out:,} more unused lanes, each further from being worth using than those above "
                      "(lanesolve solve --json --all-figures lists every figure)."])
     if not rows:
         why = ("the plan is not proven optimal, so its marginal costs could mislead"
                if result.status.value != "optimal" else "the figures could not be computed for this plan")
-        rows.append(["none", None, None, None, None, f"No sensitivity figures: {why}."])
+        rows.append(["none", None, None, None, None, None, None, f"No sensitivity figures: {why}."])
     return ResultSheet(SENSITIVITY_SHEET, columns, rows, kinds)
 
 
 def why_no_plan_sheet(network, result) -> ResultSheet:
     """``"LS Why no plan"``: the diagnosis of an infeasible result (:class:`lanesolve.model.diagnose.Diagnosis`).
 
-    One row per finding: causes found before solving, customers who would go short (and by how much), lanes,
-    depots and hubs used to their limit with the bottleneck (the minimum cut) marked, notes, and the internal
-    penalty per unit short the re-solve used. Without a diagnosis the result's messages are listed as reasons.
+    One row per finding, the total and the causes first: the least total shortfall, causes found before solving,
+    design rules in the way, customers who would go short (and by how much), lanes, depots and hubs used to their
+    limit with the bottleneck marked and the raise each needs, notes, and the internal penalty per unit short the
+    re-solve used. Without a diagnosis the result's messages are listed as reasons.
     """
     units = network.settings.units or "units"
     columns = ["finding", "item", "demand", "short", "capacity", "used", "bottleneck", "penalty per unit",
@@ -405,14 +421,23 @@ def why_no_plan_sheet(network, result) -> ResultSheet:
     if diagnosis is None:
         rows += [["reason", *blank, str(m)] for m in result.messages]
         return ResultSheet(WHY_SHEET, columns, rows, kinds)
+    total = getattr(diagnosis, "total_short", None)
+    if total is not None:
+        rows.append(["total shortfall", None, None, _plain(total), None, None, None, None,
+                     diagnosis.causes(units)[0] if total > 0 else "no hard demand would go short"])
     rows += [["cause found before solving", *blank, str(c)] for c in diagnosis.structural]
+    rows += [["design rule in the way" if ok else "design rule tried", _plain(name), *blank[:6], str(text)]
+             for name, ok, text in getattr(diagnosis, "rules", [])]
     for r in diagnosis.short.itertuples(index=False):
         rows.append(["customer short", _plain(r.customer), _plain(r.demand), _plain(r.short), None, None, None, None,
                      f"would be {float(r.short):.6g} {units} short of its demand of {float(r.demand):.6g} {units}"])
     for r in diagnosis.saturated.itertuples(index=False):
         cut = bool(r.bottleneck)
+        raise_by = float(getattr(r, "raise_by", 0.0) or 0.0)
         rows.append([f"{r.kind} at its limit", _plain(r.item), None, None, _plain(r.capacity), _plain(r.used),
                      "yes" if cut else "no", None,
+                     f"part of the bottleneck: raise it by {raise_by:.6g} {units} (with the other limits raised by "
+                     "theirs) for a plan" if raise_by > 0 else
                      "part of the bottleneck: the capacity that runs out (raise it, or add a route around it)" if cut
                      else "used to its limit on the way; not part of the bottleneck found"])
     rows += [["note", *blank, str(n)] for n in diagnosis.notes]
