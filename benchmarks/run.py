@@ -69,6 +69,8 @@ class TreeSampler(threading.Thread):
         super().__init__(daemon=True)
         self.peak_kib = 0
         self.solver_peak_kib = 0
+        self.stage = "start"  # set from the pipeline's progress callback: which stage each sample belongs to
+        self.stage_peak_kib: dict[str, int] = {}
         self._stop_flag = threading.Event()
 
     @staticmethod
@@ -98,7 +100,9 @@ class TreeSampler(threading.Thread):
         while not self._stop_flag.wait(0.02):
             kids = sum((self._rss_kib(k) for k in self._children(me)), 0)
             self.solver_peak_kib = max(self.solver_peak_kib, kids)
-            self.peak_kib = max(self.peak_kib, self._rss_kib(me) + kids)
+            total = self._rss_kib(me) + kids
+            self.peak_kib = max(self.peak_kib, total)
+            self.stage_peak_kib[self.stage] = max(self.stage_peak_kib.get(self.stage, 0), total)
 
     def stop(self) -> None:
         self._stop_flag.set()
@@ -108,7 +112,8 @@ class TreeSampler(threading.Thread):
 def _rss_mb(sampler: TreeSampler) -> dict:
     sampler.stop()
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # KiB on Linux
-    return {"rss_python_mb": own, "rss_solver_mb": sampler.solver_peak_kib / 1024.0,
+    return {"rss_by_stage_mb": {k: v / 1024.0 for k, v in sampler.stage_peak_kib.items()},
+            "rss_python_mb": own, "rss_solver_mb": sampler.solver_peak_kib / 1024.0,
             "rss_peak_mb": max(own, sampler.peak_kib / 1024.0),
             "rss_children_getrusage_mb": resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0}
 
@@ -126,10 +131,18 @@ def child_ours(workbook: str, workdir: str, as_json: str = "") -> dict:
     import_s = time.perf_counter() - tick
     output = Path(workdir) / "ours-solved.xlsx"
     tick = time.perf_counter()
-    outcome = pipeline.run(workbook, output=output, write=True)
+    stages = {"reading": "read", "checking": "validate", "solving": "solve", "writing results": "write"}
+
+    def progress(stage, _limit) -> None:  # the pipeline's progress callback names the stage that starts
+        if SAMPLER is not None:
+            SAMPLER.stage = stages.get(stage, "solve" if stage else "after")
+
+    outcome = pipeline.run(workbook, output=output, write=True, progress=progress)
     json_mb = None
     if as_json:
         # What `lanesolve solve --json` does after the run: build the document and print it with indent=2.
+        if SAMPLER is not None:
+            SAMPLER.stage = "json"
         json_tick = time.perf_counter()
         printed = Path(workdir) / "ours-solved.json"
         with open(printed, "w", encoding="utf-8") as fh:
@@ -157,8 +170,13 @@ def child_naive(workbook: str, workdir: str) -> dict:
     return naive.measure(workbook, str(Path(workdir) / "naive-solved.xlsx"))
 
 
+#: The sampler of this child process, for :func:`child_ours` to tell it the stage.
+SAMPLER: TreeSampler | None = None
+
+
 def child_main(kind: str, args: list[str]) -> int:
-    sampler = TreeSampler()
+    global SAMPLER
+    sampler = SAMPLER = TreeSampler()
     sampler.start()
     try:
         doc = {"bare": child_bare, "ours": child_ours, "ours_json": child_ours_json,
@@ -265,6 +283,9 @@ def print_report(sizes: list[int], rows: dict[int, dict], command: str) -> None:
         line("  " + name, [get(n, "ours", key) for n in sizes])
     line("  peak RSS, process tree (MB)", [get(n, "ours", "rss_peak_mb") for n in sizes], "9.0f")
     line("    of which solver program (MB)", [get(n, "ours", "rss_solver_mb") for n in sizes], "9.0f")
+    for stage in ("read", "validate", "solve", "write"):
+        line(f"    peak while {stage} (MB)", [((rows[n].get("ours") or {}).get("rss_by_stage_mb") or {}).get(stage)
+                                              for n in sizes], "9.0f")
     line("  solved workbook (MB)", [get(n, "ours", "output_mb") for n in sizes], "9.1f")
     line("  objective", [get(n, "ours", "objective") for n in sizes], "9.0f")
     if any(rows[n].get("ours_json") for n in sizes):
@@ -273,6 +294,8 @@ def print_report(sizes: list[int], rows: dict[int, dict], command: str) -> None:
         line("  JSON printed (MB)", [get(n, "ours_json", "json_mb") for n in sizes], "9.1f")
         line("  end to end", [get(n, "ours_json", "total") for n in sizes])
         line("  peak RSS, process tree (MB)", [get(n, "ours_json", "rss_peak_mb") for n in sizes], "9.0f")
+        line("    peak while printing JSON (MB)", [((rows[n].get("ours_json") or {}).get("rss_by_stage_mb") or {})
+                                                  .get("json") for n in sizes], "9.0f")
     print("naive (pandas+openpyxl read, per-node lpSum, CBC, openpyxl load+save)")
     for key, name in (("read", "read"), ("build", "build model"), ("solve", "solve (CBC)"), ("write", "write back"),
                       ("total", "end to end")):
