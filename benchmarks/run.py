@@ -133,9 +133,17 @@ def child_ours(workbook: str, workdir: str, as_json: str = "") -> dict:
     tick = time.perf_counter()
     stages = {"reading": "read", "checking": "validate", "solving": "solve", "writing results": "write"}
 
+    cpu: dict[str, float] = {}  # CPU seconds of this Python process per stage (the solver program's are its own)
+    started = [None, time.process_time()]
+
     def progress(stage, _limit) -> None:  # the pipeline's progress callback names the stage that starts
+        name = stages.get(stage, "solve" if stage else "after")
+        now = time.process_time()
+        if started[0] is not None:
+            cpu[started[0]] = cpu.get(started[0], 0.0) + now - started[1]
+        started[:] = [name, now]
         if SAMPLER is not None:
-            SAMPLER.stage = stages.get(stage, "solve" if stage else "after")
+            SAMPLER.stage = name
 
     outcome = pipeline.run(workbook, output=output, write=True, progress=progress)
     json_mb = None
@@ -156,7 +164,7 @@ def child_ours(workbook: str, workdir: str, as_json: str = "") -> dict:
     timings["total"] = total
     return {"timings": timings, "import": import_s, "objective": float(result.total_cost),
             "status": result.status.value, "solver": result.solver, "solve_seconds": result.solve_seconds,
-            "output_mb": output.stat().st_size / 2 ** 20, "json_mb": json_mb}
+            "output_mb": output.stat().st_size / 2 ** 20, "json_mb": json_mb, "cpu": cpu}
 
 
 def child_ours_json(workbook: str, workdir: str) -> dict:
@@ -283,6 +291,9 @@ def print_report(sizes: list[int], rows: dict[int, dict], command: str) -> None:
         line("  " + name, [get(n, "ours", key) for n in sizes])
     line("  peak RSS, process tree (MB)", [get(n, "ours", "rss_peak_mb") for n in sizes], "9.0f")
     line("    of which solver program (MB)", [get(n, "ours", "rss_solver_mb") for n in sizes], "9.0f")
+    for stage in ("read", "validate", "solve", "write"):
+        line(f"  CPU s in Python: {stage}", [((rows[n].get("ours") or {}).get("cpu") or {}).get(stage)
+                                             for n in sizes])
     for stage in ("read", "validate", "solve", "write"):
         line(f"    peak while {stage} (MB)", [((rows[n].get("ours") or {}).get("rss_by_stage_mb") or {}).get(stage)
                                               for n in sizes], "9.0f")
