@@ -41,6 +41,7 @@ from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.report import carrier_report
 from lanesolve.model import scenarios
+from lanesolve.model.comparison import compare
 from lanesolve.model import analyse
 from lanesolve.model import tradeoff
 from lanesolve.read import validate
@@ -50,7 +51,7 @@ from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, W
 from lanesolve.model.network import Network
 from lanesolve.progress import ProgressCallback, no_progress
 from lanesolve.model.result import Result, SolveStatus
-from lanesolve.runinfo import RunInfo, file_checksum  # noqa: F401 (RunInfo is part of this module's API)
+from lanesolve.runinfo import RunInfo  # noqa: F401 (RunInfo is part of this module's API)
 from lanesolve.write.paths import WritePlan, summary_path_for  # noqa: F401 (part of this module's API)
 
 
@@ -67,8 +68,10 @@ class RunOutcome:
     plan: WritePlan | None = None
     changes: plan_changes.PlanChanges | None = None
 
-    def to_json(self) -> dict:
-        doc = self.result.to_json()
+    def to_json(self, all_figures: bool = False) -> dict:
+        """The ``--json`` document; ``all_figures`` lists every sensitivity figure (see
+        :meth:`lanesolve.model.result.Result.to_json`), in the baseline and every scenario."""
+        doc = self.result.to_json(all_figures=all_figures)
         sources = self.network.cost_source_by_lane()
         if sources is not None:
             for flow in doc["flows"]:
@@ -78,7 +81,7 @@ class RunOutcome:
         if self.changes is not None:
             doc["changes"], doc["changes_summary"] = self.changes.to_json()
         if self.scenario_results:
-            doc["scenarios"] = [{"scenario": name, **result.to_json()}
+            doc["scenarios"] = [{"scenario": name, **result.to_json(all_figures=all_figures)}
                                 for name, result in self.scenario_results.items()]
         doc.update(
             input=self.info.input_path,
@@ -277,6 +280,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
     variants = scenario_networks(raw, network, scenario_names)
     if tradeoff_points:
         tradeoff.require_emissions(network)
+    del raw  # the cell values (most of a gigabyte at a million lanes) are not needed once the network is built
     timings["validate"] = time.perf_counter() - tick
     tick = time.perf_counter()
 
@@ -291,7 +295,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
                         for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
-    comparison = scenarios.compare(result, scenario_results) if scenario_results else None
+    comparison = compare(result, scenario_results) if scenario_results else None
     outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison, plan,
                          plan_changes.compare_plans(earlier, result, network))
 

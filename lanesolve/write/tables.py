@@ -403,7 +403,7 @@ def sensitivity_sheet(result) -> ResultSheet:
     if left_out:
         rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None, None, None,
                      f"... and {left_out:,} more unused lanes, each further from being worth using than those above "
-                     "(lanesolve solve --json lists every figure)."])
+                     "(lanesolve solve --json --all-figures lists every figure)."])
     if not rows:
         why = ("the plan is not proven optimal, so its marginal costs could mislead"
                if result.status.value != "optimal" else "the figures could not be computed for this plan")
@@ -487,7 +487,7 @@ def frame_sheet(name: str, frame, kinds: dict[str, str], headers: dict[str, str]
 
 def scenario_sheet(comparison, settings=None) -> ResultSheet:
     """``"LS Scenarios"``: the baseline and every scenario side by side (the frame of
-    :func:`lanesolve.model.scenarios.compare`), with plain-word headers.
+    :func:`lanesolve.model.comparison.compare`), with plain-word headers.
 
     Every cost component the comparison has is a column, so the cost columns add up to the total cost. The change
     in percent is written as a fraction with a percent format.
