@@ -190,9 +190,9 @@ SETTINGS_ROWS = (
     Setting("single_source", FLAG, False,
             doc="yes or no (default no): whether customers whose own single_source is blank are served by exactly "
                 "one inbound lane."),
-    Setting("solver", CHOICE, "cbc", choices=("cbc", "highs"),
-            doc="cbc (default, bundled with PuLP) or highs (needs the optional highspy package: "
-                "pip install \"lanesolve[highs]\"). The command line option --solver overrides it."),
+    Setting("solver", CHOICE, "auto", choices=("auto", "cbc", "highs"),
+            doc="auto (default: the engine that fits the model, named on LS Summary), cbc (bundled with PuLP) or "
+                "highs (HiGHS through highspy). The command line option --solver overrides it."),
     Setting("rate_per_distance", NUMBER, None, minimum=0, unit="currency per unit per distance unit",
             doc="Transport rate used for lanes whose cost_per_unit is blank: cost = rate x distance. Blank means "
                 "every lane needs its cost_per_unit."),

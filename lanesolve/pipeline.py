@@ -128,13 +128,19 @@ def scenario_networks(raw: reader.RawWorkbook, network: Network,
 
 
 def _solve_one(network: Network, time_limit: float | None, verbose: bool, progress: ProgressCallback,
-               stage: str, solver: str | None = None) -> Result:
-    """Run the cheap checks, then the solver when they find nothing."""
+               stage: str, solver: str | None = None, started: float | None = None) -> Result:
+    """Run the cheap checks, then the solver when they find nothing.
+
+    ``started`` (a :func:`time.monotonic` time) is when the time limit began to run: the solver gets what is left
+    of it (the run's limit covers everything after reading).
+    """
     reasons = checks.presolve_checks(network)
     if reasons:
         return checks.no_plan_result(network, reasons)
-    progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
-    return diagnose.solve_and_explain(network, time_limit=time_limit, solver=solver, msg=verbose)
+    limit = time_limit if time_limit is not None else network.settings.time_limit_s
+    progress(stage, limit)
+    deadline = started + limit if started is not None and limit else None
+    return diagnose.solve_and_explain(network, time_limit=time_limit, solver=solver, msg=verbose, deadline=deadline)
 
 
 def _no_pause(outcome: RunOutcome) -> None:
@@ -181,8 +187,8 @@ def run(
         :class:`lanesolve.progress.TerminalProgress`.
     scenario_names : list of str, optional
         Solve only these scenarios of the Scenarios sheet (default: every one). The baseline is always solved.
-    solver : {"cbc", "highs"}, optional
-        Overrides the workbook's ``solver`` setting (CBC, bundled, is the default).
+    solver : {"auto", "cbc", "highs"}, optional
+        Overrides the workbook's ``solver`` setting (``auto``, the engine that fits the model, is the default).
     email : path-like, optional
         The mail the caller will write (``--email``): planned and checked with the other files before anything is
         read, so a clash or a missing folder stops the run before it writes anything. The path to write it to (a
@@ -250,6 +256,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
             set(guard.WRITABLE_SUFFIXES):
         guard.check_write_target(path, plan.workbook.given)  # by name alone: an .ods is refused unread
     raw, mark = _read(path)
+    read_done = time.monotonic()  # the time limit covers everything after reading
     if plan is not None:
         # By content after reading, so a file that is no workbook at all is called that (an input error).
         guard.check_write_target(path, plan.workbook.given)
@@ -264,7 +271,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
 
     output = plan.workbook.given if plan is not None else path
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), mark.sha256)
-    result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
+    result = _solve_one(network, time_limit, verbose, progress, "solving", solver, started=read_done)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick

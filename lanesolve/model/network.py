@@ -65,7 +65,7 @@ class Settings:
     max_open_depots: float | None = None
     max_open_hubs: float | None = None
     single_source: bool = False
-    solver: str = "cbc"
+    solver: str = "auto"
     rate_per_distance: float | None = None
     distance_unit: str = "km"
     circuity_factor: float = 1.2

@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.errors import SolverError
+from lanesolve.model import network_flow
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.formulation import build_sparse_model
 from lanesolve.model.network import Network
@@ -37,7 +38,7 @@ from lanesolve.model.result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMN
 #: Values smaller than this in magnitude are solver noise and are reported as 0.
 NOISE = 1e-9
 
-SOLVERS = ("cbc", "highs")
+SOLVERS = ("auto", "cbc", "highs")
 
 
 def _clean(values: np.ndarray) -> np.ndarray:
@@ -89,9 +90,13 @@ def node_balance(network: Network, outflow: dict[str, float], inflow: dict[str, 
 
 
 def solve_model(model: SparseModel, solver: str = "cbc", time_limit: float | None = None,
-                gap: float | None = None, msg: bool = False) -> Answer:
+                gap: float | None = None, msg: bool = False, deadline: float | None = None,
+                start: np.ndarray | None = None) -> Answer:
     """Run ``solver`` on ``model`` and return its :class:`~lanesolve.model.arrays.Answer` (values, and for an
     optimal LP the row duals and reduced costs, read from the solver).
+
+    ``deadline`` (a :func:`time.monotonic` time) stops CBC if it has not stopped itself on ``time_limit`` by then;
+    HiGHS keeps its ``time_limit`` on its own; ``start`` (a known plan's column values) is its first incumbent.
 
     Raises
     ------
@@ -101,14 +106,55 @@ def solve_model(model: SparseModel, solver: str = "cbc", time_limit: float | Non
     """
     if solver == "cbc":
         from lanesolve.model.cbc import solve_with_cbc  # late import: PuLP is loaded only when CBC runs
-        answer = solve_with_cbc(model, time_limit, gap)
+        answer = solve_with_cbc(model, time_limit, gap, deadline)
         if msg and answer.log:
             sys.stderr.write(answer.log)
         return answer
     if solver == "highs":
         from lanesolve.model.highs import solve_with_highs
-        return solve_with_highs(model, time_limit, gap, msg)
+        return solve_with_highs(model, time_limit, gap, msg, start)
     raise SolverError(f"unknown solver {solver!r} (choose one of: {', '.join(SOLVERS)})")
+
+
+def pick_engine(model: SparseModel) -> str:
+    """The engine ``auto`` gives a model the network-flow algorithm could not take.
+
+    HiGHS for a model with whole-number decisions: on the published facility-location sets it proves more cases
+    in the same time than CBC and keeps its time limit through presolve and the root LP (benchmarks/README.md,
+    *Engines*). CBC for a pure LP (one whose data the network-flow algorithm cannot scale to exact integers): on
+    large networks its simplex is several times faster than HiGHS's (the same table: the 1M-lane network).
+    """
+    return "highs" if model.is_mip else "cbc"
+
+
+#: Share of a MIP's time kept back from the engine, so that a plan can still be built when it stops without one
+#: (our choice, with the limit + 10 % + 5 s promise of README.md *Time limits* in mind), and its cap in seconds.
+CONSTRUCTION_SHARE, CONSTRUCTION_CAP = 0.05, 10.0
+#: Seconds a construction may always take, even when the engine used its whole share (the promise's + 5 s part).
+CONSTRUCTION_FLOOR = 2.0
+
+
+#: A MIP with at least this many columns gets, under ``auto``, a quick construction first (:data:`FIRST_SHARE` of
+#: its time), whose plan HiGHS then starts from: on the 100 x 1000 published facility sets HiGHS's first LP alone
+#: outlasts two minutes (benchmarks/README.md, *Time limits*), so without it the run would end on the small
+#: construction share. The size is our choice between those (100,000 columns) and the largest sets HiGHS proves in
+#: seconds (cap131 … cap134: 2,500 columns).
+LARGE_MIP = 20_000
+FIRST_SHARE = 0.5
+
+
+def _flow_answer(model: SparseModel, network: Network, flow) -> Answer:
+    """The network algorithm's plan as the model's column values, so one code path makes every Result."""
+    from ortools import __version__ as ortools_version
+
+    value = np.zeros(model.n_columns)
+    value[:len(model.lane_index)] = flow.lane_flow[model.lane_index]
+    value[model.columns("unmet_")] = flow.unmet[model.ids("unmet_")]
+    status = SolveStatus.OPTIMAL if flow.feasible else SolveStatus.INFEASIBLE
+    answer = Answer(status, value, np.zeros(model.n_rows), np.zeros(model.n_columns),
+                    solver=f"OR-Tools {ortools_version} min-cost flow (network algorithm)")
+    answer.bound = flow.objective if flow.feasible else None
+    return answer
 
 
 def plan_values(network: Network, model: SparseModel, values: np.ndarray) -> np.ndarray:
@@ -221,7 +267,7 @@ def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
 
 
 def solve(network: Network, time_limit: float | None = None, solver: str | None = None, msg: bool = False,
-          sensitivity: bool = False, linking: bool = True) -> Result:
+          sensitivity: bool = False, linking: bool = True, deadline: float | None = None) -> Result:
     """Build the model of :mod:`lanesolve.model.formulation` for ``network`` once and solve it.
 
     Parameters
@@ -267,20 +313,55 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     ('optimal', 10.0, None)
     """
     settings = network.settings
-    solver = (solver or getattr(settings, "solver", None) or "cbc").lower()
+    solver = (solver or getattr(settings, "solver", None) or "auto").lower()
     if solver not in SOLVERS:
         raise SolverError(f"unknown solver {solver!r} (choose one of: {', '.join(SOLVERS)})")
     limit = time_limit if time_limit is not None else settings.time_limit_s
     limit = float(limit) if limit is not None and limit > 0 else None
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
+    end = time.monotonic() + limit if limit is not None else None
+    if deadline is not None:
+        end = deadline if end is None else min(end, deadline)
 
+    flow = None
+    tick = time.perf_counter()
+    if solver == "auto" and network_flow.applies(network):
+        flow = network_flow.solve_flow(network)  # None: not exactly in integers; the LP engine takes it
+        if flow is not None and not (flow.feasible or flow.infeasible):
+            flow = None
+    flow_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     model = build_sparse_model(network, linking=linking)
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
-    answer = solve_model(model, solver, limit, gap, msg)
-    # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
-    solver_seconds = time.perf_counter() - tick
+    constructed = False
+    if flow is not None:
+        answer = _flow_answer(model, network, flow)
+        solver_seconds = flow_seconds
+    else:
+        engine = pick_engine(model) if solver == "auto" else solver
+        engine_end = end
+        if end is not None and model.is_mip:
+            engine_end = end - min(CONSTRUCTION_SHARE * limit_or(limit, end), CONSTRUCTION_CAP)
+        first = None
+        if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
+            from lanesolve.model.construct import construct
+            first = construct(model, FIRST_SHARE * max(end - time.monotonic(), 0.0))
+        engine_limit = None if engine_end is None else max(engine_end - time.monotonic(), 1.0)
+        answer = solve_model(model, engine, engine_limit, gap, msg,
+                             deadline=None if engine_end is None else time.monotonic() + engine_limit,
+                             start=None if first is None else plan_values(network, model, first.value))
+        if first is not None and not answer.status.has_plan:
+            first.solver = f"{answer.solver}, no plan of its own in its limit; plan by quick construction"
+            answer, constructed = first, True
+        elif first is not None and first.bound is not None:
+            answer.bound = first.bound if answer.bound is None else max(answer.bound, first.bound)
+        if answer.status is SolveStatus.NOT_SOLVED and end is not None:
+            built = _build_plan(network, model, answer, end)
+            if built is not None:
+                answer, constructed = built, True
+        # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
+        solver_seconds = time.perf_counter() - tick
 
     status = answer.status
     result = Result(status=status, solver=answer.solver, solve_seconds=solver_seconds)
@@ -308,12 +389,39 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         bound = min(answer.bound + model.objective_constant, result.total_cost)
         result.best_bound = bound
         result.mip_gap = max(0.0, (result.total_cost - bound) / max(abs(result.total_cost), 1e-9))
+    if constructed:
+        result.messages.append("The solver found no plan in its time limit; this plan was built by a quick "
+                               "construction (LP rounding) and is not proven optimal.")
     if status is SolveStatus.FEASIBLE:
         gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
         result.messages.append(f"The solver stopped on its time limit ({limit:g} s) before proving the plan "
                                f"optimal; the best possible plan may cost up to {gap_text} less than this one "
                                "(raise time_limit_s in Settings or use --time-limit).")
     return result
+
+
+def limit_or(limit: float | None, end: float) -> float:
+    """The run's limit in seconds, or the time to ``end`` when only a deadline was given."""
+    return limit if limit is not None else max(end - time.monotonic(), 0.0)
+
+
+def _build_plan(network: Network, model: SparseModel, stopped: Answer, end: float) -> Answer | None:
+    """A plan after the engine stopped without one: the network algorithm for a pure flow (exact, so optimal),
+    else the quick construction of :mod:`lanesolve.model.construct` in the time left (at least
+    :data:`CONSTRUCTION_FLOOR` seconds)."""
+    if not model.is_mip:
+        flow = network_flow.solve_flow(network) if network_flow.applies(network) else None
+        if flow is None or not flow.feasible:
+            return None
+        answer = _flow_answer(model, network, flow)
+        answer.solver = f"{stopped.solver}, stopped on its limit; then {answer.solver}"
+        return answer
+    from lanesolve.model.construct import construct  # late import: needed only when the engine found nothing
+
+    built = construct(model, max(end - time.monotonic(), CONSTRUCTION_FLOOR), stopped.bound)
+    if built is not None:
+        built.solver = f"{stopped.solver}, stopped on its limit; plan by quick construction ({built.solver})"
+    return built
 
 
 def _no_plan(network: Network, result: Result, status: SolveStatus, limit: float | None, is_mip: bool) -> None:
