@@ -37,16 +37,18 @@ from lanesolve.model.result import SolveStatus
 
 
 @contextlib.contextmanager
-def stdout_to_stderr():
-    """Send what native code writes to file descriptor 1 to 2 instead while inside the block.
+def stdout_to_stderr(silent: bool = False):
+    """Send what native code writes to file descriptor 1 to 2 instead (to nowhere when ``silent``) while inside
+    the block.
 
     highspy prints a banner on stdout whenever a solver object is made, even with output off; ``--json`` promises
-    stdout holds only the JSON document.
+    stdout holds only the JSON document, and a planner who did not ask for the solver's log need not see it.
     """
     sys.stdout.flush()
     saved = os.dup(1)
+    sink = os.open(os.devnull, os.O_WRONLY) if silent else None
     try:
-        os.dup2(2, 1)
+        os.dup2(2 if sink is None else sink, 1)
         yield
     finally:
         sys.stdout.flush()
@@ -55,6 +57,8 @@ def stdout_to_stderr():
         _flush_c_stdout()
         os.dup2(saved, 1)
         os.close(saved)
+        if sink is not None:
+            os.close(sink)
 
 
 def _flush_c_stdout() -> None:
@@ -123,7 +127,7 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
     highspy = _import_highspy()
     matrix = model.matrix.tocsc()
     tick = time.perf_counter()
-    with stdout_to_stderr():
+    with stdout_to_stderr(silent=not msg):
         highs = highspy.Highs()
         highs.setOptionValue("output_flag", bool(msg))
         if msg:

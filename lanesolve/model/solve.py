@@ -1,15 +1,25 @@
 """Solve a network: build the one model, run a solver on it, and turn its answer into a plain
 :class:`~lanesolve.model.result.Result`.
 
-Solvers
+Engines
 -------
-Both read the same :class:`~lanesolve.model.arrays.SparseModel` built by
+``"auto"`` (the default) picks per model: the network-flow algorithm of :mod:`lanesolve.model.network_flow`
+(OR-Tools' min-cost flow) for a pure min-cost flow it can take exactly, else :func:`pick_engine`. The LP engines both
+read the same :class:`~lanesolve.model.arrays.SparseModel` built by
 :func:`lanesolve.model.formulation.build_sparse_model`:
 
-- ``"cbc"`` (default): the CBC program bundled in PuLP's wheel (no system install needed), fed one MPS file
-  (:mod:`lanesolve.model.cbc`);
-- ``"highs"``: HiGHS in memory through the ``highspy`` package, ``pip install "lanesolve[highs]"``
-  (:mod:`lanesolve.model.highs`).
+- ``"cbc"``: the CBC program bundled in PuLP's wheel, fed one MPS file and stopped at the deadline if it has not
+  stopped itself (:mod:`lanesolve.model.cbc`);
+- ``"highs"``: HiGHS in memory through ``highspy`` (:mod:`lanesolve.model.highs`).
+
+Every answer, the network algorithm's too, becomes a Result through the same code (:func:`plan_values`, the cost
+breakdown from the model's per-component costs).
+
+Time limit
+----------
+The limit (or a ``deadline``) is kept: a MIP engine gets all but :data:`CONSTRUCTION_SHARE` of it, and when it stops
+without a plan, :mod:`lanesolve.model.construct` builds one (status ``feasible``, its gap against the best bound
+known); a pure flow an LP engine could not finish goes to the network algorithm.
 
 Each maps its own words to one :class:`~lanesolve.model.result.SolveStatus` (tables in those modules): a MIP stopped
 by the time limit with a plan in hand is ``feasible`` with its gap, never ``optimal``; an LP stopped early is
