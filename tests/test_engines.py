@@ -292,3 +292,37 @@ def test_constructed_plan_keeps_the_open_depot_limit(monkeypatch, seed):
     assert result.status is SolveStatus.FEASIBLE
     assert_design_plan_keeps_the_contract(net, result)
     assert result.total_cost >= exact.total_cost - TOL
+
+
+def test_a_pure_flow_cbc_could_not_finish_goes_to_the_network_algorithm(monkeypatch):
+    stand_in = slow_cbc(lambda command: False)
+    monkeypatch.setattr(cbc_module.subprocess, "Popen", stand_in)
+    monkeypatch.setattr(cbc_module, "INTERRUPT_GRACE", 0.0)
+    result = solve(beer_network(), solver="cbc", time_limit=1)
+    assert stand_in.signals == [signal.SIGINT, signal.SIGTERM]
+    assert result.status is SolveStatus.OPTIMAL  # the network algorithm is exact
+    assert "OR-Tools" in result.solver
+    assert result.total_cost == pytest.approx(8600, abs=TOL)  # PuLP BeerDistributionProblem.py optimum
+
+
+def test_the_run_gives_the_solver_what_is_left_of_the_limit_after_reading(monkeypatch, tmp_path):
+    import time
+
+    from lanesolve import pipeline
+    from lanesolve.model import diagnose
+
+    seen = {}
+    real = diagnose.solve_and_explain
+
+    def spy(network, **options):
+        if not seen:  # the baseline comes first; each scenario after it has its own limit
+            seen.update(options, now=time.monotonic())
+        return real(network, **options)
+
+    monkeypatch.setattr(diagnose, "solve_and_explain", spy)
+    book = Path(__file__).resolve().parent.parent / "example_workbooks" / "orvale_larder_supply.xlsx"
+    before = time.monotonic()
+    pipeline.run(book, write=False, time_limit=50)
+    # The deadline is the end of reading plus the limit: after the run began, and no later than 50 s after it.
+    assert before < seen["deadline"] <= before + 50 + 1e-6
+    assert seen["deadline"] > seen["now"]
