@@ -196,9 +196,17 @@ def best_bound(log_text: str, objective: float | None) -> float | None:
     return float(found[-1]) if found else None
 
 
-#: Seconds CBC gets after SIGINT to end its search and write its plan before it is terminated (our choice: the
-#: stop itself is immediate in the branch and bound; the rest is writing the solution file).
+#: Most seconds CBC gets after SIGINT to end its search and write its plan before it is terminated (our choice:
+#: the stop itself is immediate in the branch and bound; the rest is writing the solution file).
 INTERRUPT_GRACE = 3.0
+
+
+def interrupt_grace(time_limit: float | None) -> float:
+    """Seconds CBC gets after SIGINT: 5 % of the limit, at least 1 and at most :data:`INTERRUPT_GRACE` (a short
+    limit cannot afford a long wait; a first LP that ignores the interrupt would waste all of it)."""
+    if time_limit is None:
+        return INTERRUPT_GRACE
+    return min(INTERRUPT_GRACE, max(1.0, 0.05 * time_limit))
 
 
 def _interrupt(process: subprocess.Popen) -> None:
@@ -209,13 +217,14 @@ def _interrupt(process: subprocess.Popen) -> None:
         process.terminate()
 
 
-def run_watched(command: list[str], log, deadline: float | None) -> tuple[int | None, bool]:
+def run_watched(command: list[str], log, deadline: float | None, grace: float = INTERRUPT_GRACE
+                ) -> tuple[int | None, bool]:
     """Run CBC, stopping it at ``deadline`` (a :func:`time.monotonic` time) if it is still running.
 
     CBC checks its own ``-sec`` limit only between steps; in a long first LP it does not look at the clock at
     all. So at the deadline it gets SIGINT, its own "ctrl-c" stop: in the branch and bound it then ends the search
     and writes its best plan to the solution file like a time limit would ("Stopped on ..."). If it has not ended
-    after :data:`INTERRUPT_GRACE` seconds it gets SIGTERM, then SIGKILL; a program killed that way leaves no
+    after ``grace`` seconds (:func:`interrupt_grace`) it gets SIGTERM, then SIGKILL; a program killed that way leaves no
     solution file, and the caller builds a plan itself.
 
     Returns
@@ -234,7 +243,7 @@ def run_watched(command: list[str], log, deadline: float | None) -> tuple[int | 
             pass
         _interrupt(process)
         try:
-            return process.wait(timeout=INTERRUPT_GRACE), True
+            return process.wait(timeout=grace), True
         except subprocess.TimeoutExpired:
             pass
         for stop in (subprocess.Popen.terminate, subprocess.Popen.kill):
@@ -285,7 +294,7 @@ def solve_with_cbc(model: SparseModel, time_limit: float | None = None, gap: flo
         tick = time.perf_counter()
         try:
             with open(log_path, "w") as log:
-                code, stopped = run_watched(command, log, deadline)
+                code, stopped = run_watched(command, log, deadline, min(INTERRUPT_GRACE, interrupt_grace(time_limit)))
         except OSError as exc:
             raise SolverError(f"the CBC program could not be started ({exc}); reinstall PuLP: "
                               "pip install --force-reinstall pulp") from exc

@@ -17,7 +17,7 @@ breakdown from the model's per-component costs).
 
 Time limit
 ----------
-The limit (or a ``deadline``) is kept: a MIP engine gets all but :data:`CONSTRUCTION_SHARE` of it, and when it stops
+The limit (or a ``deadline``) is kept: a MIP engine gets all but a reserve (:func:`engine_deadline`), and when it stops
 without a plan, :mod:`lanesolve.model.construct` builds one (status ``feasible``, its gap against the best bound
 known); a pure flow an LP engine could not finish goes to the network algorithm.
 
@@ -138,10 +138,21 @@ def pick_engine(model: SparseModel) -> str:
 
 
 #: Share of a MIP's time kept back from the engine, so that a plan can still be built when it stops without one
-#: (our choice, with the limit + 10 % + 5 s promise of README.md *Time limits* in mind), and its cap in seconds.
-CONSTRUCTION_SHARE, CONSTRUCTION_CAP = 0.05, 10.0
-#: Seconds a construction may always take, even when the engine used its whole share (the promise's + 5 s part).
+#: (our choice, with the limit + 10 % + 5 s promise of README.md *Engines and time limits* in mind), at least
+#: :data:`CONSTRUCTION_FLOOR` and at most :data:`CONSTRUCTION_CAP` seconds.
+CONSTRUCTION_SHARE, CONSTRUCTION_CAP = 0.1, 15.0
+#: Seconds a construction may always take, even when the engine ran late.
 CONSTRUCTION_FLOOR = 2.0
+
+
+def engine_deadline(end: float, limit: float, is_mip: bool, engine: str) -> float:
+    """When the engine must stop: ``end`` less the construction's reserve (a MIP) and less the seconds CBC may
+    take to stop after its interrupt (:func:`lanesolve.model.cbc.interrupt_grace`)."""
+    reserve = min(max(CONSTRUCTION_SHARE * limit, CONSTRUCTION_FLOOR), CONSTRUCTION_CAP) if is_mip else 0.0
+    if engine == "cbc":
+        from lanesolve.model.cbc import interrupt_grace
+        reserve += interrupt_grace(limit)
+    return end - reserve
 
 
 #: A MIP with at least this many columns gets, under ``auto``, a quick construction first (:data:`FIRST_SHARE` of
@@ -350,9 +361,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         solver_seconds = flow_seconds
     else:
         engine = pick_engine(model) if solver == "auto" else solver
-        engine_end = end
-        if end is not None and model.is_mip:
-            engine_end = end - min(CONSTRUCTION_SHARE * limit_or(limit, end), CONSTRUCTION_CAP)
+        engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
         first = None
         if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
             from lanesolve.model.construct import construct
