@@ -29,7 +29,6 @@ The data is chosen so the plan is worth reading:
 from __future__ import annotations
 
 import argparse
-import copy
 import math
 import random
 import sys
@@ -180,16 +179,13 @@ SCENARIOS = (
 
 
 def _write_scenarios(book: openpyxl.Workbook) -> None:
-    """Add the Scenarios sheet (see README "Scenarios"), styled like the template's input sheets."""
-    ws = book.create_sheet("Scenarios")
-    header = ("scenario", "sheet", "match", "column", "change", "value")
-    ws.append(header)
+    """Fill the template's Scenarios sheet (see README "Scenarios") with the distributor's what-ifs, keeping its
+    header notes and drop-downs; the template's two example rows are replaced."""
+    ws = book["Scenarios"]
+    if ws.max_row > 1:
+        ws.delete_rows(2, ws.max_row - 1)
     for record in SCENARIOS:
         ws.append(record)
-    source = book[contract.LANES.name]["A1"]
-    for cell in ws[1]:
-        cell.font, cell.fill = copy.copy(source.font), copy.copy(source.fill)
-    ws.freeze_panes = "A2"
     for column, width in zip("ABCDEF", (34, 12, 36, 16, 10, 10)):
         ws.column_dimensions[column].width = width
 
@@ -197,7 +193,7 @@ def _write_scenarios(book: openpyxl.Workbook) -> None:
 def build_example(path: Path) -> None:
     """Write the invented distributor's workbook to ``path`` on top of the blank template."""
     rng = random.Random(SEED)
-    write_template(path)
+    write_template(path, force=True)  # this script owns the example: it rebuilds it on every run
     book = openpyxl.load_workbook(path)
 
     depots = []
@@ -237,7 +233,8 @@ def build_example(path: Path) -> None:
     guide.cell(row=row, column=1, value="About this example").font = Font(bold=True, size=12)
     guide.cell(row=row + 1, column=1, value=(
         "Orvale Larder Supply is an invented regional distributor: its company name, towns, coordinates and costs "
-        "are made up for this example and describe no real business or place."))
+        "are made up for this example and describe no real business or place. Its Scenarios sheet holds the "
+        "distributor's own five what-ifs in place of the template's two example rows."))
     save_atomically(book, path)
 
 
@@ -246,7 +243,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--out", type=Path, default=HERE, help="folder to write into (default: this folder)")
     args = parser.parse_args(argv)
     args.out.mkdir(parents=True, exist_ok=True)
-    write_template(args.out / TEMPLATE_NAME)
+    write_template(args.out / TEMPLATE_NAME, force=True)
     build_example(args.out / EXAMPLE_NAME)
     print(f"wrote {args.out / TEMPLATE_NAME} and {args.out / EXAMPLE_NAME}")
     return 0

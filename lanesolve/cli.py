@@ -139,7 +139,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from lanesolve.pipeline import run
     from lanesolve.progress import TerminalProgress, no_progress
-    from lanesolve.report.summary import terminal_lines
+    from lanesolve.report.text import terminal_lines
 
     if attach_workbook and not email_path:
         raise click.UsageError("--attach-workbook needs --email PATH (the mail to attach the workbook to)")
@@ -165,7 +165,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     if as_json:
         click.echo(json.dumps(outcome.to_json(), indent=2))
     if not quiet:
-        for line in terminal_lines(outcome.network, outcome.result, outcome.info):
+        for line in terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison):
             _say(line, err=as_json)
         if email_path:
             _say(f"Mail written to {email_path}" + (" (solved workbook attached)" if attach_workbook else ""),
@@ -177,7 +177,8 @@ def _write_email(path: str, outcome, attach_workbook: bool) -> None:
 
     try:
         write_email(outcome.plan.mail.real, outcome.network, outcome.result, outcome.info, outcome.warnings,
-                    attach=outcome.info.output_path if attach_workbook else None)
+                    attach=outcome.info.output_path if attach_workbook else None,
+                    comparison=getattr(outcome, "comparison", None))
     except WriteError as error:
         # The workbook and summary are written by now; say so rather than let "not written" cover them too.
         raise WriteError(f"the results were written to {outcome.info.output_path} and "

@@ -8,7 +8,7 @@ stage              module                      hands on
 read               :mod:`lanesolve.read.reader`     :class:`~lanesolve.read.reader.RawWorkbook` (cell values)
 validate           :mod:`lanesolve.read.validate`   :class:`~lanesolve.model.network.Network` + warnings
 check              :mod:`lanesolve.model.checks`     reasons a plan cannot exist (before any solving)
-model and solve    :mod:`lanesolve.model.diagnose`   :class:`~lanesolve.model.result.Result`
+model and solve    :mod:`lanesolve.model.analyse`    :class:`~lanesolve.model.result.Result`
 write back         :mod:`lanesolve.write.writeback`  result sheets in the workbook (atomic replace)
 report             :mod:`lanesolve.report.summary`     ``<stem>-summary.html``
 =================  ==========================  ==================================================
@@ -36,7 +36,7 @@ from lanesolve.read import source
 from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.model import scenarios
-from lanesolve.model import diagnose
+from lanesolve.model import analyse
 from lanesolve.read import validate
 from lanesolve.write import writeback
 from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
@@ -109,7 +109,7 @@ def scenario_networks(raw: reader.RawWorkbook, network: Network,
             raise WorkbookError(Problem(scenarios.SHEET, None, None, None, "the workbook has no Scenarios sheet",
                                         "add one, or leave out --scenario"))
         return {}
-    parsed, problems = scenarios.parse_scenarios(sheet.rows)
+    parsed, problems = scenarios.parse_scenarios(sheet.rows, sheet.percent_cells)
     by_name = {s.name: s for s in parsed}
     for name in only or []:
         if name not in by_name:
@@ -136,11 +136,11 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     """
     reasons = checks.presolve_checks(network)
     if reasons:
-        return checks.no_plan_result(network, reasons)
+        return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
     limit = time_limit if time_limit is not None else network.settings.time_limit_s
     progress(stage, limit)
     deadline = started + limit if started is not None and limit else None
-    return diagnose.solve_and_explain(network, time_limit=time_limit, solver=solver, msg=verbose, deadline=deadline)
+    return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose, deadline=deadline)
 
 
 def _no_pause(outcome: RunOutcome) -> None:
@@ -271,6 +271,8 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
 
     output = plan.workbook.given if plan is not None else path
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), mark.sha256)
+    if plan is not None:  # a planner's sheet named like a result sheet stops the run before any solving
+        writeback.check_result_sheets(path)
     result = _solve_one(network, time_limit, verbose, progress, "solving", solver, started=read_done)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)
                         for name, variant in variants.items()}
@@ -291,7 +293,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
         progress("writing results", None)
         sheets = writeback.result_sheets(network, result, info)
         if comparison is not None:
-            sheets.append(writeback.scenario_sheet(comparison))
+            sheets.append(writeback.scenario_sheet(comparison, network.settings))
         writeback.write_results(path, plan.workbook.real, sheets, before_replace=unchanged)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()

@@ -25,6 +25,9 @@ REL_NS = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 #: Parts write_results is allowed to edit; every other original member must keep its bytes.
 INDEX_PARTS = {"xl/workbook.xml", "xl/_rels/workbook.xml.rels", "[Content_Types].xml", "docProps/app.xml"}
+#: Every part the writer may change: the index parts, and styles.xml, which gains the result sheets' number formats
+#: at its end (tests/test_writeback.py proves every existing style entry stays as it was).
+EDITED_PARTS = INDEX_PARTS | {"xl/styles.xml"}
 #: Stand-in bytes for a macro project: only its survival is tested, never its content.
 FAKE_VBA = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"lanesolve test macro part, not a real project" * 4
 

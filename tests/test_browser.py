@@ -164,3 +164,22 @@ def test_figures_shown_equal_the_plan(browser, solved):
     customers = set(network.customers["id"])
     inbound = float(result.flows[result.flows["destination"].isin(customers)]["flow"].sum())
     assert math.isclose(inbound, _number(shown("delivered")), abs_tol=0.005 + 1e-6)
+
+
+def test_cost_chart_numbers_equal_the_cost_table(browser, solved):
+    # The planners' finding: the chart said transport 91 % / handling 9 % beside a table with a third component.
+    # The browser reads the table as laid out; the chart's figures come from the SVG the page's <img> shows.
+    from selenium.webdriver.common.by import By
+
+    from test_cost_agreement import chart_rows
+
+    _load(browser, solved[1], 800)
+    table = [tuple(cell.text for cell in row.find_elements(By.TAG_NAME, "td")[:3])
+             for row in browser.find_elements(By.CSS_SELECTOR, "#cost-table tr[data-key]")]
+    src = browser.execute_script(
+        "return Array.from(document.images).find(i => i.alt.startsWith('Cost breakdown')).src;")
+    chart = chart_rows(base64.b64decode(src.split(",", 1)[1]).decode("utf-8"))
+    assert table and chart == table
+    assert sum(_number(share) for _label, _amount, share in table) == pytest.approx(100.0, abs=0.05 * len(table))
+    assert math.isclose(sum(_number(amount) for _label, amount, _share in table), solved[0].result.total_cost,
+                        abs_tol=0.005 * len(table) + 1e-9)

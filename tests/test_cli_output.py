@@ -19,7 +19,13 @@ def test_default_summary_is_compact(tmp_path):
     run = invoke(EXAMPLE, "--output", tmp_path / "s.xlsx")
     assert run.exit_code == 0, run.output
     lines = run.output.strip().splitlines()
-    assert len(lines) <= 6
+    # four lines of figures, then one line per scenario (the example has five, plus the baseline) and per
+    # "What to do next" sentence, each under its heading; nothing else
+    steps = lines.index("What to do next:")
+    scenarios = lines.index("Scenarios (total cost, change against the baseline, not delivered):")
+    assert scenarios < steps and steps - scenarios == 1 + 6
+    assert all(line.startswith("  - ") for line in lines[steps + 1:-1])
+    assert len(lines) <= 4 + 7 + 1 + 10
     assert lines[0].startswith("Status: Optimal plan (optimal)")
     assert any(line.startswith("Total cost: ") and line.endswith(" EUR") for line in lines)
     assert any("s-summary.html" in line for line in lines)

@@ -29,10 +29,10 @@ def no_solver(monkeypatch):
     def refuse(*_args, **_kwargs):
         raise AssertionError("the solver ran although the files to write were refused")
 
-    from lanesolve.model import diagnose
+    from lanesolve.model import analyse
 
-    # diagnose.solve_and_explain is what the pipeline calls to solve (looked up on the module at each call).
-    monkeypatch.setattr(diagnose, "solve_and_explain", refuse)
+    # analyse.solve_and_analyse is what the pipeline calls to solve (looked up on the module at each call).
+    monkeypatch.setattr(analyse, "solve_and_analyse", refuse)
 
 
 def _solve(*args):

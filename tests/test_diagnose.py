@@ -8,7 +8,7 @@ import lanesolve.model.solve as solve_module
 from lanesolve.model.checks import no_plan_result, presolve_checks
 from lanesolve.model.diagnose import dominating_penalty, structural_causes
 from lanesolve.model.network import Settings, make_network
-from lanesolve.model.diagnose import solve_and_explain
+from lanesolve.model.analyse import solve_and_analyse
 
 TOL = 1e-6
 
@@ -27,7 +27,7 @@ def bottleneck_case():
 def test_diagnosis_names_short_customer_and_saturated_capacity():
     net = bottleneck_case()
     assert presolve_checks(net) == []  # nothing structural: only the solver can tell
-    result = solve_and_explain(net)
+    result = solve_and_analyse(net)
     assert result.status.value == "infeasible"
     # Independent check (source: networkx maximum_flow): the most that reaches the customers is 9 of 13.
     g = nx.DiGraph()
@@ -56,7 +56,7 @@ def test_diagnosis_names_saturated_depot_supply():
                        [{"id": "A", "demand": 8}, {"id": "B", "demand": 8}],
                        [{"origin": "D", "destination": "A", "cost_per_unit": 1},
                         {"origin": "D", "destination": "B", "cost_per_unit": 2}])
-    result = solve_and_explain(net)
+    result = solve_and_analyse(net)
     assert result.status.value == "infeasible"
     assert result.diagnosis.short["short"].sum() == pytest.approx(6.0, abs=TOL)
     cut = result.diagnosis.saturated[result.diagnosis.saturated["bottleneck"]]

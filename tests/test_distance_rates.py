@@ -201,7 +201,7 @@ def test_lane_flows_sheet_shows_distance_and_cost_source(make_workbook, tmp_path
     book = openpyxl.load_workbook(outcome.info.output_path, read_only=True)
     rows = list(book[writeback.FLOWS_SHEET].iter_rows(values_only=True))
     header = list(rows[0])
-    assert header[-2:] == ["distance", "cost_source"]
+    assert header[-2:] == ["Distance (km)", "Cost source"]  # plain words, the unit in the header
     lanes = outcome.network.lanes.assign(**outcome.network.cost_sources()[["distance", "cost_source"]])
     by_lane = {(o, d): (dist, src) for o, d, dist, src in
                zip(lanes["origin"], lanes["destination"], lanes["distance"], lanes["cost_source"])}

@@ -18,12 +18,13 @@ from click.testing import CliRunner
 from conftest import write_workbook
 
 from lanesolve.report import summary as report
+from lanesolve.report import text as report_text
 from lanesolve.write import writeback
 from lanesolve.cli import main
 from lanesolve.model.network import Settings, make_network
 from lanesolve.pipeline import RunInfo
 from lanesolve.model.sensitivity import FIXED_BASIS
-from lanesolve.model.solve import solve
+from lanesolve.model.analyse import solve_and_analyse as solve
 
 INFO = RunInfo("/plans/week-07.xlsx", "/plans/week-07.xlsx", "/plans/week-07-summary.html", "cd" * 32)
 
@@ -83,50 +84,50 @@ def test_v2_plan_writes_design_trips_and_sensitivity_sheets_in_order(solved):
 
 def test_design_sheet_matches_the_hand_worked_decisions(solved):
     network, result = solved
-    rows = {r["depot or hub"]: r for r in records(sheet(writeback.result_sheets(network, result, INFO),
+    rows = {r["Depot or hub"]: r for r in records(sheet(writeback.result_sheets(network, result, INFO),
                                                         "LS Depots and hubs"))}
     # By hand (design_network): Quistmoor opens and pays 10, Tarrowick was given open, Mellisford stays closed.
-    assert (rows["Quistmoor"]["status given"], rows["Quistmoor"]["decision"]) == ("decide", "open")
-    assert rows["Quistmoor"]["fixed charge paid"] == pytest.approx(10.0, abs=1e-6)
-    assert (rows["Tarrowick"]["status given"], rows["Tarrowick"]["decision"]) == ("open", "open")
-    assert (rows["Mellisford"]["decision"], rows["Mellisford"]["fixed charge paid"]) == ("closed", 0.0)
+    assert (rows["Quistmoor"]["Status given"], rows["Quistmoor"]["Decision"]) == ("decide", "open")
+    assert rows["Quistmoor"]["Fixed charge paid (EUR)"] == pytest.approx(10.0, abs=1e-6)
+    assert (rows["Tarrowick"]["Status given"], rows["Tarrowick"]["Decision"]) == ("open", "open")
+    assert (rows["Mellisford"]["Decision"], rows["Mellisford"]["Fixed charge paid (EUR)"]) == ("closed", 0.0)
     # Quistmoor ships 20 + 5 = 25 of its supply of 40: 62.5 %; Tarrowick 10 of 100.
-    assert rows["Quistmoor"]["throughput"] == pytest.approx(25.0, abs=1e-6)
-    assert rows["Quistmoor"]["capacity"] == pytest.approx(40.0)
-    assert rows["Quistmoor"]["utilisation %"] == pytest.approx(62.5, abs=1e-6)
-    assert rows["Tarrowick"]["throughput"] == pytest.approx(10.0, abs=1e-6)
+    assert rows["Quistmoor"]["Throughput (pallets)"] == pytest.approx(25.0, abs=1e-6)
+    assert rows["Quistmoor"]["Capacity (pallets; blank = no limit)"] == pytest.approx(40.0)
+    assert rows["Quistmoor"]["Utilisation"] == pytest.approx(0.625, abs=1e-6)  # shown as 62.5 %
+    assert rows["Tarrowick"]["Throughput (pallets)"] == pytest.approx(10.0, abs=1e-6)
     # and the sheet says the same as the Result it was built from
     for node in result.open_nodes.itertuples(index=False):
-        assert (rows[node.node]["decision"] == "open") == bool(node.open)
-        assert rows[node.node]["fixed charge paid"] == pytest.approx(node.fixed_charge, abs=1e-9)
+        assert (rows[node.node]["Decision"] == "open") == bool(node.open)
+        assert rows[node.node]["Fixed charge paid (EUR)"] == pytest.approx(node.fixed_charge, abs=1e-9)
 
 
 def test_trips_sheet_matches_the_result_and_the_fill_by_hand(solved):
     network, result = solved
-    rows = {(r["origin"], r["destination"]): r
+    rows = {(r["Origin"], r["Destination"]): r
             for r in records(sheet(writeback.result_sheets(network, result, INFO), "LS Trips"))}
     assert len(rows) == len(result.trips) == 2
     for lane in result.trips.itertuples(index=False):
         row = rows[(lane.origin, lane.destination)]
-        assert row["trips"] == lane.trips and row["flow"] == pytest.approx(lane.flow, abs=1e-9)
-        assert row["trip cost"] == pytest.approx(lane.trip_cost, abs=1e-9)
+        assert row["Trips"] == lane.trips and row["Flow (pallets)"] == pytest.approx(lane.flow, abs=1e-9)
+        assert row["Trip cost (EUR)"] == pytest.approx(lane.trip_cost, abs=1e-9)
     # By hand: 20 on trucks of 20 -> 1 trip, full; 5 on trucks of 10 -> 1 trip, half full.
     full = rows[("Quistmoor", "Runnelby")]
-    assert (full["trips"], full["cost per trip"], full["trip cost"]) == (1, 35.0, pytest.approx(35.0, abs=1e-6))
-    assert full["last truck fill %"] == pytest.approx(100.0, abs=1e-6) and full["average fill %"] == pytest.approx(100.0)
+    assert (full["Trips"], full["Cost per trip (EUR)"], full["Trip cost (EUR)"]) == (1, 35.0, pytest.approx(35.0, abs=1e-6))
+    assert full["Last truck fill"] == pytest.approx(1.0, abs=1e-6) and full["Average fill"] == pytest.approx(1.0)
     half = rows[("Quistmoor", "Harrowquay")]
-    assert half["trips"] == 1 and half["last truck fill %"] == pytest.approx(50.0, abs=1e-6)
+    assert half["Trips"] == 1 and half["Last truck fill"] == pytest.approx(0.5, abs=1e-6)
 
 
 def test_summary_breakdown_loops_over_every_cost_key_in_words(solved):
     network, result = solved
     items = {r[0]: r[1] for r in writeback.result_sheets(network, result, INFO)[0].rows}
     # By hand: 65 transport + 10 fixed node + 40 trips = 115 (design_network's docstring).
-    assert items["total cost"] == pytest.approx(115.0, abs=0.01)
-    assert items["fixed depot and hub charges"] == pytest.approx(10.0, abs=0.01)
-    assert items["trip costs"] == pytest.approx(40.0, abs=0.01)
-    words = [writeback.COST_WORDS[k] for k in result.cost_breakdown]
-    assert sum(items[w] for w in words) == pytest.approx(items["total cost"], abs=0.02)
+    assert items["Total cost (EUR)"] == pytest.approx(115.0, abs=0.01)
+    assert items["Fixed depot and hub charges (EUR)"] == pytest.approx(10.0, abs=0.01)
+    assert items["Trip costs (EUR)"] == pytest.approx(40.0, abs=0.01)
+    words = [f"{writeback.COST_WORDS[k]} (EUR)" for k in result.cost_breakdown]
+    assert sum(items[w] for w in words) == pytest.approx(items["Total cost (EUR)"], abs=1e-9)
 
 
 def test_sensitivity_sheet_figures_equal_the_result(solved):
@@ -179,7 +180,8 @@ def test_html_shows_open_closed_trips_and_sensitivity_in_plain_words(solved):
     # the hand-worked figures, in the brief's wording
     assert "One more pallet at Runnelby would cost 4.00 EUR." in page
     assert "One more pallet of room in the planned trips on Quistmoor→Runnelby road would save 3.00 EUR." in page
-    assert "is not unique at this plan" in page  # Harrowquay's degenerate figure said honestly, with no number
+    # Harrowquay's figure (degenerate in the LP's duals) is exact from the plan: its trip has room, 1 per unit.
+    assert "One more pallet at Harrowquay would cost 1.00 EUR." in page
     assert "yes/no and trip decisions fixed" in page
     # the breakdown loops over the keys: the v2 components appear with their labels
     assert report.COST_LABELS["fixed_node"] in page and report.COST_LABELS["trips"] in page
@@ -197,7 +199,7 @@ def test_html_escapes_names_in_the_new_sections():
 
 def test_mail_text_part_carries_the_same_key_sentences(solved):
     network, result = solved
-    text = report.render_text(network, result, INFO, [])
+    text = report_text.render_text(network, result, INFO, [])
     assert "Open and closed" in text and "  Mellisford (depot, given decide): closed" in text
     assert "Trips" in text and "1 trips of 20 pallets for 20 pallets" in text
     assert "One more pallet at Runnelby would cost 4.00 EUR." in text

@@ -1,5 +1,5 @@
 """Settings lanes_file: lanes from a CSV (or Parquet) file beside the workbook, read in addition to the Lanes sheet
-and checked by the same code (issue 4, "Lanes beyond one sheet's reach").
+and checked by the same code.
 
 The reference for the equivalence checks is the workbook itself: moving lanes from the sheet into the file must
 leave the validated lanes and the optimal cost unchanged (cost compared with a tolerance). CSV line numbers are
@@ -158,3 +158,30 @@ def test_parquet_file_is_read_like_csv(make_workbook, tmp_path):
     split, _ = load(make_workbook(sheets))
     whole, _ = load(make_workbook(valid_sheets(), "whole.xlsx"))
     assert split.lanes["cost_per_unit"].tolist() == pytest.approx(whole.lanes["cost_per_unit"].tolist(), abs=1e-12)
+
+
+def test_ambiguous_number_text_in_a_csv_is_an_error_not_read_as_a_decimal(make_workbook, tmp_path):
+    # pandas would parse "1.200" as 1.2; in many locales it is 1200 (the reading rule in the README, Numbers).
+    sheets, file_rows = split_lanes(1)
+    file_rows[1][2] = "1.200"
+    write_csv(tmp_path / "lanes.csv", file_rows)
+    with pytest.raises(WorkbookError) as caught:
+        load(make_workbook(sheets))
+    (problem,) = caught.value.problems
+    assert (problem.sheet, problem.row, problem.column) == ("lanes.csv", 2, "cost_per_unit")
+    assert problem.message == "'1.200' is ambiguous: 1.2 with a decimal point, or 1200 with a thousands point"
+
+
+def test_parquet_nan_is_named_nan_and_a_null_is_a_blank(make_workbook, tmp_path):
+    pa = pytest.importorskip("pyarrow")
+    pq = pytest.importorskip("pyarrow.parquet")
+    table = pa.table({"origin": ["North Yard", "South Yard"], "destination": ["Alder Foods", "Alder Foods"],
+                      "cost_per_unit": [2.0, 3.0], "capacity": pa.array([None, float("nan")], type=pa.float64())})
+    pq.write_table(table, tmp_path / "lanes.parquet")
+    sheets = valid_sheets()
+    sheets["Settings"].append(["lanes_file", "lanes.parquet"])
+    with pytest.raises(WorkbookError) as caught:
+        load(make_workbook(sheets))
+    (problem,) = caught.value.problems  # row 2's null capacity is a blank: no limit, no problem
+    assert (problem.sheet, problem.row, problem.column) == ("lanes.parquet", 3, "capacity")
+    assert problem.message == "NaN is not a finite number"

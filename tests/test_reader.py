@@ -108,10 +108,12 @@ def test_formula_with_cached_value_and_error_result(tmp_path):
     assert raw.rows[1][1] == pytest.approx(5.0, abs=1e-12)
 
 
-def test_only_input_sheets_are_scanned(tmp_path):
-    path = write_workbook(tmp_path / "n.xlsx", {"Depots": [["depot"], ["D1"]], "Notes": [["=1+1"]]})
+def test_only_contract_sheets_are_loaded_and_other_sheets_only_named(tmp_path):
+    path = write_workbook(tmp_path / "n.xlsx", {"Depots": [["depot"], ["D1"]], "Notes": [["=1+1"]],
+                                                "scenarios": [["scenario"]]})
     raw = read_workbook(path)
-    assert raw.sheets["Notes"].bad_cells == {}
+    assert list(raw.sheets) == ["Depots", "scenarios"]
+    assert raw.names() == ["Depots", "Notes", "scenarios"]
 
 
 def test_text_file_renamed_xlsx(tmp_path):

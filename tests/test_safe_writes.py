@@ -116,11 +116,11 @@ def test_exception_mid_write(book, monkeypatch):
     real = writeback.sheet_xml
     calls = []
 
-    def second_sheet_fails(sheet, rel_id):
+    def second_sheet_fails(sheet, rel_id, *styles):
         calls.append(sheet.name)
         if len(calls) == 2:
             raise RuntimeError("injected failure while building the second result sheet")
-        return real(sheet, rel_id)
+        return real(sheet, rel_id, *styles)
 
     monkeypatch.setattr(writeback, "sheet_xml", second_sheet_fails)
     with pytest.raises(WriteError, match=r"injected failure.*left as it was"):

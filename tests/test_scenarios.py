@@ -1,6 +1,6 @@
 """Tests of lanesolve.model.scenarios: reading the Scenarios sheet, applying each change type, comparing results.
 
-References: a scenario must equal the same edit made by hand (issue 6), so the applied networks are compared with
+References: a scenario must equal the same edit made by hand, so the applied networks are compared with
 networks built from hand-edited records by :func:`lanesolve.model.network.make_network`; solved costs are also checked
 against networkx's network simplex (``networkx.min_cost_flow_cost``), an independent min-cost flow solver.
 """
@@ -114,7 +114,8 @@ def test_settings_rows_name_a_known_setting():
                                 ["s", "Settings", "time_limt_s", "value", "set", 5],
                                 ["s", "Settings", "units", "value", "add", 1])
     assert scenarios[0].changes[0].match == "time_limit_s" and scenarios[0].changes[0].column == "value"
-    assert [(p.row, p.column) for p in problems] == [(3, "match"), (4, "change")]
+    assert [(p.row, p.column) for p in problems] == [(3, "match"), (4, "match")]
+    assert "a scenario cannot change setting 'units'" in problems[1].message
     assert "did you mean 'time_limit_s'?" in problems[0].hint
 
 

@@ -1,5 +1,6 @@
 """Sensitivity figures against SciPy's HiGHS marginals on the same LP, against a finite-difference re-solve
-(demand + 1), and the "not unique" flag on a degenerate plan."""
+(demand + 1), and both sides of a degenerate plan shown (tests/test_sensitivity_exact.py checks every figure
+against ±1 re-solves on many random networks)."""
 
 import math
 import random
@@ -9,6 +10,7 @@ import pytest
 from scipy.optimize import linprog
 
 from lanesolve.model.network import make_network
+from lanesolve.model.analyse import solve_and_analyse
 from lanesolve.model.solve import solve
 
 TOL = 1e-6
@@ -48,10 +50,15 @@ def figures(result, figure):
     return dict(zip(rows["item"], zip(rows["value"], rows["unique"])))
 
 
+def sides(result, figure):
+    rows = result.sensitivity[result.sensitivity["figure"] == figure]
+    return dict(zip(rows["item"], zip(rows["value_up"], rows["value_down"])))
+
+
 @pytest.mark.parametrize("seed", range(8))
 def test_marginal_costs_agree_with_scipy_highs_marginals(seed):
     depots, customers, lanes = random_lp(seed)
-    result = solve(make_network(depots, customers, lanes))
+    result = solve_and_analyse(make_network(depots, customers, lanes))
     fun, eq, ineq, upper, _ = scipy_marginals(depots, customers, lanes)  # source: SciPy linprog (HiGHS)
     assert result.total_cost == pytest.approx(fun, abs=1e-6)
     marginal = figures(result, "marginal_cost")
@@ -75,7 +82,7 @@ def test_marginal_costs_agree_with_scipy_highs_marginals(seed):
 @pytest.mark.parametrize("seed", range(6))
 def test_marginal_cost_matches_a_demand_plus_one_re_solve(seed):
     depots, customers, lanes = random_lp(seed)
-    base = solve(make_network(depots, customers, lanes))
+    base = solve_and_analyse(make_network(depots, customers, lanes))
     marginal = figures(base, "marginal_cost")
     for k, cu in enumerate(customers):
         bumped = [dict(c) for c in customers]
@@ -83,11 +90,9 @@ def test_marginal_cost_matches_a_demand_plus_one_re_solve(seed):
         again = solve(make_network(depots, bumped, lanes), sensitivity=False)
         if not again.status.has_plan:
             continue
-        value, unique = marginal[cu["id"]]
-        assert unique
-        # Source: finite difference of the optimal cost. The dual is the derivative while the basis holds; over
-        # a step of 1 the cost may only rise faster (the value function is convex in demand), never slower.
-        assert again.total_cost - base.total_cost >= value - 1e-6
+        up, _ = sides(base, "marginal_cost")[cu["id"]]
+        # Source: finite difference of the optimal cost; whole-unit data, so the one-sided derivative is exact.
+        assert again.total_cost - base.total_cost == pytest.approx(up, abs=1e-6)
 
 
 def test_finite_difference_equals_marginal_when_basis_holds():
@@ -97,38 +102,46 @@ def test_finite_difference_equals_marginal_when_basis_holds():
                                  [{"id": "C", "demand": q}],
                                  [{"origin": "A", "destination": "C", "cost_per_unit": 2},
                                   {"origin": "B", "destination": "C", "cost_per_unit": 5}])
-    base, bumped = solve(net(10)), solve(net(11), sensitivity=False)
+    base, bumped = solve_and_analyse(net(10)), solve(net(11), sensitivity=False)
     value, unique = figures(base, "marginal_cost")["C"]
     assert unique and value == pytest.approx(bumped.total_cost - base.total_cost, abs=TOL)
     reduced = figures(base, "reduced_cost")["B -> C"]
     assert reduced[1] and reduced[0] == pytest.approx(3.0, abs=TOL)  # 5 - 2: B must be 3 cheaper to be used
 
 
-def test_degenerate_plan_says_not_unique():
+def test_degenerate_plan_shows_both_sides():
     # A's supply (10) exactly meets C's demand (10): the supply row binds AND the only lane's flow is pinned, so
-    # the primal is degenerate; the marginal cost of C is anything from 2 (if A had room) up to the cost via B
-    # (7). SciPy returns one point of that interval; lanesolve must not print one.
+    # the primal is degenerate; one more unit at C costs 7 (from B), one less saves 2 (from A). Both are shown.
     net = make_network([{"id": "A", "supply": 10}, {"id": "B", "supply": 10}], [{"id": "C", "demand": 10}],
                        [{"origin": "A", "destination": "C", "cost_per_unit": 2},
                         {"origin": "B", "destination": "C", "cost_per_unit": 7}])
-    result = solve(net)
+    result = solve_and_analyse(net)
     value, unique = figures(result, "marginal_cost")["C"]
     assert not unique and math.isnan(value)
+    assert sides(result, "marginal_cost")["C"] == (pytest.approx(7.0), pytest.approx(2.0))
     text = result.sensitivity.loc[result.sensitivity["item"] == "C", "text"].iloc[0]
-    assert "not unique" in text
-    # Check the interval claim independently (source: finite differences with SciPy-free re-solves): demand - 1
-    # saves 2, demand + 1 costs 7, so no single marginal cost exists.
+    assert "costs 7.00" in text and "one less saves 2.00" in text
+    # Source: finite differences with re-solves: demand - 1 saves 2, demand + 1 costs 7.
     down = solve(make_network(net.depots, net.customers.assign(demand=9), net.lanes), sensitivity=False)
     up = solve(make_network(net.depots, net.customers.assign(demand=11), net.lanes), sensitivity=False)
     assert result.total_cost - down.total_cost == pytest.approx(2.0, abs=TOL)
     assert up.total_cost - result.total_cost == pytest.approx(7.0, abs=TOL)
+    # A's supply binds: one more unit saves nothing (C already gets all from A), one less costs 5 (7 - 2).
+    assert sides(result, "supply_value")["A"] == (pytest.approx(0.0), pytest.approx(5.0))
+
+
+def test_solve_alone_leaves_the_figures_to_solve_and_analyse():
+    net = make_network([{"id": "A", "supply": 10}], [{"id": "C", "demand": 10}],
+                       [{"origin": "A", "destination": "C", "cost_per_unit": 2}])
+    assert solve(net).sensitivity.empty
+    assert not solve_and_analyse(net).sensitivity.empty
 
 
 def test_mip_figures_come_from_the_fixed_lp_and_say_so():
     net = make_network([{"id": "A", "supply": 100}], [{"id": "C", "demand": 10}, {"id": "E", "demand": 5}],
                        [{"origin": "A", "destination": "C", "cost_per_unit": 2, "fixed_cost": 30},
                         {"origin": "A", "destination": "E", "cost_per_unit": 3}])
-    result = solve(net)
+    result = solve_and_analyse(net)
     assert (result.sensitivity["basis"] == "LP with the plan's yes/no and trip decisions fixed").all()
     value, unique = figures(result, "marginal_cost")["E"]
     assert unique and value == pytest.approx(3.0, abs=TOL)  # hand computation: the lane's cost per unit

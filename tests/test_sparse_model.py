@@ -15,7 +15,7 @@ import pytest
 from scipy.optimize import linprog
 
 from lanesolve.model.arrays import to_pulp
-from lanesolve.model.diagnose import solve_and_explain
+from lanesolve.model.analyse import solve_and_analyse
 from lanesolve.model.formulation import build_sparse_model
 from lanesolve.model.network import Settings, make_network
 from lanesolve.model.result import SolveStatus
@@ -284,7 +284,7 @@ def test_hard_infeasible_network_is_infeasible_with_a_diagnosis(solver):
                        [{"origin": "D", "destination": "A", "cost_per_unit": 1},
                         {"origin": "D", "destination": "B", "cost_per_unit": 2}])
     net.settings.solver = solver
-    result = solve_and_explain(net)
+    result = solve_and_analyse(net)
     assert result.status is SolveStatus.INFEASIBLE
     assert result.diagnosis.short["short"].sum() == pytest.approx(6.0, abs=TOL)
     assert all(math.isnan(v) for v in result.cost_breakdown.values())
@@ -321,9 +321,9 @@ def test_settings_units_and_currency_reach_the_array_path_sentences():
     net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 4}],
                        [{"origin": "D", "destination": "C", "cost_per_unit": 2.5, "mode": "rail"}],
                        settings=Settings(units="pallets", currency="EUR"))
-    texts = solve(net).sensitivity["text"].tolist()
-    # One customer served by one lane: one more unit costs the lane's 2.5 (arithmetic).
-    assert "One more unit of demand (pallets) at customer C costs 2.5 EUR." in texts
+    texts = solve_and_analyse(net).sensitivity["text"].tolist()
+    # One customer served by one lane: one more or one less unit changes the cost by the lane's 2.5 (arithmetic).
+    assert "One more or one less unit (pallets) of demand at customer C changes the cost by 2.50 EUR." in texts
 
 
 @pytest.mark.parametrize("solver", ["cbc", "highs"])

@@ -2,7 +2,8 @@
 
 Expectations come from lanesolve.contract (the single source of sheets, columns and settings) and from the issue's
 requirements for the template: headers in row 1 in contract order, header comments, number formats, frozen header
-rows, a yes/no drop-down on flag columns, Settings prefilled, a guidance sheet first that names every column.
+rows, a drop-down on every choice column, Settings prefilled, a guidance sheet first that names every column, and a
+Scenarios sheet with example rows.
 """
 
 from __future__ import annotations
@@ -30,8 +31,8 @@ def book(template_path):
     return openpyxl.load_workbook(template_path)
 
 
-def test_sheets_are_guide_then_contract_order(book):
-    assert book.sheetnames == [GUIDE_SHEET] + [s.name for s in contract.INPUT_SHEETS]
+def test_sheets_are_guide_then_contract_order_then_scenarios(book):
+    assert book.sheetnames == [GUIDE_SHEET] + [s.name for s in contract.INPUT_SHEETS] + ["Scenarios"]
 
 
 def test_every_column_in_contract_order_in_row_one(book):
@@ -184,3 +185,70 @@ def test_write_needs_xlsx_name(tmp_path):
     with pytest.raises(WriteError, match=r"\.xlsx"):
         write_template(tmp_path / "blank.xls")
     assert os.listdir(tmp_path) == []
+
+
+def _dropdown_at(ws, cell: str):
+    found = [dv for dv in ws.data_validations.dataValidation if cell in dv.sqref]
+    assert found, f"{ws.title}!{cell} has no drop-down"
+    assert found[0].type == "list" and found[0].showErrorMessage
+    return found[0].formula1.strip('"').split(",")
+
+
+def test_every_choice_column_has_a_dropdown(book):
+    # input sheets: status (a choice) and every yes/no flag; the words offered are the contract's
+    for sheet in contract.INPUT_SHEETS:
+        for index, column in enumerate(sheet.columns, start=1):
+            if column.kind in (contract.CHOICE, contract.FLAG):
+                cell = f"{openpyxl.utils.get_column_letter(index)}2"
+                expected = list(column.choices) if column.kind == contract.CHOICE else ["yes", "no"]
+                assert _dropdown_at(book[sheet.name], cell) == expected, (sheet.name, column.name)
+    # Settings: the value cell of each choice or yes/no setting
+    settings = book[contract.SETTINGS.name]
+    rows = {settings.cell(row=r, column=1).value: r for r in range(2, settings.max_row + 1)}
+    assert _dropdown_at(settings, f"B{rows['solver']}") == ["cbc", "highs"]
+    assert _dropdown_at(settings, f"B{rows['distance_unit']}") == ["km", "mi"]
+    assert _dropdown_at(settings, f"B{rows['single_source']}") == ["yes", "no"]
+    # Scenarios: sheet, column and change
+    scen = book["Scenarios"]
+    assert _dropdown_at(scen, "B2") == ["Depots", "Customers", "Hubs", "Lanes", "Settings"]
+    assert _dropdown_at(scen, "E2") == ["set", "scale", "add"]
+    columns = _dropdown_at(scen, "D2")
+    assert {"demand", "supply", "capacity", "cost_per_unit", "active", "value"} <= set(columns)
+    assert len('"' + ",".join(columns) + '"') <= 257  # spreadsheet programs cap an inline list at 255 characters
+
+
+def test_scenarios_sheet_has_example_rows_and_the_guide_explains_it(book):
+    rows = list(book["Scenarios"].iter_rows(values_only=True))
+    assert rows[0] == ("scenario", "sheet", "match", "column", "change", "value")
+    assert rows[1] == ("peak season", "Customers", "*", "demand", "scale", 1.2)
+    assert rows[2] == ("diesel up 8 %", "Lanes", "*", "cost_per_unit", "scale", 1.08)
+    guide = " ".join(str(c) for r in book[GUIDE_SHEET].iter_rows(values_only=True) for c in r if c)
+    assert "Sheet Scenarios (optional sheet)" in guide and "LS Scenarios" in guide and "baseline" in guide
+
+
+def test_example_scenarios_run_on_a_filled_in_template(template_path, tmp_path):
+    from conftest import VALID_SHEETS
+    from lanesolve import pipeline
+
+    book = openpyxl.load_workbook(template_path)
+    for name in ("Depots", "Customers", "Hubs", "Lanes"):
+        ws = book[name]
+        headers = [c.value for c in ws[1]]
+        given = VALID_SHEETS[name]
+        for row in given[1:]:
+            record = dict(zip(given[0], row))
+            ws.append([record.get(h) for h in headers])
+    path = tmp_path / "filled.xlsx"
+    book.save(path)
+    outcome = pipeline.run(path, write=False)
+    assert set(outcome.scenario_results) == {"peak season", "diesel up 8 %"}
+    base, diesel = outcome.result, outcome.scenario_results["diesel up 8 %"]
+    # diesel up 8 %: whatever plan the scenario picks, its transport cost is its flows at the workbook's rates x 1.08
+    rates = {(r.origin, r.destination, r.mode): r.cost_per_unit for r in outcome.network.lanes.itertuples()}
+    at_given_rates = sum(f.flow * rates[(f.origin, f.destination, f.mode)] for f in diesel.flows.itertuples())
+    assert diesel.cost_breakdown["transport"] == pytest.approx(1.08 * at_given_rates, rel=1e-9)
+    # peak season: every customer's demand x 1.2 (conftest.VALID_SHEETS: 60 + 70 = 130 pallets -> 156)
+    peak = outcome.scenario_results["peak season"]
+    customers = peak.nodes[peak.nodes["kind"] == "customer"]
+    assert customers["demand"].sum() == pytest.approx(1.2 * 130, abs=1e-9)
+    assert base.nodes[base.nodes["kind"] == "customer"]["demand"].sum() == pytest.approx(130, abs=1e-9)

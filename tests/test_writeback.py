@@ -47,6 +47,22 @@ FORMULA_NAME = "=SUM(A1)"
 NEW_NAMES = ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity"]
 
 
+EDITED_PARTS = wbk.EDITED_PARTS
+#: The defined names the writer adds to workbook.xml: the mark and each result sheet's print titles.
+OUR_NAMES = (r'<definedName name="(_lanesolve_result_sheets|_xlnm.Print_Titles)"[^>]*>[^<]*</definedName>|'
+             r'<definedNames>(<definedName name="(_lanesolve_result_sheets|_xlnm.Print_Titles)"[^>]*>[^<]*'
+             r'</definedName>)*</definedNames>')
+
+
+def mark_as_results(path: Path, names: list[str]) -> None:
+    """Give a workbook the mark an earlier run would have left, listing ``names`` as its result sheets."""
+    text = wbk.members(path)["xl/workbook.xml"].decode()
+    mark = f'<definedName name="_lanesolve_result_sheets" hidden="1">&quot;{";".join(names)}&quot;</definedName>'
+    text = text.replace("</definedNames>", mark + "</definedNames>") if "</definedNames>" in text else \
+        text.replace("</sheets>", f"</sheets><definedNames>{mark}</definedNames>")
+    wbk.rewrite_zip(path, {"xl/workbook.xml": text.encode()})
+
+
 # ------------------------------------------------------------------------------------------------ fixtures
 
 def small_plan():
@@ -129,33 +145,43 @@ def test_result_sheets_have_prefixed_short_names(plan_sheets):
 def test_summary_lists_run_facts_costs_messages_and_caution(plan_sheets):
     network, result, info = small_plan()
     items = {row[0]: row[1] for row in plan_sheets[0].rows}
-    assert items["status"] == "optimal"
-    assert items["total cost"] == pytest.approx(876.53, abs=0.005)
-    # one row per cost component, in words, adding up to the total (result.py: the components add up)
-    words = [writeback.COST_WORDS[k] for k in COST_COMPONENTS]
-    assert sum(items[w] for w in words) == pytest.approx(items["total cost"], abs=0.02)
-    assert items["units"] == "pallets" and items["currency"] == "EUR"
-    assert items["input SHA-256"] == "ab" * 32 and items["input file"] == info.input_path
-    assert items["lanes used"] == 3 and items["inactive lanes left out"] == 1 and items["customers short"] == 1
-    assert items["message"] == "Birch & Co <south> is 9.9 pallets short"
-    assert items["caution"] == CAUTION
-    assert {"solver", "MIP gap", "best bound", "solve seconds", "lanesolve version", "run at"} <= set(items)
+    assert items["Status"] == "optimal"
+    assert items["Total cost (EUR)"] == pytest.approx(876.53086394, abs=1e-9)  # full precision; the format rounds
+    # one row per cost component, in words with the currency, adding up to the total (result.py: they add up)
+    words = [f"{writeback.COST_WORDS[k]} (EUR)" for k in COST_COMPONENTS]
+    assert sum(items[w] for w in words) == pytest.approx(items["Total cost (EUR)"], abs=1e-9)
+    assert items["Units"] == "pallets" and items["Currency"] == "EUR"
+    assert items["Input SHA-256"] == "ab" * 32 and items["Input file"] == info.input_path
+    assert items["Lanes used"] == 3 and items["Inactive lanes left out"] == 1 and items["Customers short"] == 1
+    assert items["Message"] == "Birch & Co <south> is 9.9 pallets short"
+    assert items["Caution"] == CAUTION
+    assert {"Solver", "Optimality gap", "Best bound (EUR)", "Solve time (s)", "lanesolve version",
+            "Run at"} <= set(items)
+
+
+def test_every_result_sheet_header_is_plain_words_with_units(plan_sheets):
+    for sheet in plan_sheets[:3]:
+        for header in sheet.columns:
+            assert "_" not in header and header[0].isupper(), header  # no snake_case, one naming style
+    flows = plan_sheets[1].columns
+    assert {"Flow (pallets)", "Rate (EUR per pallet)", "Variable cost (EUR)", "Fixed charge (EUR)",
+            "Capacity (pallets; blank = no limit)", "Utilisation"} <= set(flows)
 
 
 def test_pure_lp_summary_says_gap_not_applicable():
     network, result, info = small_plan()
     result.mip_gap = result.best_bound = None
     items = {row[0]: row[1] for row in result_sheets(network, result, info)[0].rows}
-    assert items["MIP gap"].startswith("not applicable")
+    assert items["Optimality gap"].startswith("not applicable")
 
 
 def test_lane_flows_hold_used_then_inactive_lanes_only(plan_sheets):
     flows = plan_sheets[1]
-    status = flows.columns.index("status")
+    status = flows.columns.index("Status")
     assert [r[status] for r in flows.rows] == ["used"] * 3 + ["inactive, left out"]
-    assert "utilisation %" in flows.columns
-    util = flows.columns.index("utilisation %")
-    assert flows.rows[0][util] == pytest.approx(60.0)  # 60 of 100 (fraction 0.6 shown as a percentage)
+    util = flows.columns.index("Utilisation")
+    assert flows.rows[0][util] == pytest.approx(0.6)  # 60 of 100: the fraction, shown as 60.0 % by its format
+    assert flows.kinds["Utilisation"] == "percent"
     inactive = flows.rows[-1]
     assert inactive[:3] == ["Northgate Yard", "Alder Foods", "rail"]
 
@@ -163,7 +189,9 @@ def test_lane_flows_hold_used_then_inactive_lanes_only(plan_sheets):
 def test_nodes_sheet_has_every_node(plan_sheets):
     nodes = plan_sheets[2]
     assert [r[0] for r in nodes.rows] == ["Northgate Yard", FORMULA_NAME, "Alder Foods", "Birch & Co <south>"]
-    assert nodes.columns[:-1] == NODE_COLUMNS[:-1] and nodes.columns[-1] == "utilisation %"
+    assert nodes.columns == ["Node", "Kind", "Supply (pallets)", "Demand (pallets)", "Shipped (pallets)",
+                             "Received (pallets)", "Unmet (pallets)", "Capacity (pallets; blank = no limit)",
+                             "Throughput (pallets)", "Utilisation"]
 
 
 def test_no_plan_gives_a_summary_and_empty_tables(tmp_path, rich):
@@ -171,7 +199,7 @@ def test_no_plan_gives_a_summary_and_empty_tables(tmp_path, rich):
     result = Result(SolveStatus.INFEASIBLE, messages=["total supply 160 is 10 short of hard demand 170"])
     sheets = result_sheets(network, result, info)
     items = {row[0]: row[1] for row in sheets[0].rows}
-    assert items["status"] == "infeasible" and items["total cost"] is None
+    assert items["Status"] == "infeasible" and items["Total cost (EUR)"] is None
     write_results(rich, rich, sheets)
     back = pd.read_excel(rich, sheet_name="LS Nodes", engine="calamine")
     assert len(back) == 0 and list(back.columns) == sheets[2].columns
@@ -189,7 +217,7 @@ def test_every_original_member_is_byte_identical_except_index_parts(tmp_path, ri
     after = wbk.members(out)
     for name, data in before.items():
         assert name in after, f"{name} was dropped"
-        if name not in wbk.INDEX_PARTS:
+        if name not in EDITED_PARTS:
             assert after[name] == data, f"{name} changed"
     # the chart, the picture and the styles are among the kept parts
     assert {"xl/charts/chart1.xml", "xl/media/image1.png", "xl/drawings/drawing1.xml", "xl/styles.xml",
@@ -207,8 +235,8 @@ def test_index_parts_only_gain_entries_and_keep_markup_compatibility(tmp_path, r
     after = wbk.members(out)
     # Removing what we added gives back the original text: the edits are insertions, nothing else moved.
     workbook = after["xl/workbook.xml"].decode()
-    assert re.sub(r'<sheet name="LS (Summary|Lane flows|Nodes|Sensitivity)"[^>]*/>', "", workbook) == \
-        before["xl/workbook.xml"].decode()
+    ours = r'<sheet name="LS (Summary|Lane flows|Nodes|Sensitivity)"[^>]*/>|' + OUR_NAMES
+    assert re.sub(ours, "", workbook) == before["xl/workbook.xml"].decode()
     assert 'mc:Ignorable="x15 xr"' in workbook and workbook.startswith("<?xml")
     rels = after["xl/_rels/workbook.xml.rels"].decode()
     assert re.sub(r'<Relationship Id="[^"]+" Type="[^"]+/worksheet" Target="worksheets/sheet\d+\.xml"/>', "",
@@ -254,8 +282,11 @@ def test_result_sheets_read_back_in_openpyxl(tmp_path, rich, plan_sheets):
         assert table.tableStyleInfo.name == writeback.TABLE_STYLE and table.autoFilter.ref == table.ref
     flows = wb["LS Lane flows"]
     assert flows["D2"].value == pytest.approx(60.0, abs=1e-9)
-    assert flows["H3"].value == writeback.NO_LIMIT
+    assert flows["H3"].value is None  # no limit: blank, and the header says so
     assert flows["I3"].value is None  # no utilisation without a limit: blank
+    # number formats by kind (codes from tables.NUMBER_FORMATS; ECMA-376 Part 1, 18.8.31 for their syntax)
+    assert flows["D2"].number_format == "#,##0.0#" and flows["E2"].number_format == "#,##0.00##"
+    assert flows["F2"].number_format == "#,##0.00" and flows["I2"].number_format == "0.0%"
 
 
 def test_result_sheets_read_back_in_pandas_calamine(tmp_path, rich, plan_sheets):
@@ -265,10 +296,11 @@ def test_result_sheets_read_back_in_pandas_calamine(tmp_path, rich, plan_sheets)
         frame = frames[sheet.name]
         assert list(frame.columns) == sheet.columns and len(frame) == len(sheet.rows)
     flows = frames["LS Lane flows"]
-    assert flows["flow"].sum() == pytest.approx(60 + 40 + 40.1235, abs=1e-6)  # quantities kept to 4 decimals
-    assert flows["variable_cost"].tolist()[:3] == pytest.approx([255.0, 124.0, 200.62], abs=1e-9)  # money 2 dp
-    summary = dict(zip(frames["LS Summary"]["item"], frames["LS Summary"]["value"]))
-    assert float(summary["total cost"]) == pytest.approx(876.53, abs=1e-9)
+    # cells keep full precision (the number format rounds for display only)
+    assert flows["Flow (pallets)"].sum() == pytest.approx(60 + 40 + 40.123456789, abs=1e-9)
+    assert flows["Variable cost (EUR)"].tolist()[:3] == pytest.approx([255.0, 124.0, 200.61728394], abs=1e-9)
+    summary = dict(zip(frames["LS Summary"]["Item"], frames["LS Summary"]["Value"]))
+    assert float(summary["Total cost (EUR)"]) == pytest.approx(876.53086394, abs=1e-9)
 
 
 def test_rerun_replaces_result_sheets(tmp_path, rich, plan_sheets):
@@ -283,9 +315,10 @@ def test_rerun_replaces_result_sheets(tmp_path, rich, plan_sheets):
     assert wb.sheetnames.count("LS Summary") == 1
     assert [n for n in wb.sheetnames if n.startswith(RESULT_PREFIX)] == NEW_NAMES
     assert len(second) == len(first)
-    assert "message" not in [r[0] for r in wb["LS Summary"].iter_rows(values_only=True)]
+    assert "Message" not in [r[0] for r in wb["LS Summary"].iter_rows(values_only=True)]
+    assert second["xl/styles.xml"] == first["xl/styles.xml"]  # the rerun reuses the formats it appended
     for name, data in original.items():
-        if name not in wbk.INDEX_PARTS:
+        if name not in EDITED_PARTS:
             assert second[name] == data
     tables = [n for n in second if n.startswith("xl/tables/")]
     assert len(tables) == 1 + len(NEW_NAMES)  # the user's table + ours
@@ -304,6 +337,7 @@ def test_sheets_that_merely_resemble_the_prefix_are_kept(tmp_path, rich, plan_sh
 
 def test_stale_result_sheet_in_the_middle_is_dropped_and_local_names_renumbered(tmp_path, plan_sheets):
     path = wbk.rich_workbook(tmp_path / "old.xlsx", result_sheet_at=2)
+    mark_as_results(path, ["LS Old results"])
     old_members = set(wbk.members(path))
     write_results(path, path, plan_sheets)
     wb = openpyxl.load_workbook(path)
@@ -334,6 +368,7 @@ def test_active_tab_on_an_old_result_sheet_moves_to_the_new_summary(tmp_path, ri
 
 def test_active_tab_after_a_dropped_sheet_follows_its_sheet(tmp_path, plan_sheets):
     path = wbk.rich_workbook(tmp_path / "old.xlsx", result_sheet_at=1)
+    mark_as_results(path, ["LS Old results"])
     set_active_tab(path, openpyxl.load_workbook(path).sheetnames.index("Lanes"))
     write_results(path, path, plan_sheets)
     assert openpyxl.load_workbook(path).active.title == "Lanes"
@@ -342,7 +377,7 @@ def test_active_tab_after_a_dropped_sheet_follows_its_sheet(tmp_path, plan_sheet
 def test_case_clash_with_a_user_sheet_is_refused(tmp_path, plan_sheets):
     path = wbk.rich_workbook(tmp_path / "clash.xlsx", extra_sheets=("ls summary",))
     before = path.read_bytes()
-    with pytest.raises(WriteError, match="'ls summary'.*rename"):
+    with pytest.raises(WriteError, match="'ls summary'.*did not write.*Rename that sheet"):
         write_results(path, path, plan_sheets)
     assert path.read_bytes() == before
 
@@ -379,7 +414,7 @@ def test_xlsm_keeps_its_macro_part(tmp_path, plan_sheets):
     assert after["xl/vbaProject.bin"] == wbk.FAKE_VBA
     assert "application/vnd.ms-excel.sheet.macroEnabled.main+xml" in after["[Content_Types].xml"].decode()
     assert "vbaProject" in after["xl/_rels/workbook.xml.rels"].decode()
-    assert all(after[n] == d for n, d in before.items() if n not in wbk.INDEX_PARTS)
+    assert all(after[n] == d for n, d in before.items() if n not in EDITED_PARTS)
     wb = openpyxl.load_workbook(path, keep_vba=True)
     assert wb.sheetnames[-len(NEW_NAMES):] == NEW_NAMES
 
@@ -410,22 +445,67 @@ def test_text_is_escaped_and_forbidden_characters_stripped(tmp_path, rich):
     assert ws["A3"].value == "  spaced  "  # xml:space="preserve" keeps the spaces
 
 
-def test_rounding_by_kind_and_special_values(tmp_path, rich):
+def test_cells_keep_full_precision_and_special_values_are_blank(tmp_path, rich):
     sheet = ResultSheet("LS Rounding", ["money", "quantity", "percent", "number", "text"],
-                        [[1234.5678, 1.23456789, 83.4362, 0.000123456789, None],
+                        [[1234.5678, 1.23456789, 0.834362, 0.000123456789, None],
                          [math.nan, math.inf, -0.0, 7, True]],
                         {"money": "money", "quantity": "quantity", "percent": "percent", "number": "number",
                          "text": "text"})
     write_results(rich, rich, [sheet])
     ws = openpyxl.load_workbook(rich)["LS Rounding"]
-    assert ws["A2"].value == pytest.approx(1234.57, abs=1e-9)
-    assert ws["B2"].value == pytest.approx(1.2346, abs=1e-9)
-    assert ws["C2"].value == pytest.approx(83.4, abs=1e-9)
-    assert ws["D2"].value == pytest.approx(0.000123456789, rel=1e-12)  # "number" is written as given
+    assert ws["A2"].value == pytest.approx(1234.5678, abs=1e-12) and ws["A2"].number_format == "#,##0.00"
+    assert ws["B2"].value == pytest.approx(1.23456789, abs=1e-12) and ws["B2"].number_format == "#,##0.0#"
+    assert ws["C2"].value == pytest.approx(0.834362, abs=1e-12) and ws["C2"].number_format == "0.0%"
+    assert ws["D2"].value == pytest.approx(0.000123456789, rel=1e-12) and ws["D2"].number_format == "General"
     assert ws["E2"].value is None and ws["A3"].value is None  # None and NaN: blank
-    assert ws["B3"].value == writeback.NO_LIMIT
+    assert ws["B3"].value is None  # infinity (no limit): blank, never text in a number column
     assert ws["E3"].value is True
     assert 'r="C3"' in sheet_part(rich, "LS Rounding") and "-0" not in sheet_part(rich, "LS Rounding")
+
+
+def test_rate_times_flow_equals_the_cost_in_the_cells(tmp_path, rich):
+    # The planners' finding: a rate shown as 1.19 beside 140 units and a cost of 166.64. The cells hold the full
+    # rate and the format shows 4 decimals, so rate x flow = cost holds on what the sheet holds (140 x 1.190285714).
+    network, result, info = small_plan()
+    result.flows.loc[0, ["flow", "cost_per_unit", "variable_cost"]] = [140.0, 166.64 / 140, 166.64]
+    write_results(rich, rich, result_sheets(network, result, info))
+    ws = openpyxl.load_workbook(rich)["LS Lane flows"]
+    assert ws["D2"].value * ws["E2"].value == pytest.approx(ws["F2"].value, abs=1e-9)
+    assert ws["E2"].number_format == "#,##0.00##"  # 1.1903 on screen: 140 x 1.1903 = 166.64
+
+
+def test_styles_part_only_gains_formats_at_the_end(tmp_path, rich, plan_sheets):
+    before_members = wbk.members(rich)
+    before = before_members["xl/styles.xml"].decode()
+    write_results(rich, rich, plan_sheets)
+    after = wbk.members(rich)["xl/styles.xml"].decode()
+    ns = {"m": wbk.MAIN_NS}
+    old, new = ET.fromstring(before), ET.fromstring(after)  # Python's parser as an independent reader
+
+    def xfs(root):
+        return [ET.tostring(x) for x in root.find("m:cellXfs", ns)]
+
+    # every existing cell format keeps its index and its content; ours come after them
+    assert xfs(new)[:len(xfs(old))] == xfs(old) and len(xfs(new)) > len(xfs(old))
+    assert int(new.find("m:cellXfs", ns).get("count")) == len(xfs(new))
+    old_fmts = [ET.tostring(x) for x in (old.find("m:numFmts", ns) or [])]
+    new_fmts = [ET.tostring(x) for x in new.find("m:numFmts", ns)]
+    assert new_fmts[:len(old_fmts)] == old_fmts
+    codes = {x.get("formatCode") for x in new.find("m:numFmts", ns)}
+    assert set(writeback.NUMBER_FORMATS.values()) <= codes
+    # the input sheets refer to style indices that still mean what they meant: their parts are byte-identical
+    sheets_before = {n: d for n, d in before_members.items() if n.startswith("xl/worksheets/")}
+    assert sheets_before and all(wbk.members(rich)[n] == d for n, d in sheets_before.items())
+
+
+def test_print_setup_fits_width_and_repeats_the_header_row(tmp_path, rich, plan_sheets):
+    write_results(rich, rich, plan_sheets)
+    wb = openpyxl.load_workbook(rich)
+    flows, summary = wb["LS Lane flows"], wb["LS Summary"]
+    assert flows.print_title_rows == "$1:$1" and summary.print_title_rows == "$1:$1"
+    assert flows.page_setup.orientation == "landscape" and summary.page_setup.orientation == "portrait"
+    assert flows.page_setup.fitToWidth == 1 and flows.page_setup.fitToHeight == 0
+    assert flows.sheet_properties.pageSetUpPr.fitToPage
 
 
 def test_column_widths_follow_content(tmp_path, rich, plan_sheets):
@@ -525,27 +605,51 @@ def test_invalid_result_sheet_name_is_refused(tmp_path, rich, name):
 
 # ------------------------------------------------------------------------------------------------ a real program
 
+def _libreoffice_csv(soffice: str, book: Path, out: Path, profile: Path, as_shown: bool) -> list[Path]:
+    """Every sheet of ``book`` as a CSV file written by LibreOffice; ``as_shown`` writes each cell as its number
+    format shows it instead of its value."""
+    # Filter options: field separator 44 (,), text delimiter 34 ("), UTF-8 (76), start row 1, cell formats, language,
+    # quoted as text, detect special numbers, save cell contents as shown, export formulas, remove spaces, sheet -1 =
+    # every sheet to its own file (LibreOffice 7.2+ CSV filter options, documented in its help "CSV Filter Options").
+    options = f"44,34,76,1,,0,false,true,{'true' if as_shown else 'false'},false,false,-1"
+    command = [soffice, f"-env:UserInstallation=file://{profile}", "--headless", "--convert-to",
+               f"csv:Text - txt - csv (StarCalc):{options}", "--outdir", str(out), str(book)]
+    done = subprocess.run(command, capture_output=True, text=True, timeout=240)
+    produced = sorted(out.glob("*.csv")) if out.exists() else []
+    assert produced, f"LibreOffice wrote nothing: {done.stdout} {done.stderr}"
+    return produced
+
+
 @pytest.mark.slow  # starts LibreOffice; CI runs it
 def test_libreoffice_opens_the_result_sheet(tmp_path, rich, plan_sheets):
     soffice = shutil.which("soffice") or shutil.which("libreoffice")
     if soffice is None:
         pytest.skip("LibreOffice (soffice) is not installed")
     write_results(rich, rich, plan_sheets)
-    out = tmp_path / "csv"
-    # Filter options: field separator 44 (,), text delimiter 34 ("), UTF-8 (76), start row 1, ..., sheet -1 = every
-    # sheet to its own file (LibreOffice 7.2+ CSV filter options, documented in its help "CSV Filter Options").
     profile = tmp_path / "lo-profile"
-    command = [soffice, f"-env:UserInstallation=file://{profile}", "--headless", "--convert-to",
-               "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,-1", "--outdir", str(out),
-               str(rich)]
-    done = subprocess.run(command, capture_output=True, text=True, timeout=240)
-    produced = sorted(out.glob("*.csv")) if out.exists() else []
-    assert produced, f"LibreOffice wrote nothing: {done.stdout} {done.stderr}"
+    produced = _libreoffice_csv(soffice, rich, tmp_path / "values", profile, as_shown=False)
     flows_csv = next(p for p in produced if "Lane flows" in p.name)
     frame = pd.read_csv(flows_csv, keep_default_na=False)
     assert list(frame.columns) == plan_sheets[1].columns
-    assert frame["origin"].tolist()[1] == FORMULA_NAME  # text, not evaluated
-    assert [float(x) for x in frame["flow"]] == pytest.approx([60, 40, 40.1235, 0], abs=1e-9)
-    assert frame["capacity"].tolist()[1] == writeback.NO_LIMIT
+    assert frame["Origin"].tolist()[1] == FORMULA_NAME  # text, not evaluated
+    # the cells hold full precision
+    assert [float(x) for x in frame["Flow (pallets)"]] == pytest.approx([60, 40, 40.123456789, 0], abs=1e-9)
+    assert frame["Capacity (pallets; blank = no limit)"].tolist()[1] == ""
     depots_csv = next(p for p in produced if p.name.endswith("-Depots.csv"))
     assert pd.read_csv(depots_csv)["depot"].tolist() == ["Northgate Yard", "Riverbend Plant", FORMULA_NAME]
+    # ... and LibreOffice applies the number formats appended to styles.xml (the program, not lanesolve, formats)
+    shown = _libreoffice_csv(soffice, rich, tmp_path / "shown", profile, as_shown=True)
+    flows = pd.read_csv(next(p for p in shown if "Lane flows" in p.name), keep_default_na=False, dtype=str)
+    assert flows["Flow (pallets)"].tolist() == ["60.0", "40.0", "40.12", "0.0"]
+    assert flows["Rate (EUR per pallet)"].tolist()[:3] == ["4.25", "3.10", "5.00"]
+    assert flows["Variable cost (EUR)"].tolist()[:3] == ["255.00", "124.00", "200.62"]
+    assert flows["Utilisation"].tolist()[0] == "60.0%"
+    # the input sheets show exactly what they showed before: their style indices kept their meaning
+    original = tmp_path / "original" / rich.name
+    original.parent.mkdir()
+    wbk.rich_workbook(original)
+    before = {p.name: p.read_text(encoding="utf-8")
+              for p in _libreoffice_csv(soffice, original, tmp_path / "before", profile, as_shown=True)}
+    after = {p.name: p.read_text(encoding="utf-8") for p in shown}
+    inputs = [name for name in before if not name.split("-", 1)[1].startswith("LS ")]
+    assert inputs and all(after[name] == before[name] for name in inputs)

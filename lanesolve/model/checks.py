@@ -78,11 +78,12 @@ def presolve_checks(network: Network) -> list[str]:
         if node not in inbound_capacity:
             reasons.append(f"{where} needs {_num(demand)} {units} but no active lane ends there (add a lane with "
                            f"destination '{node}', set active to yes on one, or give it an unmet_penalty).")
-        elif inbound_capacity[node] < demand:
+            continue  # nothing else can be said of a customer no lane reaches
+        if inbound_capacity[node] < demand:
             reasons.append(f"{where} needs {_num(demand)} {units} but its active inbound lanes can carry only "
                            f"{_num(inbound_capacity[node])} {units} in total (raise their capacity, add a lane, or "
                            "give it an unmet_penalty).")
-        elif node not in reachable:
+        if node not in reachable:
             reasons.append(f"{where} needs {_num(demand)} {units} but no depot with supply can reach it along "
                            "active lanes with capacity (check the lanes leading to it and the hubs on the way).")
     from lanesolve.model.diagnose import structural_causes  # late import: diagnose builds on the solver

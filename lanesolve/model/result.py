@@ -26,16 +26,80 @@ NODE_COLUMNS = ["node", "kind", "supply", "demand", "shipped", "received", "unme
 UNMET_COLUMNS = ["customer", "quantity", "penalty"]
 #: Keys of :attr:`Result.cost_breakdown`, in report order.
 COST_COMPONENTS = ("transport", "handling", "fixed_lane", "unmet_penalty")
-#: Extra keys of :attr:`Result.cost_breakdown` for a contract v2 network (node decisions, whole trips); present only
-#: then, so v1 results keep exactly :data:`COST_COMPONENTS`.
+#: Extra keys of :attr:`Result.cost_breakdown` for a network with design decisions (node charges, whole trips);
+#: present only then, so a plain flow network's result keeps exactly :data:`COST_COMPONENTS`.
 DESIGN_COST_COMPONENTS = ("fixed_node", "trips")
+#: Plain words for every cost component: the one set of labels the sheets, the charts, the HTML, the mail and the
+#: terminal show (``--json`` keeps the keys).
+COST_LABELS = {
+    "transport": "Transport",
+    "handling": "Handling at depots and hubs",
+    "fixed_lane": "Fixed lane charges",
+    "unmet_penalty": "Penalties for unmet demand",
+    "fixed_node": "Fixed depot and hub charges",
+    "trips": "Trip costs",
+}
+
+
+@dataclass(frozen=True)
+class CostLine:
+    """One component of the total cost, as every report shows it (see :meth:`Result.cost_lines`).
+
+    Attributes
+    ----------
+    key : str
+        The key of :attr:`Result.cost_breakdown` (``transport``, ``handling``, ...); stable, used by ``--json``.
+    label : str
+        Plain words for it (:data:`COST_LABELS`).
+    amount : float
+        The amount at full precision (0.0 for a missing or NaN component).
+    share : float
+        ``amount`` over the sum of every component's amount (0.0 when that sum is 0); the shares add up to 1.
+    """
+
+    key: str
+    label: str
+    amount: float
+    share: float
+
+
+def cost_order(keys) -> list[str]:
+    """Cost keys in report order: :data:`COST_COMPONENTS`, then :data:`DESIGN_COST_COMPONENTS`, then any others.
+
+    >>> cost_order(["trips", "unmet_penalty", "transport", "other"])
+    ['transport', 'unmet_penalty', 'trips', 'other']
+    """
+    order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
+    keys = list(dict.fromkeys(keys))
+    return [k for k in order if k in keys] + [k for k in keys if k not in order]
+
+
 #: Columns of :attr:`Result.open_nodes` (one row per depot and hub): ``open`` is whether the plan uses / keeps it,
 #: ``fixed_charge`` what it pays for that.
 OPEN_NODE_COLUMNS = ["node", "kind", "status", "open", "fixed_charge"]
 #: Columns of :attr:`Result.trips` (one row per lane with a trip capacity and flow > 0).
 TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips", "cost_per_trip", "trip_cost"]
-#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`).
-SENSITIVITY_COLUMNS = ["figure", "item", "value", "unique", "basis", "text"]
+#: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`): ``value_up`` is what one more unit
+#: costs (demand) or saves (a capacity), ``value_down`` what one unit less saves or costs; ``value`` is the figure when
+#: both sides agree (``unique``), NaN when they differ; ``inf`` marks a side with no plan.
+SENSITIVITY_COLUMNS = ["figure", "item", "value", "value_up", "value_down", "unique", "basis", "text"]
+
+
+def singular(units: str) -> str:
+    """The label of one unit: "pallets" -> "pallet", "boxes" -> "box", "tonnes" -> "tonne" (plain English rules).
+
+    >>> [singular(u) for u in ("pallets", "boxes", "lorries", "kg", "units")]
+    ['pallet', 'box', 'lorry', 'kg', 'unit']
+    """
+    word = units.strip() or "units"
+    lower = word.lower()
+    if lower.endswith("ies") and len(word) > 3:
+        return word[:-3] + "y"
+    if lower.endswith(("sses", "xes", "ches", "shes", "zes")):
+        return word[:-2]
+    if lower.endswith("s") and not lower.endswith("ss") and len(word) > 1:
+        return word[:-1]
+    return word
 
 
 def node_decisions(result: "Result") -> pd.DataFrame:
@@ -94,7 +158,8 @@ class Result:
     total_cost : float
         Objective value of the plan (NaN without a plan).
     cost_breakdown : dict
-        ``transport``, ``handling``, ``fixed_lane``, ``unmet_penalty``; they add up to ``total_cost``.
+        ``transport``, ``handling``, ``fixed_lane``, ``unmet_penalty`` (and ``fixed_node``, ``trips`` for a network
+        with design decisions); they add up to ``total_cost``. Reports read it through :meth:`cost_lines`.
     flows : DataFrame
         :data:`FLOW_COLUMNS`; lanes with flow > 0. ``utilisation`` is flow / capacity (NaN without a limit).
     nodes : DataFrame
@@ -138,6 +203,39 @@ class Result:
     sensitivity: pd.DataFrame = field(default_factory=lambda: empty_frame(SENSITIVITY_COLUMNS))
     diagnosis: object = None
 
+    def cost_lines(self) -> list[CostLine]:
+        """The cost breakdown every report shows: the one source of the chart, the tables, the sheets and the mail.
+
+        Every component the result has is listed (a design network's fixed node charges and trip costs too), in
+        :func:`cost_order`, so the lines always add up to :attr:`total_cost` (within solver round-off). Amounts keep
+        full precision; each output rounds only for display.
+
+        Returns
+        -------
+        list of CostLine
+            Empty when there is no plan.
+
+        Examples
+        --------
+        >>> r = Result(SolveStatus.OPTIMAL, total_cost=100.0, cost_breakdown={
+        ...     "transport": 81.3, "handling": 8.0, "fixed_lane": 0.0, "unmet_penalty": 0.0, "fixed_node": 10.7,
+        ...     "trips": 0.0})
+        >>> [(line.key, round(line.share * 100, 1)) for line in r.cost_lines()][:3]
+        [('transport', 81.3), ('handling', 8.0), ('fixed_lane', 0.0)]
+        >>> round(sum(line.amount for line in r.cost_lines()), 6)
+        100.0
+        """
+        if not self.status.has_plan:
+            return []
+        amounts = {}
+        for key in cost_order(self.cost_breakdown):
+            value = self.cost_breakdown.get(key)
+            value = float(value) if value is not None else 0.0
+            amounts[key] = value if math.isfinite(value) else 0.0
+        total = sum(amounts.values())
+        return [CostLine(key, COST_LABELS.get(key, key.replace("_", " ").capitalize()), amount,
+                         amount / total if total > 0 else 0.0) for key, amount in amounts.items()]
+
     def to_json(self) -> dict:
         """The ``--json`` document (without run metadata, which the pipeline adds)."""
 
@@ -150,7 +248,9 @@ class Result:
         return {
             "status": self.status.value,
             "total_cost": num(self.total_cost),
-            "cost_breakdown": {k: num(v) for k, v in self.cost_breakdown.items()},
+            # From cost_lines() with a plan, so --json carries the very figures the reports show.
+            "cost_breakdown": ({line.key: line.amount for line in self.cost_lines()} if self.status.has_plan
+                               else {k: num(v) for k, v in self.cost_breakdown.items()}),
             "flows": [
                 {"origin": r.origin, "destination": r.destination, "mode": r.mode, "flow": num(r.flow),
                  "cost": num(r.variable_cost + r.fixed_charge)}
@@ -167,6 +267,8 @@ class Result:
             "trips": [{"origin": r.origin, "destination": r.destination, "mode": r.mode, "trips": int(r.trips)}
                       for r in self.trips.itertuples(index=False)],
             "sensitivity": [{"figure": r.figure, "item": r.item, "value": num(r.value) if r.unique else None,
+                             "value_up": num(getattr(r, "value_up", r.value)),
+                             "value_down": num(getattr(r, "value_down", r.value)),
                              "unique": bool(r.unique), "basis": r.basis, "text": r.text}
                             for r in self.sensitivity.itertuples(index=False)],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,

@@ -27,6 +27,7 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import math
+import unicodedata
 from dataclasses import dataclass, field
 
 import pandas as pd
@@ -34,9 +35,9 @@ import pandas as pd
 from lanesolve import contract
 from lanesolve.errors import Problem
 from lanesolve.model.network import Network
-from lanesolve.model.result import Result
+from lanesolve.model.result import COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result
 
-SHEET = "Scenarios"
+SHEET = contract.SCENARIOS_SHEET
 HEADERS = ("scenario", "sheet", "match", "column", "change", "value")
 CHANGES = ("set", "scale", "add")
 BASELINE = "baseline"
@@ -85,20 +86,19 @@ class Scenario:
     changes: list[Change] = field(default_factory=list)
 
 
-def _blank(value: object) -> bool:
-    return value is None or (isinstance(value, str) and not value.strip()) or (
-        isinstance(value, float) and math.isnan(value))
+_blank = contract.blank_cell
 
 
 def _number(value: object) -> float | None:
-    """The value as a float, or None when it is not a number (bools are not numbers here)."""
+    """The value as a float, or None when it is not a number (bools are not numbers here, nor text whose
+    separators are ambiguous, see :func:`lanesolve.contract.ambiguous_number_text`)."""
     if isinstance(value, bool):
         return None
     if isinstance(value, (int, float)):
         return float(value)
     if isinstance(value, str):
         try:
-            return float(value.strip())
+            return contract.number_from_text(value)
         except ValueError:
             return None
     return None
@@ -113,13 +113,17 @@ def _problem(row: int | None, column: str | None, value: object, message: str, h
     return Problem(SHEET, row, column, value, message, hint)
 
 
-def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
+def parse_scenarios(rows: list[list], percent_cells=frozenset()) -> tuple[list[Scenario], list[Problem]]:
     """Read the Scenarios sheet.
 
     Parameters
     ----------
     rows : list of list
         Cell values of the sheet; ``rows[0]`` is spreadsheet row 1 with the headers.
+    percent_cells : set of (row, column)
+        1-based positions of cells shown with a percent number format (the reader's
+        :attr:`~lanesolve.read.reader.RawSheet.percent_cells`). A ``scale`` or ``add`` value in such a cell is
+        refused: ``10%`` is stored as 0.1, and whether the planner meant "times 0.1" or "10 % more" cannot be told.
 
     Returns
     -------
@@ -127,7 +131,9 @@ def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
         In order of first appearance; only rows without problems are included.
     problems : list of Problem
         Every problem found (sheet "Scenarios", with row and column): missing columns, unknown sheet, column,
-        setting or change, a non-numeric value for scale/add, a blank or reserved scenario name.
+        setting or change, a non-numeric value for scale/add, a percent-formatted scale/add value, number text
+        with ambiguous separators, a number beyond the magnitudes lanesolve accepts, a blank or reserved scenario
+        name; on Settings, a setting a scenario cannot change or a value the Settings sheet would refuse.
 
     Examples
     --------
@@ -158,7 +164,8 @@ def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
         cell = {h: (cells[position[h]] if position[h] < len(cells) else None) for h in HEADERS}
         if all(_blank(v) for v in cell.values()):
             continue
-        change, row_problems = _parse_row(cell, index)
+        percent = (index, position["value"] + 1) in percent_cells
+        change, row_problems = _parse_row(cell, index, percent)
         problems.extend(row_problems)
         if change is None:
             continue
@@ -167,7 +174,7 @@ def parse_scenarios(rows: list[list]) -> tuple[list[Scenario], list[Problem]]:
     return list(scenarios.values()), problems
 
 
-def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
+def _parse_row(cell: dict, row: int, percent: bool = False) -> tuple[Change | None, list[Problem]]:
     problems: list[Problem] = []
     name = "" if _blank(cell["scenario"]) else str(cell["scenario"]).strip()
     if not name:
@@ -188,16 +195,32 @@ def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
                                  _suggest(sheet_text, list(_SHEETS))))
         return None, problems
 
-    match = "" if _blank(cell["match"]) else str(cell["match"]).strip()
+    # Ids are compared in Unicode NFC, as the validator stores them (an accent typed either way is the same id).
+    match = "" if _blank(cell["match"]) else unicodedata.normalize("NFC", str(cell["match"]).strip())
     if not match:
         problems.append(_problem(row, "match", None, "match is blank",
                                  "write an id, a comma list of ids, or * for every row"))
 
     value = cell["value"]
     number = _number(value)
-    if change in ("scale", "add") and (number is None or not math.isfinite(number)):
-        problems.append(_problem(row, "value", value, f"'{change}' needs a number, not '{value}'",
+    why = contract.ambiguous_number_text(value) if isinstance(value, str) else None
+    if why is not None:
+        problems.append(_problem(row, "value", value, why, contract.PLAIN_NUMBER_HINT))
+    elif change in ("scale", "add") and (number is None or not math.isfinite(number)):
+        problems.append(_problem(row, "value", value, f"'{change}' needs a number, not {contract.show_cell(value)}",
                                  "write a number such as 1.2 (scale) or -50 (add)"))
+    elif number is not None and contract.magnitude_problem(number):
+        problems.append(_problem(row, "value", value, f"{contract.show_cell(value)}: "
+                                 f"{contract.magnitude_problem(number)}", "write an ordinary number, or a blank"))
+    elif percent and change in ("scale", "add"):
+        meant = f"times {number:g}" if change == "scale" else f"{number:g} more"
+        problems.append(_problem(
+            row, "value", value, f"the value {number * 100:g}% is in a percent-formatted cell, so it is stored as "
+            f"{number:g}; for {change} that is ambiguous: {meant}, or {number * 100:g} % more?",
+            f"type a plain factor in a cell formatted as a number: {1 + number:g} for {number * 100:g} % more, "
+            f"{1 - number:g} for {number * 100:g} % less, {number:g} to multiply by {number:g}" if change == "scale"
+            else "type the amount to add in the column's own unit in a cell formatted as a number; to change by a "
+            "percentage use scale with a factor such as 1.1"))
 
     if sheet is contract.SETTINGS:
         column = "value" if _blank(cell["column"]) else contract.normalize(cell["column"])
@@ -212,10 +235,19 @@ def _parse_row(cell: dict, row: int) -> tuple[Change | None, list[Problem]]:
                                          _suggest(contract.normalize(match), [s.name for s in contract.SETTINGS_ROWS])))
             else:
                 match = setting.name
-                if change in ("scale", "add") and setting.kind != contract.NUMBER:
+                if setting.fixed_for_scenarios:
+                    problems.append(_problem(row, "match", cell["match"],
+                                             f"a scenario cannot change setting '{setting.name}': "
+                                             f"{setting.fixed_for_scenarios}", "delete the row"))
+                elif change in ("scale", "add") and setting.kind != contract.NUMBER:
                     problems.append(_problem(row, "change", cell["change"],
                                              f"setting {setting.name} is text; it can only be set",
                                              "use change set"))
+                elif change == "set" and why is None:  # the Settings sheet's rules: check finds what solve would
+                    value, problem = contract.setting_value(setting, value)
+                    number = value if setting.kind == contract.NUMBER else None
+                    if problem is not None:
+                        problems.append(_problem(row, "value", cell["value"], *problem))
     else:
         column = contract.normalize(cell["column"])
         names = [c.name for c in sheet.columns]
@@ -341,6 +373,8 @@ def _check_values(new: pd.Series, column: contract.Column) -> pd.Series:
         bad |= new < column.minimum
     if column.maximum is not None:
         bad |= new > column.maximum
+    size = new.abs()
+    bad |= size.lt(math.inf) & ((size > contract.MAX_MAGNITUDE) | ((size > 0) & (size < contract.MIN_MAGNITUDE)))
     return bad
 
 
@@ -450,7 +484,8 @@ def _apply_setting(network: Network, change: Change) -> list[Problem]:
         new = None  # a blank default penalty (hard demand) stays blank under scale and add
     else:
         new = old * float(change.value) if change.change == "scale" else old + float(change.value)
-    if new is not None and (not math.isfinite(new) or (setting.minimum is not None and new < setting.minimum)):
+    if new is not None and (not math.isfinite(new) or (setting.minimum is not None and new < setting.minimum)
+                            or contract.magnitude_problem(new)):
         return [_problem(change.row, "value", change.value,
                          f"{change.change} {change.value} makes setting {setting.name} {new:g}, which is not allowed",
                          f"{setting.name} must be a number" + (f" >= {setting.minimum:g}"
@@ -509,8 +544,11 @@ def volume_shifts(baseline_result: Result, scenario_result: Result, top: int | N
     return frame if top is None else frame.head(top)
 
 
+#: The cost columns of :func:`compare`: every component a result can have (zero where a plan has none of it).
+COST_KEYS = (*COST_COMPONENTS, *DESIGN_COST_COMPONENTS)
+
 #: Columns of the frame :func:`compare` returns.
-COMPARE_COLUMNS = ["scenario", "status", "total_cost", "transport", "handling", "fixed_lane", "unmet_penalty",
+COMPARE_COLUMNS = ["scenario", "status", "total_cost", *COST_COMPONENTS, *DESIGN_COST_COMPONENTS,
                    "delta_cost", "delta_pct", "unmet_units", "lanes_used", "lanes_opened", "lanes_closed",
                    "nodes_opened", "nodes_closed", "largest_shifts"]
 
@@ -530,7 +568,8 @@ def compare(baseline_result: Result, scenario_results: dict[str, Result], top_sh
     -------
     DataFrame
         One row per scenario, the baseline first, columns :data:`COMPARE_COLUMNS`: the status, the total cost and
-        its breakdown, ``delta_cost`` (scenario minus baseline) and ``delta_pct`` (percent of the baseline cost; NaN
+        its breakdown (every component of :data:`COST_KEYS`, from :meth:`Result.cost_lines`, adding up to the
+        total), ``delta_cost`` (scenario minus baseline) and ``delta_pct`` (percent of the baseline cost; NaN
         when that is 0 or either has no plan), ``unmet_units`` (units not delivered), ``lanes_used``,
         ``lanes_opened``/``lanes_closed`` and ``nodes_opened``/``nodes_closed`` (text lists of lanes and of
         shipping depots or used hubs that carry flow in the scenario but not the baseline, or the reverse) and
@@ -546,12 +585,13 @@ def compare(baseline_result: Result, scenario_results: dict[str, Result], top_sh
         is_base = result is baseline_result and name == BASELINE
         shifts = volume_shifts(baseline_result, result, top_shifts) if has_plan and not is_base else None
         delta = cost - base_cost
+        amounts = {line.key: line.amount for line in result.cost_lines()}
         records.append({
             "scenario": name,
             "status": result.status.value,
             "total_cost": cost,
-            **{k: (float(result.cost_breakdown.get(k, 0.0)) if has_plan else math.nan)
-               for k in ("transport", "handling", "fixed_lane", "unmet_penalty")},
+            # Every component, from the breakdown every report reads, so the columns add up to total_cost.
+            **{k: (amounts.get(k, 0.0) if has_plan else math.nan) for k in COST_KEYS},
             "delta_cost": delta,
             "delta_pct": delta / base_cost * 100.0 if base_cost else math.nan,
             "unmet_units": float(result.unmet["quantity"].sum()) if has_plan and len(result.unmet) else

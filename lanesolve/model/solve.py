@@ -298,11 +298,14 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     time_limit : float, optional
         Seconds the solver may run; overrides ``network.settings.time_limit_s``. A value of 0 or less, or None
         with a setting of 0, means no limit.
-    solver : {"cbc", "highs"}, optional
-        ``"cbc"``: the CBC binary in PuLP's wheel. ``"highs"``: HiGHS in memory through ``highspy`` (optional
-        extra). None takes the ``solver`` setting (default ``"cbc"``).
+    solver : {"auto", "cbc", "highs"}, optional
+        ``"auto"``: the engine that fits the model (module docstring). ``"cbc"``: the CBC binary in PuLP's wheel.
+        ``"highs"``: HiGHS in memory through ``highspy``. None takes the ``solver`` setting (default ``"auto"``).
     msg : bool
         Echo the solver's log to stderr.
+    deadline : float, optional
+        A :func:`time.monotonic` time by which a plan must be in hand (the run's limit counted from the end of
+        reading); the earlier of it and ``time_limit`` counts.
     sensitivity : bool
         Accepted and ignored: sensitivity figures are not part of a solve (:mod:`lanesolve.model.sensitivity`
         computes them from the plan), so ``Result.sensitivity`` stays empty here.

@@ -153,7 +153,9 @@ def _read_csv(path: Path, fail) -> tuple[list, pd.DataFrame]:
     for index in _number_columns(header):
         text = data[index].str.strip()
         parsed = pd.to_numeric(text, errors="coerce")
-        plain = np.isfinite(parsed.to_numpy(dtype=float))
+        # "1.200" parses, but may mean 1200: such text stays text so the validator reports it as ambiguous.
+        unsure = (text.str.fullmatch(contract.AMBIGUOUS_POINT) | text.str.fullmatch(contract.NUMBER_WITH_POINTS))
+        plain = np.isfinite(parsed.to_numpy(dtype=float)) & ~unsure.to_numpy()
         if plain.any():
             column = data[index].copy()
             column[plain] = parsed[plain].astype(float)
@@ -165,7 +167,12 @@ def _read_parquet(path: Path, fail) -> tuple[list, pd.DataFrame]:
     if importlib.util.find_spec("pyarrow") is None:
         raise fail("reading Parquet needs the pyarrow package, which is not installed", PARQUET_HINT)
     try:
-        frame = pd.read_parquet(path, engine="pyarrow")
+        import pyarrow.parquet as pq
+
+        table = pq.read_table(path)
+        frame = table.to_pandas()
+        # Arrow tells a missing value (null: a blank cell) from a NaN (a value, reported as NaN); pandas does not.
+        nulls = {name: table.column(name).is_null().to_numpy(zero_copy_only=False) for name in table.column_names}
     except (ImportError, ValueError, OSError) as exc:
         raise fail(f"the file could not be read as Parquet ({exc})", "write it again as Parquet, or as .csv") from exc
     except Exception as exc:  # pyarrow's own error types (ArrowInvalid...) are not importable without pyarrow
@@ -175,6 +182,11 @@ def _read_parquet(path: Path, fail) -> tuple[list, pd.DataFrame]:
         raise
     header = [str(h) for h in frame.columns]
     data = frame.astype(object)
-    data = data.where(data.notna(), "")
+    for index, name in enumerate(frame.columns):
+        null = nulls.get(name)
+        if null is not None and null.any():
+            column = data.iloc[:, index].copy()
+            column[null] = ""
+            data.iloc[:, index] = column
     data.columns = range(data.shape[1])
     return header, data.reset_index(drop=True)

@@ -1,20 +1,30 @@
 """Stage "read": turn a workbook file into plain cell values, sheet by sheet.
 
 Values come from python-calamine, which is fast (a 100k-row sheet in well under a second) and reads .xlsx, .xlsm,
-.xls and .ods. Calamine shows a cell holding a spreadsheet error value (``#N/A``, ``#DIV/0!``...) and a formula whose
-result was never saved as an empty string, which would make such cells look blank. For .xlsx/.xlsm files the sheet
-XML of the input sheets is therefore scanned for those cells, and they are listed in :attr:`RawSheet.bad_cells` so
-the validator can name them instead of reading them as blanks. The scan only runs on a sheet part whose bytes contain
-an error cell (``t="e"``) or a formula (``<f``), so a plain values-only workbook pays nothing for it.
+.xls, .xlsb and .ods. Only the sheets lanesolve needs are loaded -- the contract's input sheets and Scenarios, found
+by name (see :func:`lanesolve.contract.is_read_sheet`); every other sheet is listed by name only, so a notes sheet
+of any size or shape costs nothing (in an .xlsx/.xlsm/.xlsb file; calamine reads every sheet of an .xls or .ods
+file when it opens it).
+
+Calamine builds a dense grid from A1 to a sheet's last used cell, so one stray cell at XFD1048576 would ask for
+hundreds of gigabytes and abort the process. For .xlsx/.xlsm files the extent of every sheet to load is therefore
+measured in its XML first (:func:`lanesolve.read.sheet_xml.used_extent`) and a sheet beyond :data:`MAX_ROWS`,
+:data:`MAX_COLUMNS` or :data:`MAX_CELLS` is refused by name before calamine sees it; for the other kinds the same
+bounds are checked once calamine has read the sheet, before its cells become Python values. A panic inside
+calamine (pyo3's ``PanicException``, a ``BaseException``) becomes a :class:`~lanesolve.errors.WorkbookError` naming
+the sheet.
+
+Calamine shows a cell holding a spreadsheet error value (``#N/A``, ``#DIV/0!``...) and a formula whose result was
+never saved as an empty string, which would make such cells look blank; the same XML scan lists them in
+:attr:`RawSheet.bad_cells`, and lists the percent-formatted cells of the Scenarios sheet in
+:attr:`RawSheet.percent_cells` (a ``10%`` cell stores 0.1, and a scale of 0.1 is rarely what a planner meant).
 
 Nothing here judges the values; that is :mod:`lanesolve.read.validate`'s job.
 """
 
 from __future__ import annotations
 
-import io
 import posixpath
-import re
 import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -26,8 +36,9 @@ import python_calamine
 
 from lanesolve import contract
 from lanesolve.read import guard
+from lanesolve.read import sheet_xml
 from lanesolve.read import source
-from lanesolve.errors import WorkbookError
+from lanesolve.errors import Problem, WorkbookError
 
 _ZIP_MAGIC = b"PK\x03\x04"
 _OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
@@ -37,9 +48,17 @@ _ENCRYPTED_STREAM = "EncryptedPackage".encode("utf-16-le")
 
 _REL_NS = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 _PKG_REL_NS = "http://schemas.openxmlformats.org/package/2006/relationships"
-_CELL_REF = re.compile(r"([A-Za-z]+)(\d+)")
 
 _OPEN_AND_SAVE_HINT = "open the file in a spreadsheet program and save it, then try again"
+
+#: Most rows of a sheet lanesolve reads: the most any spreadsheet program holds (1,048,576).
+MAX_ROWS = 1_048_576
+#: Most columns of a sheet lanesolve reads; the widest input sheet has a dozen contract columns, so 200 leaves
+#: ample room for notes.
+MAX_COLUMNS = 200
+#: Most cells (rows x columns from A1 to the last used cell) of one sheet lanesolve reads: calamine holds each in
+#: about 32 bytes before Python sees it, so 30 million cells is about 1 GB at most.
+MAX_CELLS = 30_000_000
 
 
 @dataclass
@@ -59,41 +78,63 @@ class RawSheet:
         with no saved result (``"formula =SUM(B2:B4) has no saved value"``). Their entry in ``rows`` is ``""``.
     hidden : bool
         True when the sheet is hidden in the workbook.
+    percent_cells : set
+        ``(row, column)`` (both 1-based) of cells shown with a percent number format; filled for the Scenarios sheet
+        of an .xlsx/.xlsm workbook only (other file kinds do not say).
     """
 
     name: str
     rows: list[list]
     bad_cells: dict[tuple[int, int], str] = field(default_factory=dict)
     hidden: bool = False
+    percent_cells: set[tuple[int, int]] = field(default_factory=set)
 
 
 @dataclass
 class RawWorkbook:
-    """Every sheet of a workbook except result sheets, keyed by the sheet's real name (in workbook order)."""
+    """The sheets lanesolve reads, keyed by the sheet's real name (in workbook order), and every sheet's name.
+
+    Attributes
+    ----------
+    path : str
+    sheets : dict
+        Sheet name -> :class:`RawSheet`, for the sheets whose name is a contract sheet's or Scenarios.
+    sheet_names : list of str
+        Every worksheet's name in workbook order, loaded or not (result sheets left out), for messages such as
+        "did you mean sheet 'Lane'?". Empty means: the names of ``sheets``.
+    """
 
     path: str
     sheets: dict[str, RawSheet]
+    sheet_names: list[str] = field(default_factory=list)
+
+    def names(self) -> list[str]:
+        """Every sheet name in workbook order (see ``sheet_names``)."""
+        return list(self.sheet_names) or list(self.sheets)
 
 
 def read_workbook(path: str | Path) -> RawWorkbook:
-    """Read every sheet's cell values, and find error cells and formulas without saved results.
+    """Read the cell values of the sheets lanesolve needs, and find error cells and formulas without saved results.
 
     Parameters
     ----------
     path : path-like
-        A workbook: .xlsx, .xlsm (error and formula cells are detected), or .xls, .ods (values only).
+        A workbook: .xlsx, .xlsm (error, formula and percent cells are detected, sizes checked before loading), or
+        .xls, .xlsb, .ods (values only, sizes checked after calamine has read the sheet).
 
     Returns
     -------
     RawWorkbook
-        Sheets whose name starts with :data:`lanesolve.contract.RESULT_PREFIX` (results of an earlier run) are left
-        out.
+        Only sheets for which :func:`lanesolve.contract.is_read_sheet` holds are loaded; sheets whose name starts
+        with :data:`lanesolve.contract.RESULT_PREFIX` (results of an earlier run) are not even listed.
 
     Raises
     ------
     WorkbookError
         The file does not exist, or is not a workbook: a text or CSV file renamed, a damaged or truncated file, a zip
-        archive without a workbook inside, or a password-protected file.
+        archive without a workbook inside, or a password-protected file. A sheet to load reaches beyond
+        :data:`MAX_ROWS`, :data:`MAX_COLUMNS` or :data:`MAX_CELLS` (every such sheet is named), or calamine fails
+        or panics while reading a sheet.
     """
     path = Path(path)
     if not path.exists():
@@ -108,10 +149,10 @@ def read_workbook(path: str | Path) -> RawWorkbook:
     except OSError as exc:
         raise WorkbookError(f"{path} cannot be opened: {exc.strerror or exc} (check that you may read it)") from exc
 
-    part_of_sheet: dict[str, str] = {}
+    package = _Package({}, None)
     if head.startswith(_ZIP_MAGIC):
         guard.check_archive(path)  # before any part is parsed: zip bombs, entity declarations
-        part_of_sheet = _xlsx_sheet_parts(path)
+        package = _xlsx_package(path)
     elif head.startswith(_OLE_MAGIC):
         if _ENCRYPTED_STREAM in path.read_bytes():
             raise WorkbookError(f"{path} is protected with a password; lanesolve cannot read it "
@@ -128,27 +169,87 @@ def read_workbook(path: str | Path) -> RawWorkbook:
     except (python_calamine.CalamineError, ValueError, OSError) as exc:
         raise WorkbookError(f"{path} could not be read as a workbook ({exc}); {_OPEN_AND_SAVE_HINT} "
                             f"as .xlsx") from exc
+    except BaseException as exc:
+        _raise_if_panic(exc, f"{path} could not be read: the workbook reader failed inside ({exc})")
+        raise
 
-    input_names = {contract.normalize(sheet.name) for sheet in contract.INPUT_SHEETS}
+    names = [meta.name for meta in metadata if not meta.name.startswith(contract.RESULT_PREFIX)
+             and meta.typ == python_calamine.SheetTypeEnum.WorkSheet]  # chart and dialog sheets hold no cells
     sheets: dict[str, RawSheet] = {}
-    with _maybe_zip(path, part_of_sheet) as archive:
+    too_big: list[Problem] = []
+    with _maybe_zip(path, package.sheet_parts) as archive:
         for meta in metadata:
             name = meta.name
-            if name.startswith(contract.RESULT_PREFIX):
+            if name not in names or not contract.is_read_sheet(name):
                 continue
-            if meta.typ != python_calamine.SheetTypeEnum.WorkSheet:
-                continue  # chart sheets and dialog sheets hold no cells
-            try:
-                rows = book.get_sheet_by_name(name).to_python(skip_empty_area=False)
-            except (python_calamine.CalamineError, ValueError) as exc:
-                raise WorkbookError(f"{path}: sheet '{name}' could not be read ({exc}); "
-                                    f"{_OPEN_AND_SAVE_HINT}") from exc
             bad: dict[tuple[int, int], str] = {}
-            if archive is not None and contract.normalize(name) in input_names and name in part_of_sheet:
-                bad = _scan_bad_cells(path, archive, part_of_sheet[name])
+            percent: set[tuple[int, int]] = set()
+            if archive is not None and name in package.sheet_parts:
+                part = package.sheet_parts[name]
+                data = sheet_xml.read_part(path, archive, part)
+                problem = _size_problem(name, *sheet_xml.used_extent(data))
+                if problem is not None:
+                    too_big.append(problem)
+                    continue
+                bad = sheet_xml.bad_cells(data, f"{path}: sheet part {part}")
+                if contract.normalize(name) == contract.normalize(contract.SCENARIOS_SHEET) and \
+                        package.styles_part in package.names:
+                    styles = sheet_xml.read_part(path, archive, package.styles_part)
+                    percent = sheet_xml.styled_cells(data, sheet_xml.percent_style_ids(styles))
+                del data
+            rows = _load_rows(path, book, name, too_big)
+            if rows is None:
+                continue
             hidden = meta.visible != python_calamine.SheetVisibleEnum.Visible
-            sheets[name] = RawSheet(name=name, rows=rows, bad_cells=bad, hidden=hidden)
-    return RawWorkbook(path=str(path), sheets=sheets)
+            sheets[name] = RawSheet(name=name, rows=rows, bad_cells=bad, hidden=hidden, percent_cells=percent)
+    if too_big:
+        raise WorkbookError(too_big)
+    return RawWorkbook(path=str(path), sheets=sheets, sheet_names=names)
+
+
+def _load_rows(path: Path, book, name: str, too_big: list[Problem]) -> list[list] | None:
+    """The sheet's cells as Python values; None (and a problem in ``too_big``) when the sheet is too large."""
+    try:
+        sheet = book.get_sheet_by_name(name)
+        end = sheet.end  # (last row, last column), 0-based, or None for an empty sheet
+        if end is not None:
+            problem = _size_problem(name, end[0] + 1, end[1] + 1)
+            if problem is not None:
+                too_big.append(problem)
+                return None
+        return sheet.to_python(skip_empty_area=False)
+    except (python_calamine.CalamineError, ValueError) as exc:
+        raise WorkbookError(f"{path}: sheet '{name}' could not be read ({exc}); {_OPEN_AND_SAVE_HINT}") from exc
+    except BaseException as exc:
+        _raise_if_panic(exc, f"{path}: sheet '{name}' could not be read: the workbook reader failed inside "
+                             f"({exc}); {_OPEN_AND_SAVE_HINT}")
+        raise
+
+
+def _size_problem(name: str, rows: int, columns: int) -> Problem | None:
+    """A problem naming the sheet when it reaches beyond the bounds, else None."""
+    if rows <= MAX_ROWS and columns <= MAX_COLUMNS and rows * columns <= MAX_CELLS:
+        return None
+    reach = [f"reaches row {rows:,}"] if rows > MAX_ROWS else []
+    if columns > MAX_COLUMNS:
+        reach.append(f"reaches column {sheet_xml.column_letters(columns)} ({columns:,} columns)")
+    if not reach:
+        reach.append(f"spans {rows:,} rows by {columns} columns ({rows * columns:,} cells)")
+    return Problem(name, None, None, None,
+                   f"the sheet {' and '.join(reach)}; lanesolve reads at most {MAX_ROWS:,} rows, {MAX_COLUMNS} "
+                   f"columns and {MAX_CELLS:,} cells (rows x columns) in a sheet it needs",
+                   "a cell far below or to the right of the table holds something (often only formatting): select "
+                   "the empty rows and columns after the data, delete them and save; or move notes to another sheet")
+
+
+def _raise_if_panic(exc: BaseException, message: str) -> None:
+    """Turn a panic inside calamine into a WorkbookError; leave every other exception alone.
+
+    pyo3 raises ``pyo3_runtime.PanicException``, which derives from BaseException and cannot be imported by name,
+    so it is recognised by its class name.
+    """
+    if type(exc).__name__ == "PanicException":
+        raise WorkbookError(message) from exc
 
 
 def _not_a_workbook(path: Path, head: bytes) -> str:
@@ -175,8 +276,18 @@ class _maybe_zip:
         return False
 
 
-def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
-    """Map sheet name -> zip member of its XML, from the package relationships (ECMA-376 Part 1, 12.3.23).
+@dataclass
+class _Package:
+    """What the reader needs from an .xlsx/.xlsm package: each sheet's XML part and the styles part."""
+
+    sheet_parts: dict[str, str]
+    styles_part: str | None
+    names: set[str] = field(default_factory=set)
+
+
+def _xlsx_package(path: Path) -> _Package:
+    """Map sheet name -> zip member of its XML, from the package relationships (ECMA-376 Part 1, 12.3.23), and
+    find the styles part.
 
     An OpenDocument file and an .xlsb file (also zips) give an empty map: calamine reads them, but their cells are not
     scanned.
@@ -185,27 +296,30 @@ def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
         with zipfile.ZipFile(path) as archive:
             names = set(archive.namelist())
             if "mimetype" in names and "content.xml" in names:
-                return {}  # OpenDocument spreadsheet
+                return _Package({}, None)  # OpenDocument spreadsheet
             workbook_part = _office_document_part(archive, names)
             if workbook_part is None:
                 raise WorkbookError(f"{path} is a zip archive but holds no workbook; open it in a spreadsheet "
                                     f"program and save it as .xlsx")
             if not workbook_part.lower().endswith(".xml"):
-                return {}  # .xlsb: a binary workbook part; calamine reads it, its cells are not scanned
+                return _Package({}, None)  # .xlsb: a binary workbook part; calamine reads it, cells not scanned
             rels_part = posixpath.join(posixpath.dirname(workbook_part), "_rels",
                                        posixpath.basename(workbook_part) + ".rels")
             targets: dict[str, str] = {}
+            styles_part = None
             if rels_part in names:
                 rels = SafeElementTree.fromstring(archive.read(rels_part))
                 for rel in rels.iter(f"{{{_PKG_REL_NS}}}Relationship"):
                     targets[rel.get("Id")] = _resolve(workbook_part, rel.get("Target", ""))
+                    if rel.get("Type", "").endswith("/styles"):
+                        styles_part = targets[rel.get("Id")]
             parts: dict[str, str] = {}
             for sheet in SafeElementTree.fromstring(archive.read(workbook_part)).iter():
                 if sheet.tag.endswith("}sheet") or sheet.tag == "sheet":
                     rid = sheet.get(f"{{{_REL_NS}}}id")
                     if sheet.get("name") is not None and targets.get(rid) in names:
                         parts[sheet.get("name")] = targets[rid]
-            return parts
+            return _Package(parts, styles_part, names)
     except (zipfile.BadZipFile, EOFError, zipfile.LargeZipFile) as exc:
         raise WorkbookError(f"{path} is damaged or incomplete (perhaps cut short while copying or downloading): "
                             f"{exc}; copy the file again or {_OPEN_AND_SAVE_HINT}") from exc
@@ -215,6 +329,11 @@ def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
     except ElementTree.ParseError as exc:
         raise WorkbookError(f"{path} is damaged: its workbook description cannot be read ({exc}); "
                             f"{_OPEN_AND_SAVE_HINT}") from exc
+
+
+def _xlsx_sheet_parts(path: Path) -> dict[str, str]:
+    """Sheet name -> zip member of its XML (see :func:`_xlsx_package`)."""
+    return _xlsx_package(path).sheet_parts
 
 
 def _office_document_part(archive: zipfile.ZipFile, names: set[str]) -> str | None:
@@ -235,165 +354,3 @@ def _resolve(source_part: str, target: str) -> str:
     return posixpath.normpath(posixpath.join(posixpath.dirname(source_part), target))
 
 
-def _column_number(letters: str) -> int:
-    number = 0
-    for ch in letters.upper():
-        number = number * 26 + (ord(ch) - 64)
-    return number
-
-
-def _scan_bad_cells(path: Path, archive: zipfile.ZipFile, part: str) -> dict[tuple[int, int], str]:
-    """Find error cells and formulas without a saved value in one worksheet part (streaming).
-
-    A cell is ``<c r="B3" t="..."><f>formula</f><v>value</v></c>`` (ECMA-376 Part 1, 18.3.1.4). ``t="e"`` marks an
-    error value. A formula with no ``<v>``, or an empty ``<v/>`` when the result is not text, was never calculated
-    and saved -- openpyxl and other generators write formulas that way.
-    """
-    try:
-        data = archive.read(part)
-    except (zipfile.BadZipFile, EOFError, KeyError, OSError) as exc:
-        raise WorkbookError(f"{path} is damaged: part {part} cannot be read ({exc}); {_OPEN_AND_SAVE_HINT}") from exc
-    if b't="e"' not in data and b"<f" not in data and b":f" not in data:
-        return {}
-    quick = _scan_bad_cells_quick(data)
-    if quick is not None:
-        return quick
-
-    bad: dict[tuple[int, int], str] = {}
-    shared_text: dict[str, str] = {}
-    row_number, col_number = 0, 0
-    try:
-        for event, elem in SafeElementTree.iterparse(io.BytesIO(data), events=("start", "end")):
-            tag = elem.tag.rsplit("}", 1)[-1]
-            if event == "start":
-                if tag == "row":
-                    row_number = int(elem.get("r", row_number + 1))
-                    col_number = 0
-                continue
-            if tag == "c":
-                ref = elem.get("r")
-                match = _CELL_REF.fullmatch(ref) if ref else None
-                if match:
-                    col_number, row_number = _column_number(match.group(1)), int(match.group(2))
-                else:
-                    col_number += 1
-                kind = elem.get("t", "n")
-                formula = value = None
-                for child in elem:
-                    child_tag = child.tag.rsplit("}", 1)[-1]
-                    if child_tag == "f":
-                        formula = child
-                    elif child_tag == "v":
-                        value = child
-                formula_text = None
-                if formula is not None:
-                    formula_text = formula.text
-                    if formula.get("t") == "shared" and formula.get("si") is not None:
-                        if formula_text:
-                            shared_text[formula.get("si")] = formula_text
-                        else:
-                            formula_text = shared_text.get(formula.get("si"))
-                if kind == "e":
-                    text = (value.text or "").strip() if value is not None else ""
-                    shown = text or "an error value"
-                    if formula_text:
-                        shown += f" (from formula ={formula_text})"
-                    bad[(row_number, col_number)] = shown
-                elif formula is not None:
-                    no_value = value is None or (not value.text and kind not in ("str", "inlineStr"))
-                    if no_value:
-                        written = f"formula ={formula_text}" if formula_text else "a formula"
-                        bad[(row_number, col_number)] = f"{written} has no saved value"
-                elem.clear()
-            elif tag == "row":
-                elem.clear()
-    except defusedxml.DefusedXmlException as exc:
-        raise WorkbookError(f"{path}: sheet part {part} declares XML entities, which workbooks never need ({exc}); "
-                            f"lanesolve refuses it for safety: {_OPEN_AND_SAVE_HINT} as a new .xlsx") from exc
-    except ElementTree.ParseError as exc:
-        raise WorkbookError(f"{path} is damaged: sheet part {part} is not well-formed ({exc}); "
-                            f"{_OPEN_AND_SAVE_HINT}") from exc
-    return bad
-
-
-
-_CELL_START = re.compile(rb"<c[\s>]")
-_FORMULA_START = re.compile(rb"<f[\s>/]")
-_TAG_REF = re.compile(rb'\sr="([A-Z]+)([0-9]+)"')
-_TAG_TYPE = re.compile(rb'\st="([A-Za-z]+)"')
-_FORMULA = re.compile(rb"<f((?:\s[^>]*?)?)(?:/>|>(.*?)</f>)", re.S)
-_VALUE = re.compile(rb"<v\s*/>|<v>(.*?)</v>", re.S)
-_SHARED_INDEX = re.compile(rb'\ssi="([0-9]+)"')
-
-
-def _scan_bad_cells_quick(data: bytes) -> dict[tuple[int, int], str] | None:
-    """The same scan as the streaming one, visiting only cells that hold a formula or an error.
-
-    Works on the unprefixed markup common writers produce, with ``r`` first in every cell tag; returns None (use
-    the streaming parser) otherwise, e.g. when elements carry a namespace prefix or a cell lacks its reference.
-    Only literal byte searches run over the whole part, so it costs little beyond the cells it reports.
-    """
-    cells = data.count(b"<c ") + data.count(b"<c>") + data.count(b"<c/>")
-    if b"<sheetData" not in data or cells != data.count(b'<c r="'):
-        return None
-    starts = sorted({m.start() for m in _FORMULA_START.finditer(data)} | set(_find_all(data, b' t="e"')))
-    bad: dict[tuple[int, int], str] = {}
-    shared_text: dict[bytes, str] = {}
-    last_start = -1
-    for marker in starts:
-        start = data.rfind(b"<c", 0, marker + 1)
-        while start >= 0 and not _CELL_START.match(data, start):
-            start = data.rfind(b"<c", 0, start)
-        if start < 0 or start == last_start:
-            continue
-        last_start = start
-        tag_end = data.find(b">", start)
-        tag = data[start:tag_end + 1]
-        end = len(data) if tag.endswith(b"/>") else data.find(b"</c>", tag_end)
-        if end < 0:
-            return None
-        cell = data[tag_end + 1:end]
-        ref = _TAG_REF.search(tag)
-        if ref is None:
-            return None
-        kind_match = _TAG_TYPE.search(tag)
-        kind = kind_match.group(1).decode() if kind_match else "n"
-        formula = _FORMULA.search(cell)
-        value = _VALUE.search(cell)
-        formula_text = None
-        if formula is not None:
-            attrs = formula.group(1) or b""
-            text = formula.group(2)
-            formula_text = _unescape(text.decode("utf-8")) if text else None
-            shared = _SHARED_INDEX.search(attrs) if b'shared' in attrs else None
-            if shared is not None:
-                if formula_text:
-                    shared_text[shared.group(1)] = formula_text
-                else:
-                    formula_text = shared_text.get(shared.group(1))
-        position = (int(ref.group(2)), _column_number(ref.group(1).decode()))
-        if kind == "e":
-            shown = (_unescape(value.group(1).decode("utf-8")).strip() if value is not None and value.group(1)
-                     else "") or "an error value"
-            if formula_text:
-                shown += f" (from formula ={formula_text})"
-            bad[position] = shown
-        elif formula is not None:
-            if value is None or (not value.group(1) and kind not in ("str", "inlineStr")):
-                written = f"formula ={formula_text}" if formula_text else "a formula"
-                bad[position] = f"{written} has no saved value"
-    return bad
-
-
-def _find_all(data: bytes, needle: bytes):
-    at = data.find(needle)
-    while at >= 0:
-        yield at
-        at = data.find(needle, at + 1)
-
-
-def _unescape(text: str) -> str:
-    # The five predefined XML entities plus numeric character references (XML 1.0, 4.6 and 4.1).
-    if "&" not in text:
-        return text
-    return SafeElementTree.fromstring(f"<x>{text}</x>").text or ""

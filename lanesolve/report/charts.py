@@ -31,7 +31,7 @@ from dataclasses import dataclass, field
 from xml.sax.saxutils import escape
 
 from lanesolve.model.network import Network
-from lanesolve.model.result import COST_COMPONENTS, Result
+from lanesolve.model.result import Result
 
 # Palette of our own: muted greens and blues on white, one warm colour for "at its limit", red only for shortfall.
 INK = "#23303a"
@@ -46,9 +46,10 @@ CUSTOMER = "#3d7ea6"
 FLOW = "#4f8a76"
 BAND = "#cadcd3"
 UNUSED = "#c4bfb3"
-COST_COLOURS = {"transport": "#3d7ea6", "handling": "#5b8c7b", "fixed_lane": "#c9a227", "unmet_penalty": SHORT}
-COST_LABELS = {"transport": "Transport", "handling": "Handling", "fixed_lane": "Fixed lane charges",
-               "unmet_penalty": "Unmet-demand penalties"}
+COST_COLOURS = {"transport": "#3d7ea6", "handling": "#5b8c7b", "fixed_lane": "#c9a227", "unmet_penalty": SHORT,
+                "fixed_node": "#7d6b91", "trips": "#8a9a5b"}
+#: Colour of a cost component this module has no colour for.
+OTHER_COST = "#9a948a"
 
 #: Chart width in CSS pixels; the page scales it down to the screen (a phone shows it at ~350 px).
 WIDTH = 480
@@ -258,31 +259,33 @@ def _fmt(value: float) -> str:
 def cost_chart(result: Result, currency: str = "") -> Drawing | None:
     """One stacked bar of the total cost split into its components, with a legend row per component.
 
+    The components, amounts and shares are :meth:`Result.cost_lines` -- the same figures as the cost table, the
+    summary sheet and the mail -- so the chart can never leave a component out. Each legend row reads
+    ``label``, ``amount`` (2 decimals) and ``share`` (1 decimal, ``%``), which a test reads back from the SVG.
+
     Returns None when there is nothing to draw (no plan, or a total of zero).
     """
-    amounts = {k: max(_finite(result.cost_breakdown.get(k)) or 0.0, 0.0) for k in COST_COMPONENTS}
-    total = sum(amounts.values())
+    lines = result.cost_lines()
+    total = sum(max(line.amount, 0.0) for line in lines)
     if total <= 0:
         return None
     money = f" {currency}" if currency else ""
     left, right, bar_top, bar_h = 12.0, WIDTH - 12.0, 14.0, 30.0
     row_h = 24.0
-    drawing = Drawing(WIDTH, bar_top + bar_h + 16 + row_h * len(COST_COMPONENTS), key="cost",
-                      title="Cost breakdown")
+    drawing = Drawing(WIDTH, bar_top + bar_h + 16 + row_h * len(lines), key="cost", title="Cost breakdown")
     x = left
-    for key in COST_COMPONENTS:
-        width = (right - left) * amounts[key] / total
-        drawing.rect(x, bar_top, width, bar_h, COST_COLOURS[key])
+    for line in lines:
+        width = (right - left) * max(line.amount, 0.0) / total
+        drawing.rect(x, bar_top, width, bar_h, COST_COLOURS.get(line.key, OTHER_COST))
         x += width
     parts = []
-    for i, key in enumerate(COST_COMPONENTS):
+    for i, line in enumerate(lines):
         y = bar_top + bar_h + 16 + row_h * i + 12
-        share = amounts[key] / total
-        drawing.rect(left, y - 11, 14, 14, COST_COLOURS[key])
-        drawing.text(left + 22, y, COST_LABELS[key], 13)
-        drawing.text(right - 62, y, f"{amounts[key]:,.2f}{money}", 13, anchor="end")
-        drawing.text(right, y, f"{share * 100:.1f} %", 13, MUTED, anchor="end")
-        parts.append(f"{COST_LABELS[key].lower()} {share * 100:.1f} %")
+        drawing.rect(left, y - 11, 14, 14, COST_COLOURS.get(line.key, OTHER_COST))
+        drawing.text(left + 22, y, line.label, 13)
+        drawing.text(right - 62, y, f"{line.amount:,.2f}{money}", 13, anchor="end")
+        drawing.text(right, y, f"{line.share * 100:.1f} %", 13, MUTED, anchor="end")
+        parts.append(f"{line.label.lower()} {line.share * 100:.1f} %")
     drawing.alt = f"Cost breakdown of the total {total:,.2f}{money}: " + ", ".join(parts) + "."
     return drawing
 

@@ -31,12 +31,14 @@ from typing import TYPE_CHECKING
 from lanesolve import __version__
 from lanesolve.write import atomic
 from lanesolve.write import paths
-from lanesolve.report import summary
+from lanesolve.report import summary, text
 from lanesolve.report import charts as _charts
 from lanesolve.errors import WriteError
 from lanesolve.model.result import Result
 
 if TYPE_CHECKING:
+    import pandas as pd
+
     from lanesolve.model.network import Network
     from lanesolve.runinfo import RunInfo
 
@@ -72,11 +74,23 @@ def subject_for(network: Network, result: Result, info: RunInfo) -> str:
     text = f"Lane plan {Path(info.input_path).name}: {status}"
     if result.status.has_plan:
         text += f", total cost {summary.format_money(result.total_cost, network.settings.currency or '')}"
-    return text
+    return one_line(text)
+
+
+def one_line(text: str) -> str:
+    """Header text with every line break and run of white space as one space.
+
+    A mail header may not hold a line break (RFC 5322, 2.2: a header field is one logical line), and a file named
+    with one -- possible on most file systems -- would otherwise stop the mail from being written.
+
+    >>> one_line("week\\n12.xlsx")
+    'week 12.xlsx'
+    """
+    return " ".join(str(text).split())
 
 
 def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
-                attach: str | os.PathLike | None = None) -> EmailMessage:
+                attach: str | os.PathLike | None = None, comparison: pd.DataFrame | None = None) -> EmailMessage:
     """Build the summary mail: HTML with inline PNG charts, a plain-text alternative, the workbook if asked.
 
     Parameters
@@ -85,6 +99,9 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
         As for :func:`lanesolve.report.summary.render_html`.
     attach : path-like, optional
         A file to attach, normally the solved workbook (``info.output_path``).
+    comparison : DataFrame, optional
+        The what-if scenarios beside the baseline (:func:`lanesolve.model.scenarios.compare`): the mail shows them
+        as the HTML summary does.
 
     Returns
     -------
@@ -98,7 +115,7 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     drawings = _charts.summary_charts(network, result)
     cids = {chart.key: make_msgid(idstring=chart.key, domain=CID_DOMAIN) for chart in drawings}
     html = summary.render_html(network, result, info, warnings, charts=drawings,
-                              image_src=lambda chart: "cid:" + cids[chart.key][1:-1])
+                              image_src=lambda chart: "cid:" + cids[chart.key][1:-1], comparison=comparison)
 
     message = EmailMessage(policy=EML_POLICY)
     message["Subject"] = subject_for(network, result, info)
@@ -106,7 +123,7 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     message["X-Unsent"] = "1"
     # Marks the file as lanesolve's, so a later run may replace it without --force (lanesolve.write.paths).
     message[paths.MAIL_HEADER] = __version__
-    message.set_content(summary.render_text(network, result, info, warnings))
+    message.set_content(text.render_text(network, result, info, warnings, comparison))
     message.add_alternative(html, subtype="html")
     html_part = message.get_payload()[1]
     for chart in drawings:
@@ -120,19 +137,19 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
             raise WriteError(f"Could not read {attach} to attach it to the mail: {exc.strerror or exc} "
                              f"(check that the solved workbook was written)") from exc
         maintype, subtype = WORKBOOK_TYPES.get(attach.suffix.lower(), ("application", "octet-stream"))
-        message.add_attachment(data, maintype=maintype, subtype=subtype, filename=attach.name)
+        message.add_attachment(data, maintype=maintype, subtype=subtype, filename=one_line(attach.name))
     return message
 
 
 def write_email(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list,
-                attach: str | os.PathLike | None = None) -> None:
+                attach: str | os.PathLike | None = None, comparison: pd.DataFrame | None = None) -> None:
     """Write the summary mail to ``path`` (an ``.eml`` file) atomically.
 
     Parameters
     ----------
     path : path-like
         Where the mail goes; open it in a mail program, add the recipients and send.
-    network, result, info, warnings, attach
+    network, result, info, warnings, attach, comparison
         As for :func:`build_email`.
 
     Raises
@@ -141,6 +158,6 @@ def write_email(path: str | os.PathLike, network: Network, result: Result, info:
         The attachment cannot be read, or the file cannot be written (missing folder, no permission).
     """
     path = Path(path)
-    data = build_email(network, result, info, warnings, attach).as_bytes()
+    data = build_email(network, result, info, warnings, attach, comparison).as_bytes()
     with atomic.replacing(path, "the mail") as handle:
         handle.write(data)

@@ -22,9 +22,11 @@ import jinja2
 import pandas as pd
 
 from lanesolve.write import atomic
+from lanesolve.report import advice
 from lanesolve.report import charts as _charts
-from lanesolve.model.result import CAUTION, COST_COMPONENTS, DESIGN_COST_COMPONENTS, Result, SolveStatus, node_decisions
-from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, top_few
+from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
+    CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
+from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, money_words, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
     from lanesolve.model.network import Network
@@ -36,14 +38,6 @@ TEMPLATE_NAME = "summary.html.j2"
 #: How many lanes the "lanes used" table lists before it says "and N more"; the result sheets hold them all.
 TOP_LANES = 25
 
-COST_LABELS = {
-    "transport": "Transport",
-    "handling": "Handling at depots and hubs",
-    "fixed_lane": "Fixed lane charges",
-    "unmet_penalty": "Penalties for unmet demand",
-    "fixed_node": "Fixed depot and hub charges",
-    "trips": "Whole trips (cost per trip)",
-}
 
 STATUS_TEXT = {
     SolveStatus.OPTIMAL: "Optimal plan",
@@ -80,6 +74,29 @@ def format_money(value: object, currency: str = "") -> str:
     if number is None:
         return "–"
     text = f"{number + 0.0:,.2f}"  # + 0.0 turns -0.0 into 0.0 so "-0.00" never shows
+    if text == "-0.00":
+        text = "0.00"
+    return f"{text} {currency}".strip()
+
+
+def format_rate(value: object, currency: str = "") -> str:
+    """A rate (money per unit) with 2 to 4 decimals, so that rate x flow matches the cost shown beside it.
+
+    A rate rounded to 2 decimals (1.19) next to a cost computed from the full rate (1.19034 x 140 = 166.65) reads
+    as an arithmetic slip; four decimals keep the product within a cent for flows up to a few hundred units.
+
+    >>> format_rate(1.190342857, "EUR")
+    '1.1903 EUR'
+    >>> format_rate(2.5)
+    '2.50'
+    """
+    number = _finite(value)
+    if number is None:
+        return "–"
+    text = f"{number + 0.0:,.4f}"
+    whole, _, decimals = text.partition(".")
+    decimals = decimals.rstrip("0").ljust(2, "0")
+    text = f"{whole}.{decimals}"
     if text == "-0.00":
         text = "0.00"
     return f"{text} {currency}".strip()
@@ -129,26 +146,14 @@ def _bar(value: object) -> float:
 
 
 def cost_keys(result: Result) -> list[str]:
-    """The keys of ``result.cost_breakdown`` in report order: the known components first, then any others.
-
-    A v1 result has :data:`~lanesolve.model.result.COST_COMPONENTS`; a v2 one adds ``fixed_node`` and ``trips``. Looping
-    over the keys the result has keeps every component in the breakdown, so the rows add up to the total.
-    """
-    order = [*COST_COMPONENTS, *DESIGN_COST_COMPONENTS]
-    keys = list(result.cost_breakdown)
-    return [k for k in order if k in keys] + [k for k in keys if k not in order]
+    """The keys of ``result.cost_breakdown`` in report order (:func:`lanesolve.model.result.cost_order`)."""
+    return cost_order(result.cost_breakdown)
 
 
 def _cost_rows(result: Result, currency: str) -> list[dict]:
-    keys = cost_keys(result)
-    total = sum(max(_finite(result.cost_breakdown.get(k)) or 0.0, 0.0) for k in keys)
-    rows = []
-    for key in keys:
-        amount = _finite(result.cost_breakdown.get(key)) or 0.0
-        share = amount / total if total > 0 else 0.0
-        rows.append({"label": COST_LABELS.get(key, key.replace("_", " ").capitalize()),
-                     "amount": format_money(amount, currency), "share": format_share(share), "bar": _bar(share)})
-    return rows
+    """The cost table: :meth:`Result.cost_lines`, formatted (the chart beside it draws the same lines)."""
+    return [{"key": line.key, "label": line.label, "amount": format_money(line.amount, currency),
+             "share": format_share(line.share), "bar": _bar(line.share)} for line in result.cost_lines()]
 
 
 def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], int]:
@@ -164,7 +169,7 @@ def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], i
         rows.append({
             "origin": str(lane.origin), "destination": str(lane.destination), "mode": str(lane.mode or ""),
             "flow": format_quantity(lane.flow, units),
-            "cost_per_unit": format_money(lane.cost_per_unit),
+            "cost_per_unit": format_rate(lane.cost_per_unit),
             "variable_cost": format_money(lane.variable_cost),
             "fixed_charge": format_money(lane.fixed_charge) if (_finite(lane.fixed_charge) or 0) > 0 else "–",
             "total_cost": format_money(lane.total_cost, currency),
@@ -268,23 +273,6 @@ def _trip_rows(result: Result, units: str, currency: str) -> list[dict]:
     return rows
 
 
-def singular(units: str) -> str:
-    """The label of one unit: "pallets" -> "pallet", "boxes" -> "box", "tonnes" -> "tonne" (plain English rules).
-
-    >>> [singular(u) for u in ("pallets", "boxes", "lorries", "kg", "units")]
-    ['pallet', 'box', 'lorry', 'kg', 'unit']
-    """
-    word = units.strip() or "units"
-    lower = word.lower()
-    if lower.endswith("ies") and len(word) > 3:
-        return word[:-3] + "y"
-    if lower.endswith(("sses", "xes", "ches", "shes", "zes")):
-        return word[:-2]
-    if lower.endswith("s") and not lower.endswith("ss") and len(word) > 1:
-        return word[:-1]
-    return word
-
-
 def _lane_words(label: str) -> str:
     """A lane label "A -> B (mode)" as "A→B mode", the way a planner says it."""
     if label.count(" -> ") == 1:
@@ -295,7 +283,8 @@ def _lane_words(label: str) -> str:
     return label
 
 
-def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str) -> str:
+def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, units: str, currency: str,
+                         value_up: float | None = None, value_down: float | None = None) -> str:
     """One sensitivity figure in plain words, for the summary page and the mail.
 
     Parameters
@@ -310,6 +299,9 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         Whether the figure is the same in every optimal dual; when not, the sentence says so and shows no number.
     units, currency : str
         The workbook's labels.
+    value_up, value_down : float, optional
+        The two sides when they differ (what one more unit and one unit less cost or save; inf: no plan). Given,
+        the sentence states both.
 
     Returns
     -------
@@ -321,6 +313,8 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     'One more pallet at Runnelby would cost 43.34 EUR.'
     >>> sensitivity_sentence("reduced_cost", "Tarrowick -> Mellisford (rail)", 3.2, True, "pallets", "EUR")
     'Tarrowick→Mellisford rail would need to be 3.20 EUR per pallet cheaper before the plan used it.'
+    >>> sensitivity_sentence("marginal_cost", "Runnelby", math.nan, False, "pallets", "", 0.26, 0.18)
+    'One more pallet at Runnelby would cost 0.26; one less would save 0.18.'
     """
     one = singular(units or "units")
     lane = _lane_words(item)
@@ -331,6 +325,11 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         "lane_capacity_value": f"one more {one} of capacity on {lane}",
         "trip_capacity_value": f"one more {one} of room in the planned trips on {lane}",
     }
+    if not unique and value_up is not None and value_down is not None and figure != "reduced_cost":
+        return _two_sided(figure, subject.get(figure, f"{figure.replace('_', ' ')} of {item}"), value_up,
+                          value_down, currency)
+    if not unique and figure == "reduced_cost" and value_up is not None and math.isinf(value_up):
+        return f"{lane} is unused and no plan can use it as the plan's decisions stand."
     if not unique:
         if figure == "reduced_cost":
             return (f"{lane} is unused; how much cheaper it would need to be is not unique at this plan (the plan "
@@ -338,9 +337,9 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
         what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
         return (f"What {what} is worth is not unique at this plan (the plan is degenerate: more than one figure "
                 "fits it), so none is shown.")
-    amount = format_money(abs(value), currency)
+    amount = money_words(abs(value), currency)
     if figure == "reduced_cost":
-        if abs(value) < 0.005:
+        if abs(value) < 1e-9:
             return f"{lane} is unused, but a plan using it would cost no more (an equally cheap alternative)."
         return f"{lane} would need to be {amount} per {one} cheaper before the plan used it."
     what = subject.get(figure, f"{figure.replace('_', ' ')} of {item}")
@@ -349,6 +348,18 @@ def sensitivity_sentence(figure: str, item: str, value: float, unique: bool, uni
     else:
         verb = "would save" if value >= 0 else "would cost"
     return f"{what[0].upper()}{what[1:]} {verb} {amount}."
+
+
+def _two_sided(figure: str, what: str, up: float, down: float, currency: str) -> str:
+    """Both sides of a figure whose one-more and one-less values differ; a side without a plan is said so."""
+    more, less = ("cost", "save") if figure == "marginal_cost" else ("save", "cost")
+    first = (f"{what[0].upper()}{what[1:]} could not be met by any plan" if math.isinf(up)
+             else f"{what[0].upper()}{what[1:]} would {more} {money_words(up, currency)}")
+    if math.isnan(down):
+        return f"{first}."
+    second = ("one less would leave no plan" if math.isinf(down)
+              else f"one less would {less} {money_words(down, currency)}")
+    return f"{first}; {second}."
 
 
 #: Figures of the "What the plan is sensitive to" section, in order, each with its heading.
@@ -373,7 +384,8 @@ def _sensitivity_context(result: Result, units: str, currency: str) -> dict:
                 continue
             total = int((frame["figure"] == figure).sum())
             groups.append({"heading": heading, "more": max(total - len(rows), 0), "sentences": [
-                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency)
+                sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency,
+                                     float(getattr(r, "value_up", r.value)), float(getattr(r, "value_down", r.value)))
                 for r in rows.itertuples(index=False)]})
     bases = sorted({str(b) for b in frame["basis"]}) if not frame.empty else []
     fixed = FIXED_BASIS in bases
@@ -458,6 +470,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
             ("Unmet demand", format_quantity(unmet_total, units), "unmet"),
             ("Lanes used", f"{len(result.flows):,d}", "lanes-used"),
         ]
+    elif getattr(result.diagnosis, "total_short", None) is not None:  # no plan: the least shortfall, first
+        kpis.append(("Least total shortfall", format_quantity(result.diagnosis.total_short, units), "shortfall"))
     kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
              ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
@@ -490,6 +504,7 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "sensitivity": _sensitivity_context(result, units, currency) if has_plan else {
             "groups": [], "basis": "", "not_computed": False},
         "scenarios": _scenario_rows(comparison, units, currency),
+        "next_steps": advice.next_steps(network, result, comparison),
         "why": why,
         # With a diagnosis the reasons it gives are shown in its own section, not twice in the box above it.
         "reasons": [m for m in messages if m not in set(why["sentences"])] if why else messages,
@@ -591,123 +606,6 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
     """
     template = _environment().get_template(TEMPLATE_NAME)
     return template.render(**build_context(network, result, info, warnings, charts, image_src, comparison))
-
-
-def terminal_lines(network: Network, result: Result, info: RunInfo) -> list[str]:
-    """The compact summary ``lanesolve solve`` prints: status and gap, cost, lanes, shortfall, where files went.
-
-    Parameters
-    ----------
-    network, result, info
-        As for :func:`render_html`.
-
-    Returns
-    -------
-    list of str
-        One line each; notes from the solve follow as ``Note: ...`` lines.
-    """
-    units, currency = network.settings.units or "", network.settings.currency or ""
-    gap = f", gap {_gap_text(result)}" if _finite(result.mip_gap) is not None else ""
-    lines = [f"Status: {STATUS_TEXT.get(result.status, result.status.value)} ({result.status.value}){gap}"]
-    if result.status.has_plan:
-        short = float(result.unmet["quantity"].sum()) if len(result.unmet) else 0.0
-        lines += [f"Total cost: {format_money(result.total_cost, currency)}",
-                  f"Lanes used: {len(result.flows):,d}; customers short: {len(result.unmet):,d}"
-                  + (f" ({format_quantity(short, units)})" if len(result.unmet) else "")]
-    lines.append(f"Results written to {info.output_path}; summary {info.summary_path}")
-    lines += [f"Note: {message}" for message in result.messages]
-    return lines
-
-
-#: Lanes listed in the plain-text summary (the mail's text part); the HTML lists :data:`TOP_LANES`.
-TEXT_LANES = 10
-
-
-def render_text(network: Network, result: Result, info: RunInfo, warnings: list) -> str:
-    """The summary as plain text: the mail's text part, for readers that show no HTML.
-
-    It holds the same figures as the page (formatted by the same code): key figures, cost breakdown, customers
-    short, depot and hub use, the dearest lanes, messages, warnings and the caution line.
-
-    Parameters
-    ----------
-    network, result, info, warnings
-        As for :func:`render_html`.
-
-    Returns
-    -------
-    str
-
-    Examples
-    --------
-    >>> from types import SimpleNamespace
-    >>> from lanesolve.model.network import make_network
-    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
-    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2}])
-    >>> info = SimpleNamespace(input_path="plan.xlsx", started="2024-01-01T08:00:00+00:00", version="0",
-    ...                        checksum="0" * 64)
-    >>> text = render_text(net, Result(SolveStatus.INFEASIBLE, messages=["supply short by 5"]), info, [])
-    >>> print("\\n".join(text.splitlines()[:4]))
-    Lane plan: plan.xlsx
-    Run 2024-01-01T08:00:00+00:00, lanesolve 0
-    <BLANKLINE>
-    No plan was made: No feasible plan (infeasible).
-    """
-    c = build_context(network, result, info, warnings, charts=[])
-    lines = [f"Lane plan: {c['file_name']}", f"Run {c['run_at']}, lanesolve {c['version']}"
-             + (f", {c['solver']}" if c["solver"] else ""), ""]
-    if not c["has_plan"]:
-        lines += [f"No plan was made: {c['status_text']} ({c['status']}).", ""]
-    width = max(len(label) for label, _, _ in c["kpis"])
-    lines += [f"{label + ':':<{width + 1}} {value}" for label, value, _ in c["kpis"]]
-    if c["has_plan"]:
-        lines += ["", "Cost breakdown"]
-        lines += [f"  {row['label']:<30} {row['amount']:>20} {row['share']:>8}" for row in c["costs"]]
-        lines.append(f"  {'Total':<30} {c['total_cost']:>20}")
-        lines += ["", "Customers short" if c["short"] else "Every customer receives its full demand."]
-        lines += [f"  {row['customer']}: {row['quantity']} of {row['demand']} not delivered ({row['share']}), "
-                  f"penalty {row['penalty']}" for row in c["short"]]
-        nodes = [("depot", row) for row in c["depots"]] + [("hub", row) for row in c["hubs"]]
-        if nodes:
-            lines += ["", "Depot and hub utilisation"]
-            lines += [f"  {row['node']} ({kind}): {row['used']} of {row['limit']}"
-                      + (f", {row['utilisation']}" if row["has_limit"] else "") for kind, row in nodes]
-        if c["design"]:
-            lines += ["", "Open and closed"]
-            lines += [f"  {row['node']} ({row['kind']}, given {row['status']}): {row['decision']}"
-                      + (f", fixed charge {row['fixed_charge']}" if row["decision"] == "open" else "")
-                      for row in c["design"]]
-        if c["trips"]:
-            lines += ["", "Trips"]
-            lines += [f"  {row['origin']} -> {row['destination']}" + (f" ({row['mode']})" if row["mode"] else "")
-                      + f": {row['trips']} trips of {row['trip_capacity']} for {row['flow']}, {row['trip_cost']};"
-                      f" last truck {row['last_fill']} full" for row in c["trips"]]
-        sensitivity = c["sensitivity"]
-        if sensitivity["groups"]:
-            lines += ["", "What the plan is sensitive to", f"  {sensitivity['basis']}"]
-            for group in sensitivity["groups"]:
-                lines += [f"  {group['heading']}"] + [f"    - {sentence}" for sentence in group["sentences"]]
-        elif sensitivity["not_computed"]:
-            lines += ["", "What the plan is sensitive to: not shown, as the plan is not proven optimal."]
-        if c["lanes"]:
-            shown = c["lanes"][:TEXT_LANES]
-            rest = len(c["lanes"]) - len(shown) + c["more_lanes"]
-            lines += ["", f"Dearest lanes ({len(shown)} of {len(shown) + rest})"]
-            lines += [f"  {lane['origin']} -> {lane['destination']}" + (f" ({lane['mode']})" if lane["mode"] else "")
-                      + f": {lane['flow']}, {lane['total_cost']}" for lane in shown]
-    if c["has_plan"] and c["messages"]:
-        lines += ["", "Messages"] + [f"  - {m}" for m in c["messages"]]
-    elif c["reasons"]:
-        lines += ["", "Reasons"] + [f"  - {m}" for m in c["reasons"]]
-    if c["why"]:
-        lines += ["", "Why no plan"] + [f"  - {sentence}" for sentence in c["why"]["sentences"]]
-        if c["why"]["penalty"]:
-            lines.append(f"  (found by solving again with shortfall allowed at an internal penalty of "
-                         f"{c['why']['penalty']} per unit short)")
-    if c["warnings"]:
-        lines += ["", "Warnings from reading the workbook"] + [f"  - {w}" for w in c["warnings"]]
-    lines += ["", f"Caution. {c['caution']}", ""]
-    return "\n".join(lines)
 
 
 def write_html(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list,

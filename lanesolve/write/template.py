@@ -7,8 +7,11 @@ cannot drift from what the reader accepts. The workbook holds:
 - a "Guide" sheet first: the steps to run and, for every sheet and column, whether it is required, its unit,
   its default and its meaning;
 - one sheet per input sheet with the headers in row 1 (frozen), a comment on each header (meaning, unit,
-  default), number formats on numeric columns and a yes/no drop-down on flag columns;
-- the Settings sheet prefilled with every setting and its default (blank where there is none).
+  default), number formats on numeric columns and a drop-down on every choice column (yes/no flags, node status);
+- the Settings sheet prefilled with every setting and its default (blank where there is none), with a drop-down on
+  the value of every choice setting (``solver``, ``distance_unit``, yes/no settings);
+- a Scenarios sheet with two example what-ifs that work on any network (they change every row, ``*``), and
+  drop-downs on its ``sheet``, ``column`` and ``change`` columns.
 """
 
 from __future__ import annotations
@@ -26,6 +29,7 @@ from lanesolve.write import atomic
 from lanesolve.write import paths
 from lanesolve import contract
 from lanesolve.errors import WriteError
+from lanesolve.model import scenarios
 
 GUIDE_SHEET = "Guide"
 
@@ -124,6 +128,21 @@ def _column_width(column: contract.Column) -> float:
     return max(len(column.name) + 4, 14 if column.kind in (contract.ID, contract.NUMBER) else 10)
 
 
+def _dropdown(ws, cells: str, choices: tuple[str, ...] | list[str], title: str, hint: str) -> None:
+    """A list drop-down on ``cells``; typing anything else is refused with ``hint``.
+
+    The choices go inline in the validation (a quoted comma list), which spreadsheet programs limit to 255
+    characters (common practice, recalled from memory); every list here is shorter, and a test checks it.
+    """
+    formula = '"' + ",".join(choices) + '"'
+    if len(formula) > 257:
+        raise ValueError(f"drop-down list for {title} is longer than 255 characters")
+    choice = DataValidation(type="list", formula1=formula, allow_blank=True, showDropDown=False,
+                            showErrorMessage=True, errorTitle=title[:32], error=hint)
+    choice.add(cells)
+    ws.add_data_validation(choice)
+
+
 def _add_input_sheet(book: Workbook, sheet: contract.Sheet) -> None:
     ws = book.create_sheet(sheet.name)
     for index, column in enumerate(sheet.columns, start=1):
@@ -138,13 +157,13 @@ def _add_input_sheet(book: Workbook, sheet: contract.Sheet) -> None:
         if column.kind == contract.NUMBER:
             # A column style: a spreadsheet program applies it to every value typed into the column later.
             dimension.number_format = number_format_for(column.unit)
+        cells = f"{letter}2:{letter}{VALIDATION_ROWS + 1}"
         if column.kind == contract.FLAG:
-            choice = DataValidation(type="list", formula1='"yes,no"', allow_blank=True, showDropDown=False,
-                                    showErrorMessage=True, errorTitle=f"{sheet.name}: {column.name}",
-                                    error="Type yes or no (blank means "
-                                          f"{_default_text(column.default)}).")
-            choice.add(f"{letter}2:{letter}{VALIDATION_ROWS + 1}")
-            ws.add_data_validation(choice)
+            _dropdown(ws, cells, ("yes", "no"), f"{sheet.name}: {column.name}",
+                      f"Type yes or no (blank means {_default_text(column.default)}).")
+        elif column.kind == contract.CHOICE and column.choices:
+            _dropdown(ws, cells, column.choices, f"{sheet.name}: {column.name}",
+                      f"Choose one of {', '.join(column.choices)} (blank means {_default_text(column.default)}).")
     ws.freeze_panes = "A2"
 
 
@@ -158,8 +177,63 @@ def _fill_settings(book: Workbook) -> None:
         cell = ws.cell(row=row, column=2, value=value)
         if setting.kind == contract.NUMBER:
             cell.number_format = "General"  # 0.0001 and 60 both read best unformatted
+        choices = ("yes", "no") if setting.kind == contract.FLAG else setting.choices
+        if choices:
+            _dropdown(ws, f"B{row}", choices, f"Settings: {setting.name}",
+                      f"Choose one of {', '.join(choices)} (blank means {_default_text(setting.default)}).")
     ws.column_dimensions["A"].width = max(len(s.name) for s in contract.SETTINGS_ROWS) + 4
     ws.column_dimensions["B"].width = 16
+
+
+#: The example rows of the template's Scenarios sheet: they change every row (``*``), so they run on any network.
+EXAMPLE_SCENARIOS = (
+    ("peak season", "Customers", "*", "demand", "scale", 1.2),
+    ("diesel up 8 %", "Lanes", "*", "cost_per_unit", "scale", 1.08),
+)
+
+SCENARIO_NOTES = {
+    "scenario": "Name of the what-if (any text but 'baseline'). Rows with the same name build one scenario; its "
+                "changes apply in row order to a copy of the workbook.",
+    "sheet": "The sheet the row changes: " + ", ".join(n for n in ("Depots", "Customers", "Hubs", "Lanes",
+                                                                     "Settings")) + ".",
+    "match": "Which rows: an id, a comma list of ids, or * for all. On Lanes origin>destination (every mode) or "
+             "origin>destination>mode; on Settings the setting's name.",
+    "column": "The number or yes/no column to change (demand, capacity, cost_per_unit, active, ...); on Settings "
+              "value.",
+    "change": "set to the value, scale by the value (multiply), or add the value.",
+    "value": "A number, or yes/no for set on a yes/no column. A blank set value means what a blank cell means.",
+}
+
+
+def scenario_columns() -> list[str]:
+    """Every column a Scenarios row may change: the number and yes/no columns of the node and lane sheets, then
+    ``value`` (for Settings)."""
+    names: list[str] = []
+    for sheet in (*contract.NODE_SHEETS, contract.LANES):
+        names += [c.name for c in sheet.columns if c.kind in (contract.NUMBER, contract.FLAG) and c.name not in names]
+    return names + ["value"]
+
+
+def _add_scenarios(book: Workbook) -> None:
+    ws = book.create_sheet(scenarios.SHEET)
+    for index, name in enumerate(scenarios.HEADERS, start=1):
+        cell = ws.cell(row=1, column=index, value=name)
+        cell.font = _HEADER_FONT
+        cell.fill = _HEADER_FILL
+        cell.border = _RULE
+        cell.comment = _comment(SCENARIO_NOTES[name])
+        ws.column_dimensions[get_column_letter(index)].width = 16 if name != "scenario" else 22
+    for row in EXAMPLE_SCENARIOS:
+        ws.append(list(row))
+    last = VALIDATION_ROWS + 1
+    letter = {name: get_column_letter(i) for i, name in enumerate(scenarios.HEADERS, start=1)}
+    _dropdown(ws, f"{letter['sheet']}2:{letter['sheet']}{last}", ("Depots", "Customers", "Hubs", "Lanes", "Settings"),
+              "Scenarios: sheet", "Choose the sheet the row changes.")
+    _dropdown(ws, f"{letter['column']}2:{letter['column']}{last}", scenario_columns(), "Scenarios: column",
+              "Choose a number or yes/no column (value on Settings).")
+    _dropdown(ws, f"{letter['change']}2:{letter['change']}{last}", scenarios.CHANGES, "Scenarios: change",
+              "Choose set, scale or add.")
+    ws.freeze_panes = "A2"
 
 
 def _guide_row(ws, row: int, values: list, font: Font | None = None) -> None:
@@ -230,6 +304,24 @@ def _add_guide(book: Workbook) -> None:
         _guide_row(ws, row, [setting.name, "optional", _KIND_WORDS.get(setting.kind, setting.kind), setting.unit,
                              _default_text(setting.default), setting.doc])
     row += 2
+    _guide_row(ws, row, [f"Sheet {scenarios.SHEET} (optional sheet)"], _SECTION_FONT)
+    row += 1
+    _guide_row(ws, row, ["What-if variants of the workbook, solved beside it (the workbook as given is the "
+                         "baseline). Each row changes one column of the matching rows of one sheet; rows with the "
+                         "same scenario name build one scenario. The two example rows (peak season: every demand "
+                         "x 1.2; diesel up 8 %: every lane cost x 1.08) work on any network: keep, change or "
+                         "delete them. lanesolve solve writes the comparison as the sheet LS Scenarios and in the "
+                         "summary; --scenario NAME solves only some."])
+    ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=len(headers))
+    row += 1
+    _guide_row(ws, row, ["Column", "", "", "", "", "Meaning"], _HEADER_FONT)
+    for index in range(1, len(headers) + 1):
+        ws.cell(row=row, column=index).fill = _HEADER_FILL
+    for name in scenarios.HEADERS:
+        row += 1
+        _guide_row(ws, row, [name, "required" if name != "value" else "optional", "", "", "",
+                             SCENARIO_NOTES[name]])
+    row += 2
     _guide_row(ws, row, [f"Headers: case, surrounding spaces and spaces versus underscores do not matter "
                          f"('Cost per Unit' reads as cost_per_unit). Workbook contract version "
                          f"{contract.CONTRACT_VERSION}."])
@@ -241,13 +333,15 @@ def build_template() -> Workbook:
     Returns
     -------
     openpyxl.Workbook
-        Sheets: Guide, then every sheet of :data:`lanesolve.contract.INPUT_SHEETS` in contract order.
+        Sheets: Guide, then every sheet of :data:`lanesolve.contract.INPUT_SHEETS` in contract order, then
+        Scenarios.
     """
     book = Workbook()
     book.remove(book.active)
     for sheet in contract.INPUT_SHEETS:
         _add_input_sheet(book, sheet)
     _fill_settings(book)
+    _add_scenarios(book)
     _add_guide(book)
     book.active = 0
     return book
@@ -293,7 +387,7 @@ def write_template(path: str | os.PathLike, force: bool = False) -> None:
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "blank.xlsx"
     >>> write_template(target)
     >>> openpyxl.load_workbook(target).sheetnames
-    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings']
+    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings', 'Scenarios']
     """
     if Path(path).suffix.lower() == ".xlsx":  # a wrong suffix gets save_atomically's own message
         path = paths.check_new_file(path, "the template", "template", force).real

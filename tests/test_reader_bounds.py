@@ -1,0 +1,137 @@
+"""The reader loads only the sheets lanesolve needs and refuses, by name, a needed sheet too large to load.
+
+Sheets with extreme extents are written by hand into the zip (tests/_sheet_parts.py). The bounds are the reader's
+stated ones (lanesolve.read.reader.MAX_ROWS, MAX_COLUMNS, MAX_CELLS); the spreadsheet limits they are set against
+-- 1,048,576 rows, 16,384 columns (XFD) -- are those of the Office Open XML format (ECMA-376 Part 1, 18.3.1.73 and
+18.18.62, recalled from memory). A needed sheet that slipped past the check would make calamine ask for hundreds of
+gigabytes and abort the test process, so these tests fail loudly if the check is lost.
+"""
+
+from __future__ import annotations
+
+import python_calamine
+import pytest
+
+from lanesolve.errors import WorkbookError
+from lanesolve.read import reader
+from lanesolve.read.reader import read_workbook
+from lanesolve.read.validate import validate
+
+from _sheet_parts import write_sheet_xml
+from conftest import valid_sheets, write_workbook
+
+
+@pytest.fixture
+def loaded(monkeypatch):
+    """The names of the sheets calamine is asked to load, in order."""
+    names: list[str] = []
+    original = python_calamine.CalamineWorkbook.get_sheet_by_name
+
+    def spy(self, name):
+        names.append(name)
+        return original(self, name)
+
+    monkeypatch.setattr(python_calamine.CalamineWorkbook, "get_sheet_by_name", spy)
+    return names
+
+
+def book_with(tmp_path, extra: dict[str, list[list]] | None = None):
+    return write_workbook(tmp_path / "book.xlsx", {**valid_sheets(), **(extra or {})})
+
+
+@pytest.mark.parametrize("far", ["XFD1048576", "AAA200000"])
+def test_notes_sheet_with_a_far_away_last_cell_is_never_loaded(tmp_path, loaded, far):
+    path = book_with(tmp_path, {"Notes": [["note"]]})
+    write_sheet_xml(path, "Notes", {"A1": "see the plan", far: 1})
+    raw = read_workbook(path)
+    assert "Notes" not in loaded and "Notes" not in raw.sheets and "Notes" in raw.names()
+    network, _ = validate(raw)
+    assert len(network.lanes) == 5
+
+
+def test_large_notes_sheet_is_never_loaded(tmp_path, loaded):
+    path = book_with(tmp_path, {"Notes": [["note"]]})
+    write_sheet_xml(path, "Notes", {f"{column}{row}": row for row in range(1, 30_001) for column in "ABCDEFGHIJ"})
+    raw = read_workbook(path)
+    assert loaded == ["Depots", "Customers", "Hubs", "Lanes", "Settings"]
+    assert list(raw.sheets) == loaded
+
+
+@pytest.mark.parametrize("far, shown", [
+    ("XFD1048576", "reaches column XFD (16,384 columns)"),
+    ("AAA200000", "reaches column AAA (703 columns)"),
+    ("A2000001", "reaches row 2,000,001"),
+    ("GZ2000001", "reaches row 2,000,001 and reaches column GZ (208 columns)"),
+    ("AC1048576", "spans 1,048,576 rows by 29 columns (30,408,704 cells)"),  # above MAX_CELLS, 30,000,000
+])
+def test_needed_sheet_reaching_too_far_is_refused_by_name_before_loading(tmp_path, loaded, far, shown):
+    path = book_with(tmp_path)
+    write_sheet_xml(path, "Lanes", {"A1": "origin", "B1": "destination", "C1": "cost_per_unit", far: 1})
+    with pytest.raises(WorkbookError) as caught:
+        read_workbook(path)
+    (problem,) = caught.value.problems
+    assert problem.sheet == "Lanes" and "Lanes" not in loaded
+    assert problem.message == (f"the sheet {shown}; lanesolve reads at most 1,048,576 rows, 200 columns "
+                               f"and 30,000,000 cells (rows x columns) in a sheet it needs")
+    assert "delete them and save" in problem.hint
+
+
+def test_every_oversized_needed_sheet_is_named_in_one_pass(tmp_path):
+    path = book_with(tmp_path)
+    write_sheet_xml(path, "Lanes", {"A1": "origin", "XFD1": 1})
+    write_sheet_xml(path, "Depots", {"A1": "depot", "A1048576": 1, "GS2": 2})
+    with pytest.raises(WorkbookError) as caught:
+        read_workbook(path)
+    assert [p.sheet for p in caught.value.problems] == ["Depots", "Lanes"]
+
+
+def test_needed_sheet_at_the_bounds_is_read(tmp_path):
+    # 200 columns (GR) is the most accepted; the cell there is a note beside the table.
+    path = book_with(tmp_path)
+    write_sheet_xml(path, "Hubs", {"A1": "hub", "B1": "capacity", "A2": "Midway", "B2": 90, "GR2": "note"})
+    raw = read_workbook(path)
+    assert len(raw.sheets["Hubs"].rows[1]) == 200
+
+
+def test_size_is_checked_after_loading_for_kinds_without_sheet_xml(tmp_path):
+    # .xls/.ods sheets cannot be measured before calamine reads them; the check then runs on calamine's extent,
+    # before the cells become Python values.
+    class Sheet:
+        end = (1_999_999, 3)
+
+        def to_python(self, **_):
+            raise AssertionError("cells of an oversized sheet must not be converted")
+
+    class Book:
+        def get_sheet_by_name(self, name):
+            return Sheet()
+
+    too_big = []
+    assert reader._load_rows(tmp_path / "x.ods", Book(), "Lanes", too_big) is None
+    assert too_big[0].sheet == "Lanes" and too_big[0].message.startswith("the sheet reaches row 2,000,000;")
+
+
+def test_a_panic_inside_calamine_becomes_a_workbook_error_naming_the_sheet(tmp_path, monkeypatch):
+    # pyo3 raises pyo3_runtime.PanicException, a BaseException subclass that cannot be imported by name; a class of
+    # the same name and base stands in for it (pyo3 user guide, "Panics", recalled from memory).
+    class PanicException(BaseException):
+        pass
+
+    def panics(self, name):
+        raise PanicException("chunk size must be non-zero")
+
+    path = book_with(tmp_path)
+    monkeypatch.setattr(python_calamine.CalamineWorkbook, "get_sheet_by_name", panics)
+    with pytest.raises(WorkbookError, match=r"sheet 'Depots' could not be read: the workbook reader failed inside "
+                                            r"\(chunk size must be non-zero\)"):
+        read_workbook(path)
+
+
+def test_other_base_exceptions_from_calamine_are_not_swallowed(tmp_path, monkeypatch):
+    def interrupted(self, name):
+        raise KeyboardInterrupt
+
+    path = book_with(tmp_path)
+    monkeypatch.setattr(python_calamine.CalamineWorkbook, "get_sheet_by_name", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        read_workbook(path)
