@@ -43,7 +43,7 @@ def assert_design_plan_keeps_the_contract(net, result) -> None:
     hub_handling = dict(zip(net.hubs["id"], net.hubs["handling_cost"]))
     for row in result.flows.itertuples(index=False):
         lane = lanes.loc[(row.origin, row.destination, row.mode)]
-        assert TOL < row.flow <= lane["capacity"] + TOL
+        assert 0 < row.flow <= lane["capacity"] + TOL
         if lane["min_volume"] > 0:
             assert row.flow >= lane["min_volume"] - TOL
         outflow[row.origin] = outflow.get(row.origin, 0.0) + row.flow
