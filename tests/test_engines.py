@@ -311,17 +311,17 @@ def test_the_run_gives_the_solver_what_is_left_of_the_limit_after_reading(monkey
     import time
 
     from lanesolve import pipeline
-    from lanesolve.model import diagnose
+    from lanesolve.model import analyse
 
     seen = {}
-    real = diagnose.solve_and_explain
+    real = analyse.solve_and_analyse
 
     def spy(network, **options):
         if not seen:  # the baseline comes first; each scenario after it has its own limit
             seen.update(options, now=time.monotonic())
         return real(network, **options)
 
-    monkeypatch.setattr(diagnose, "solve_and_explain", spy)
+    monkeypatch.setattr(analyse, "solve_and_analyse", spy)
     book = Path(__file__).resolve().parent.parent / "example_workbooks" / "orvale_larder_supply.xlsx"
     before = time.monotonic()
     pipeline.run(book, write=False, time_limit=50)

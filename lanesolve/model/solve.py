@@ -129,10 +129,11 @@ def solve_model(model: SparseModel, solver: str = "cbc", time_limit: float | Non
 def pick_engine(model: SparseModel) -> str:
     """The engine ``auto`` gives a model the network-flow algorithm could not take.
 
-    HiGHS for a model with whole-number decisions: on the published facility-location sets it proves more cases
-    in the same time than CBC and keeps its time limit through presolve and the root LP (benchmarks/README.md,
-    *Engines*). CBC for a pure LP (one whose data the network-flow algorithm cannot scale to exact integers): on
-    large networks its simplex is several times faster than HiGHS's (the same table: the 1M-lane network).
+    HiGHS for a model with whole-number decisions: on the published single-source facility sets it proved cases
+    that CBC left open after 60 s, and it keeps its time limit through presolve and the root LP. CBC for a pure LP
+    (one whose data the network-flow algorithm cannot scale to exact integers): on a 1M-lane network its LP took
+    42 CPU-s against HiGHS's 294 s. Both measured before this choice existed (benchmarks/README.md, *Engines and
+    time limits*, says what was rerun since).
     """
     return "highs" if model.is_mip else "cbc"
 
