@@ -1,5 +1,5 @@
-"""Contract v2 design decisions (open/close nodes, whole trips, minimum volumes, single sourcing) against brute-force
-enumeration of the yes/no decisions and against SciPy ``milp`` on the same data, plus honest status and the v2
+"""Design decisions (open/close nodes, whole trips, minimum volumes, single sourcing) against brute-force
+enumeration of the yes/no decisions and against SciPy ``milp`` on the same data, plus honest status and the design
 columns read from a workbook."""
 
 import itertools

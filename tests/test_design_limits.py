@@ -1,4 +1,4 @@
-"""Issue 3: a solve stopped by its time limit reports ``feasible`` with a gap > 0, never ``optimal``.
+"""A solve stopped by its time limit reports ``feasible`` with a gap > 0, never ``optimal``.
 
 The instance is an invented capacitated facility-location network with fixed-charge lanes (the fixed-charge
 transportation structure, known to be hard for branch and bound): 10 candidate depots (status decide, a fixed cost

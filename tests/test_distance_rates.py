@@ -1,10 +1,10 @@
 """Lane rates from distance through the whole pipeline: Settings rate_per_distance, distance_unit, circuity_factor and
-the Lanes distance column (issue 6, "Rates from distance").
+the Lanes distance column.
 
 References outside the project:
 
 - geographiclib (C. F. F. Karney, "Algorithms for geodesics", Journal of Geodesy 87 (2013) 43-55):
-  ``Geodesic.WGS84.Inverse`` is the WGS84 geodesic; a great circle on a sphere stays within 0.5 % of it (the issue's
+  ``Geodesic.WGS84.Inverse`` is the WGS84 geodesic; a great circle on a sphere stays within 0.5 % of it (the stated
   bound), so a computed cost must be within 0.5 % of rate x geodesic x circuity.
 - 1 international mile = 1.609344 km exactly, by definition (international yard and pound agreement, 1959).
 - The equivalence check: a workbook whose blank costs come from distance must solve to the same total cost as the

@@ -1,7 +1,7 @@
 """The bundled example workbooks solve, and agree with an independent SciPy ``milp`` model of the same data.
 
-The reference model here is written from the issue's "Model v1" text, reading the workbook with openpyxl only (no
-lanesolve code), and solved with :func:`scipy.optimize.milp` (HiGHS), a solver lanesolve does not use:
+The reference model here is written from the README's "What the numbers mean" text, reading the workbook with
+openpyxl only (no lanesolve code), and solved with :func:`scipy.optimize.milp` (HiGHS), a solver lanesolve does not use:
 
     minimise   sum_lanes c_l x_l + sum_depots h_d * (flow out of d) + sum_hubs h_h * (flow into h)
                + sum_lanes f_l y_l + sum_customers p_k u_k
@@ -141,7 +141,7 @@ def test_example_has_the_promised_shape():
     ref = reference_model(EXAMPLE)
     book = openpyxl.load_workbook(EXAMPLE)
     all_lanes = _records(book, "Lanes")
-    # The issue asks for at least 3 depots, 2 hubs, 15 customers and 50 lanes.
+    # The example is meant to be a real network: at least 3 depots, 2 hubs, 15 customers and 50 lanes.
     assert len(ref["depots"]) >= 3 and len(ref["hubs"]) >= 2 and len(ref["customers"]) >= 15
     assert len(all_lanes) >= 50
     assert any(str(l.get("active")).lower() == "no" for l in all_lanes)
@@ -252,7 +252,7 @@ def _scale_column(book, sheet: str, column: str, factor: float, only=None) -> No
 
 
 HAND_EDITS = {
-    # Each what-if on the example's Scenarios sheet, done by hand the same way (issue 6: a scenario's result equals
+    # Each what-if on the example's Scenarios sheet, done by hand the same way (a scenario's result equals
     # solving a workbook edited by hand); the edited copy is solved by the SciPy milp reference above.
     "peak season": lambda book: _scale_column(book, "Customers", "demand", 1.2),
     "diesel up 8 %": lambda book: _scale_column(book, "Lanes", "cost_per_unit", 1.08),

@@ -1,7 +1,8 @@
-"""Random small fixed-charge networks: lanesolve (PuLP + CBC) agrees with SciPy ``milp`` (HiGHS) on the optimum.
+"""Random small fixed-charge networks: lanesolve (its sparse model, CBC) agrees with SciPy ``milp`` (HiGHS) on the optimum.
 
-The reference model is written here from the issue 2 "Model v1" text, in matrix form, independently of
-:mod:`lanesolve.model.formulation`. It uses the loosest big-M that is still obviously safe -- the lane capacity when finite, else
+The reference model is written here from the README's "What the numbers mean" text, in matrix form, independently
+of :mod:`lanesolve.model.formulation`. It uses the loosest big-M that is still obviously safe -- the lane capacity
+when finite, else
 ``10 * (total supply + total demand) + 1`` (an optimum with bounded flows exists: with non-negative costs no optimal
 plan needs flow round a cycle) -- so an over-tight M derived by lanesolve would show up as a higher lanesolve cost.
 """

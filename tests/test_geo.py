@@ -2,7 +2,7 @@
 
 Reference: geographiclib (C. F. F. Karney, "Algorithms for geodesics", Journal of Geodesy 87 (2013) 43-55), whose
 ``Geodesic.WGS84.Inverse`` gives the geodesic on the WGS84 ellipsoid to nanometre accuracy. A sphere cannot follow
-the ellipsoid's flattening, so the check is the issue's bound: within 0.5 %.
+the ellipsoid's flattening, so the check is the stated bound: within 0.5 %.
 """
 
 import math

@@ -1,4 +1,4 @@
-"""Issue 3 presentation: the design, trips, sensitivity and why-no-plan sheets, their HTML sections, the mail's text
+"""Presenting design plans: the design, trips, sensitivity and why-no-plan sheets, their HTML sections, the mail's text
 part and the CLI on a no-plan workbook.
 
 Every scenario here is invented (place names of our own). Expected figures are worked out by hand in the comments;
@@ -30,7 +30,7 @@ INFO = RunInfo("/plans/week-07.xlsx", "/plans/week-07.xlsx", "/plans/week-07-sum
 
 
 def design_network(depot: str = "Quistmoor", customer: str = "Runnelby") -> object:
-    """A v2 network whose optimum is found by hand.
+    """A network with design decisions whose optimum is found by hand.
 
     Depot ``depot`` (status decide, fixed 10, supply 40) serves customer ``customer`` (demand 30) on a lane run in
     trips of 20 at 35 per trip plus 1 per unit, and Harrowquay (demand 5) in trips of 10 at 5 per trip plus 1 per
@@ -76,7 +76,7 @@ def records(result_sheet) -> list[dict]:
 # ------------------------------------------------------------------------------------------------ sheets
 
 
-def test_v2_plan_writes_design_trips_and_sensitivity_sheets_in_order(solved):
+def test_design_plan_writes_design_trips_and_sensitivity_sheets_in_order(solved):
     network, result = solved
     names = [s.name for s in writeback.result_sheets(network, result, INFO)]
     assert names == ["LS Summary", "LS Lane flows", "LS Nodes", "LS Depots and hubs", "LS Trips", "LS Sensitivity"]
@@ -148,7 +148,7 @@ def test_sensitivity_sheet_figures_equal_the_result(solved):
     assert room["value"] == pytest.approx(3.0, abs=1e-6)
 
 
-def test_v1_plan_gains_only_the_sensitivity_sheet():
+def test_plan_without_design_gains_only_the_sensitivity_sheet():
     # Two depots, one customer, plain lanes: by hand the cheaper lane (2 per unit) carries all 5 -> 10.
     network = make_network([{"id": "Oxbarrow", "supply": 9}, {"id": "Pellwick", "supply": 9}],
                            [{"id": "Sorrel Quay", "demand": 5}],
@@ -159,7 +159,7 @@ def test_v1_plan_gains_only_the_sensitivity_sheet():
     sheets = writeback.result_sheets(network, result, INFO)
     assert [s.name for s in sheets] == ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity"]
     items = {r[0] for r in sheets[0].rows}
-    assert "trip costs" not in items and "fixed depot and hub charges" not in items  # v1 keys only
+    assert "trip costs" not in items and "fixed depot and hub charges" not in items  # only the components of a plan without design decisions
     rows = records(sheets[-1])
     assert {r["basis"] for r in rows} == {"LP"}
     # By hand: one more unit at Sorrel Quay also comes from Oxbarrow at 2; Pellwick's lane must fall by 3 - 2 = 1.
@@ -183,7 +183,7 @@ def test_html_shows_open_closed_trips_and_sensitivity_in_plain_words(solved):
     # Harrowquay's figure (degenerate in the LP's duals) is exact from the plan: its trip has room, 1 per unit.
     assert "One more pallet at Harrowquay would cost 1.00 EUR." in page
     assert "yes/no and trip decisions fixed" in page
-    # the breakdown loops over the keys: the v2 components appear with their labels
+    # the breakdown loops over the keys: the design components appear with their labels
     assert report.COST_LABELS["fixed_node"] in page and report.COST_LABELS["trips"] in page
 
 
@@ -206,7 +206,7 @@ def test_mail_text_part_carries_the_same_key_sentences(solved):
 
 
 def test_sentences_for_the_briefs_examples():
-    # Wording of issue 3's presentation brief, reproduced from the figures.
+    # The wording the summary promises, reproduced from the figures.
     say = report.sensitivity_sentence
     assert say("marginal_cost", "Runnelby", 43.34, True, "pallets", "EUR") == \
         "One more pallet at Runnelby would cost 43.34 EUR."

@@ -144,7 +144,7 @@ def test_page_is_self_contained(network, result):
 
 def test_caution_line_present(network, result):
     text = parse(report.render_html(network, result, make_info(), [])).text
-    # The sentence the issue asks for, word for word.
+    # The sentence the summary promises, word for word.
     assert ("Check every plan against vehicle weight limits, driver working-time rules, hazardous-goods rules and "
             "carrier contracts; local regulations and licensed professionals take precedence.") in text
 
@@ -254,3 +254,15 @@ def test_failed_replace_keeps_old_summary_and_cleans_up(tmp_path, network, resul
         report.write_html(target, network, result, make_info(), [])
     assert target.read_text(encoding="utf-8") == "old summary"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["s-summary.html"]
+
+
+def test_source_checkout_finds_the_templates_beside_the_package(monkeypatch):
+    # Running from a source checkout (as CI does after a non-editable install, with the checkout first on sys.path)
+    # there is no lanesolve.templates package: the repository's templates/ folder must be found instead.
+    from lanesolve.report import summary as summary_module
+
+    def no_package(name):
+        raise ModuleNotFoundError(name)
+
+    monkeypatch.setattr(summary_module.resources, "files", no_package)
+    assert (summary_module.template_folder() / summary_module.TEMPLATE_NAME).is_file()

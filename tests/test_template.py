@@ -1,6 +1,6 @@
 """The blank template workbook, read back with openpyxl and python-calamine (readers outside lanesolve).
 
-Expectations come from lanesolve.contract (the single source of sheets, columns and settings) and from the issue's
+Expectations come from lanesolve.contract (the single source of sheets, columns and settings) and from the README's
 requirements for the template: headers in row 1 in contract order, header comments, number formats, frozen header
 rows, a drop-down on every choice column, Settings prefilled, a guidance sheet first that names every column, and a
 Scenarios sheet with example rows.

@@ -60,7 +60,7 @@ def test_valid_workbook_gives_expected_network(tmp_path):
     # inf, blank unmet_penalty -> NaN with no Settings default, blank active -> yes, "y" -> yes, "no" -> no).
     pd.testing.assert_frame_equal(network.depots, pd.DataFrame({
         "id": ["North Yard", "South Yard"], "supply": [100.0, 80.0], "handling_cost": [1.5, 0.0],
-        # contract v2 columns absent from a v1 sheet: no fixed cost, so the status resolves to open
+        # design columns absent from a sheet that has none: no fixed cost, so the status resolves to open
         "fixed_cost": [0.0, 0.0], "status": ["open", "open"],
         "latitude": [52.1, nan], "longitude": [4.3, nan], "row": [2, 3]}), check_dtype=False, atol=1e-12)
     pd.testing.assert_frame_equal(network.customers, pd.DataFrame({
@@ -75,7 +75,7 @@ def test_valid_workbook_gives_expected_network(tmp_path):
         "mode": ["road", "", "road", "rail", "road"],
         "cost_per_unit": [2.0, 2.5, 1.0, 1.2, 3.0], "capacity": [90.0, inf, inf, 50.0, inf],
         "fixed_cost": [0.0, 100.0, 0.0, 0.0, 0.0],
-        # contract v2 lane columns absent: no minimum, no whole trips
+        # design lane columns absent: no minimum, no whole trips
         "min_volume": [0.0] * 5, "trip_capacity": [nan] * 5, "cost_per_trip": [0.0] * 5,
         "active": [True, True, True, False, True], "row": [2, 3, 4, 5, 6]}), check_dtype=False, atol=1e-12)
     assert network.lanes["active"].dtype == bool

@@ -42,7 +42,7 @@ except ImportError:  # pragma: no cover - depends on the state of the other stag
                                checksum=checksum, version=version, started=started)
 
 FORMULA_NAME = "=SUM(A1)"
-# A v1 plan: the three basic sheets plus the sensitivity sheet (issue 3); design, trips and why-no-plan sheets
+# A plan without design decisions: the three basic sheets plus the sensitivity sheet; design, trips and why-no-plan sheets
 # appear only when they apply (tests/test_insight_output.py).
 NEW_NAMES = ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity"]
 

@@ -552,7 +552,7 @@ def template_folder() -> Path:
     try:
         return Path(str(resources.files("lanesolve.templates")))
     except ModuleNotFoundError:
-        return Path(__file__).resolve().parent.parent / "templates"
+        return Path(__file__).resolve().parents[2] / "templates"  # lanesolve/report/ -> repository root
 
 
 def _environment() -> jinja2.Environment:
