@@ -50,8 +50,9 @@ def test_verbose_shows_the_solver_log(tmp_path):
     quiet = invoke(EXAMPLE, "--output", tmp_path / "a.xlsx", "--solver", "cbc")
     loud = invoke(EXAMPLE, "--output", tmp_path / "b.xlsx", "--verbose", "--solver", "cbc")
     assert loud.exit_code == 0, loud.output
-    # CBC's log (HiGHS, the example's engine under auto, writes its log from native code straight to file
-    # descriptor 2, which the test runner does not capture) names the program (text from CBC itself, not from lanesolve); the default run prints none of it.
+    # CBC's log names the program (text from CBC itself, not from lanesolve); the default run prints none of it.
+    # CBC is named because HiGHS, the example's engine under auto, writes its log from native code straight to
+    # file descriptor 2, which the test runner does not capture.
     assert "Cbc" in loud.stderr or "CBC" in loud.stderr
     assert len(loud.output) > len(quiet.output) + 200
     assert "Cbc" not in quiet.output
