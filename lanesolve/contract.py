@@ -473,7 +473,7 @@ def setting_value(setting: Setting, cell) -> tuple[object, tuple[str, str] | Non
     >>> setting_value(setting_by_name("solver"), "HiGHS")
     ('highs', None)
     >>> setting_value(setting_by_name("solver"), "gurobi")[1][0]
-    "'gurobi' is not one of cbc, highs for setting 'solver'"
+    "'gurobi' is not one of auto, cbc, highs for setting 'solver'"
     """
     if blank_cell(cell):
         return setting.default, None
