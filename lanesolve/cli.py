@@ -139,6 +139,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
     from lanesolve.pipeline import run
     from lanesolve.progress import TerminalProgress, no_progress
+    from lanesolve.report.carrier_report import change_lines
     from lanesolve.report.text import terminal_lines
 
     if attach_workbook and not email_path:
@@ -167,18 +168,22 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     if not quiet:
         for line in terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison):
             _say(line, err=as_json)
+        for line in change_lines(outcome.changes, outcome.network.settings):
+            _say(line, err=as_json)
         if email_path:
             _say(f"Mail written to {email_path}" + (" (solved workbook attached)" if attach_workbook else ""),
                  err=as_json)
 
 
 def _write_email(path: str, outcome, attach_workbook: bool) -> None:
+    from lanesolve.report.carrier_report import summary_extra
     from lanesolve.report.mail import write_email
 
     try:
         write_email(outcome.plan.mail.real, outcome.network, outcome.result, outcome.info, outcome.warnings,
                     attach=outcome.info.output_path if attach_workbook else None,
-                    comparison=getattr(outcome, "comparison", None))
+                    comparison=getattr(outcome, "comparison", None),
+                    extra=summary_extra(outcome.result, getattr(outcome, "changes", None), outcome.network.settings))
     except WriteError as error:
         # The workbook and summary are written by now; say so rather than let "not written" cover them too.
         raise WriteError(f"the results were written to {outcome.info.output_path} and "

@@ -169,6 +169,52 @@ LANES = Sheet(
                    "distance between the two ends' latitude/longitude times the Settings circuity_factor."),
         Column("active", FLAG, default=True,
                doc="yes or no (blank means yes). Lanes marked no are left out of the plan but still reported."),
+        Column("carrier", TEXT, default="",
+               doc="Optional id of the carrier that runs the lane, as on the Carriers sheet. Its commitments count "
+                   "the units on all its lanes."),
+        Column("minimum_charge", NUMBER, default=0.0, minimum=0, unit="currency",
+               doc="If the lane is used, its variable cost is at least this (a tariff's minimum charge per lane). "
+                   "Blank means 0."),
+    ),
+)
+
+#: Rate-break kinds (Rate breaks ``kind``): the new rate applies to the units above the break, or to every unit.
+BREAK_KINDS = ("incremental", "all_units")
+
+CARRIERS = Sheet(
+    "Carriers",
+    required=False,
+    id_column="carrier",
+    doc="Optional. Commitments of an award: per carrier the least and most units across all its lanes, and the "
+        "largest share of all units delivered.",
+    columns=(
+        Column("carrier", ID, required=True, doc="Id of the carrier, as written in the Lanes column carrier."),
+        Column("min_volume", NUMBER, minimum=0, unit="units",
+               doc="Least units the carrier's lanes carry together in the period. Blank means no minimum."),
+        Column("max_volume", NUMBER, minimum=0, unit="units",
+               doc="Most units the carrier's lanes carry together in the period. Blank means no maximum."),
+        Column("max_share", NUMBER, minimum=0, maximum=1, unit="fraction",
+               doc="Largest fraction (0 to 1) of all units delivered to customers that the carrier's lanes may "
+                   "carry. Blank means no limit."),
+    ),
+)
+
+RATE_BREAKS = Sheet(
+    "Rate breaks",
+    required=False,
+    doc="Optional. Volume tariffs: from a volume on, a lane costs a different rate per unit.",
+    columns=(
+        Column("origin", ID, required=True, doc="Origin of the lane, as on the Lanes sheet."),
+        Column("destination", ID, required=True, doc="Destination of the lane, as on the Lanes sheet."),
+        Column("mode", TEXT, default="", doc="Mode of the lane, as on the Lanes sheet (blank for a lane with none)."),
+        Column("from_volume", NUMBER, required=True, minimum=0, unit="units",
+               doc="Volume (more than 0) from which cost_per_unit applies. The lane's own cost_per_unit applies "
+                   "from 0 to its first break."),
+        Column("cost_per_unit", NUMBER, required=True, minimum=0, unit="currency per unit",
+               doc="The rate from from_volume on."),
+        Column("kind", CHOICE, required=True, choices=BREAK_KINDS,
+               doc="incremental: the rate applies to the units above from_volume; all_units: it applies to every "
+                   "unit once the lane carries at least from_volume. All rows of one lane share one kind."),
     ),
 )
 
@@ -230,7 +276,7 @@ SETTINGS_ROWS = (
             fixed_for_scenarios="every scenario is compared in the workbook's own currency"),
 )
 
-INPUT_SHEETS = (DEPOTS, CUSTOMERS, HUBS, LANES, SETTINGS)
+INPUT_SHEETS = (DEPOTS, CUSTOMERS, HUBS, LANES, CARRIERS, RATE_BREAKS, SETTINGS)
 NODE_SHEETS = (DEPOTS, CUSTOMERS, HUBS)
 #: The optional what-if sheet (its columns are read by :mod:`lanesolve.model.scenarios`).
 SCENARIOS_SHEET = "Scenarios"

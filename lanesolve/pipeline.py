@@ -28,6 +28,10 @@ import pandas as pd
 
 from lanesolve.write import atomic
 from lanesolve.model import checks
+from lanesolve.model import plan_changes
+from lanesolve.write import carrier_tables
+from lanesolve.write import earlier_plan
+from lanesolve.model import carrier_checks
 from lanesolve import contract
 from lanesolve.read import guard
 from lanesolve.write import locking
@@ -35,6 +39,7 @@ from lanesolve.read import reader
 from lanesolve.read import source
 from lanesolve.write import paths
 from lanesolve.report import summary
+from lanesolve.report import carrier_report
 from lanesolve.model import scenarios
 from lanesolve.model import analyse
 from lanesolve.read import validate
@@ -58,6 +63,7 @@ class RunOutcome:
     scenario_results: dict[str, Result] = field(default_factory=dict)
     comparison: pd.DataFrame | None = None
     plan: WritePlan | None = None
+    changes: plan_changes.PlanChanges | None = None
 
     def to_json(self) -> dict:
         doc = self.result.to_json()
@@ -67,6 +73,8 @@ class RunOutcome:
                 distance, source = sources.get((flow["origin"], flow["destination"], flow["mode"]), (None, None))
                 flow["distance"] = distance if distance == distance else None  # NaN -> null
                 flow["cost_source"] = source
+        if self.changes is not None:
+            doc["changes"], doc["changes_summary"] = self.changes.to_json()
         if self.scenario_results:
             doc["scenarios"] = [{"scenario": name, **result.to_json()}
                                 for name, result in self.scenario_results.items()]
@@ -134,7 +142,7 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     ``started`` (a :func:`time.monotonic` time) is when the time limit began to run: the solver gets what is left
     of it (the run's limit covers everything after reading).
     """
-    reasons = checks.presolve_checks(network)
+    reasons = checks.presolve_checks(network) + carrier_checks.presolve_checks(network)
     if reasons:
         return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
     limit = time_limit if time_limit is not None else network.settings.time_limit_s
@@ -257,6 +265,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
         guard.check_write_target(path, plan.workbook.given)  # by name alone: an .ods is refused unread
     raw, mark = _read(path)
     read_done = time.monotonic()  # the time limit covers everything after reading
+    earlier = earlier_plan.read_earlier_plan(path)  # the plan the workbook's earlier result sheets hold
     if plan is not None:
         # By content after reading, so a file that is no workbook at all is called that (an input error).
         guard.check_write_target(path, plan.workbook.given)
@@ -279,7 +288,8 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
     comparison = scenarios.compare(result, scenario_results) if scenario_results else None
-    outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison, plan)
+    outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison, plan,
+                         plan_changes.compare_plans(earlier, result, network))
 
     if plan is not None:
         before_write(outcome)
@@ -294,10 +304,13 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
         sheets = writeback.result_sheets(network, result, info)
         if comparison is not None:
             sheets.append(writeback.scenario_sheet(comparison, network.settings))
+        sheets += [sheet for sheet in (carrier_tables.carriers_sheet(result, network.settings),
+                                       carrier_tables.changes_sheet(outcome.changes, network.settings)) if sheet]
         writeback.write_results(path, plan.workbook.real, sheets, before_replace=unchanged)
         result.timings["write"] = time.perf_counter() - tick
         tick = time.perf_counter()
-        summary.write_html(plan.summary.real, network, result, info, warnings, comparison)
+        summary.write_html(plan.summary.real, network, result, info, warnings, comparison,
+                           extra=carrier_report.summary_extra(result, outcome.changes, network.settings))
         result.timings["report"] = time.perf_counter() - tick
 
     if result.status is SolveStatus.NOT_SOLVED:

@@ -20,12 +20,16 @@ def test_default_summary_is_compact(tmp_path):
     assert run.exit_code == 0, run.output
     lines = run.output.strip().splitlines()
     # four lines of figures, then one line per scenario (the example has five, plus the baseline) and per
-    # "What to do next" sentence, each under its heading; nothing else
+    # "What to do next" sentence, each under its heading, where the files went, and one line saying there is no
+    # earlier run to compare with (the example holds no results); nothing else
     steps = lines.index("What to do next:")
     scenarios = lines.index("Scenarios (total cost, change against the baseline, not delivered):")
+    written = next(i for i, line in enumerate(lines) if line.startswith("Results written to "))
     assert scenarios < steps and steps - scenarios == 1 + 6
-    assert all(line.startswith("  - ") for line in lines[steps + 1:-1])
-    assert len(lines) <= 4 + 7 + 1 + 10
+    assert all(line.startswith("  - ") for line in lines[steps + 1:written])
+    assert lines[written + 1:] == ["No earlier run: the workbook holds no results of an earlier lanesolve run to "
+                                   "compare with."]
+    assert len(lines) <= 4 + 7 + 1 + 10 + 1
     assert lines[0].startswith("Status: Optimal plan (optimal)")
     assert any(line.startswith("Total cost: ") and line.endswith(" EUR") for line in lines)
     assert any("s-summary.html" in line for line in lines)

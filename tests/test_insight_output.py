@@ -298,7 +298,9 @@ def test_rerun_after_the_fix_drops_the_stale_why_no_plan_sheet(tmp_path):
     assert run.exit_code == 0, run.output
     names = openpyxl.load_workbook(path).sheetnames
     assert "LS Why no plan" not in names and "LS Sensitivity" in names
-    assert [n for n in names if n.startswith("LS ")] == ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity"]
+    # The rerun finds the earlier run's results, so it also lists what changed (LS Changes).
+    assert [n for n in names if n.startswith("LS ")] == ["LS Summary", "LS Lane flows", "LS Nodes", "LS Sensitivity",
+                                                         "LS Changes"]
 
 
 def test_solver_option_is_passed_to_the_run(tmp_path, monkeypatch):

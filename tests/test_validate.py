@@ -77,7 +77,9 @@ def test_valid_workbook_gives_expected_network(tmp_path):
         "fixed_cost": [0.0, 100.0, 0.0, 0.0, 0.0],
         # design lane columns absent: no minimum, no whole trips
         "min_volume": [0.0] * 5, "trip_capacity": [nan] * 5, "cost_per_trip": [0.0] * 5,
-        "active": [True, True, True, False, True], "row": [2, 3, 4, 5, 6]}), check_dtype=False, atol=1e-12)
+        "active": [True, True, True, False, True],
+        # carrier columns absent: no carrier, no minimum charge
+        "carrier": [""] * 5, "minimum_charge": [0.0] * 5, "row": [2, 3, 4, 5, 6]}), check_dtype=False, atol=1e-12)
     assert network.lanes["active"].dtype == bool
     assert network.settings.units == "pallets"
     assert network.settings.time_limit_s == pytest.approx(30.0, abs=1e-12)

@@ -68,6 +68,9 @@ class SparseModel:
         Per-unit unmet penalty per customer row (NaN for a hard demand).
     design : bool
         The network has design decisions (the breakdown then lists the design components too).
+    lane_cost_terms : object or None
+        Columns other than the flow columns that carry part of a lane's transport cost (rate-break segments,
+        minimum-charge top-ups): a :class:`lanesolve.model.tariffs.LaneCostTerms`, None without carrier terms.
     """
 
     lower: np.ndarray
@@ -85,6 +88,7 @@ class SparseModel:
     big_m: dict[int, float]
     penalty: np.ndarray
     design: bool = False
+    lane_cost_terms: object = None
 
     @property
     def n_columns(self) -> int:

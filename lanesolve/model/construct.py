@@ -218,8 +218,11 @@ def construct(model: SparseModel, seconds: float, bound: float | None = None, im
         bound = relaxed_bound if bound is None else max(bound, relaxed_bound)
 
     lower, upper = round_decisions(model, relaxed_value)
-    integer = np.zeros(model.n_columns, dtype=bool)
-    integer[single_source_columns(model)] = True  # single-source choices stay whole; trips are relaxed
+    # Every whole-number column the rounding did not fix stays whole (single-source choices, and any other family
+    # such as a carrier's rate-break choices), except trips, which are relaxed and rounded up afterwards.
+    integer = model.integer.copy()
+    integer[decision_columns(model)] = False
+    integer[model.columns("trips_")] = False
     use = np.arange(model.n_columns)[model.columns("use_")]
     # Fallback: nodes fixed as rounded, every lane decision left to HiGHS.
     lower_nodes, upper_nodes = lower.copy(), upper.copy()

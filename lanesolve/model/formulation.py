@@ -110,6 +110,14 @@ flows, and a lane or node whose flow reaches 0 may drop its charge and trips). A
 exception: cutting a path may leave a lane between 0 and its minimum, so with ``min_volume`` the bounds marked † and
 the fallback (a) are proven only for plans that return no goods to a depot -- the plans a planner means.
 
+Carrier terms (only built when :attr:`~lanesolve.model.network.Network.has_carrier_terms`)
+----------------------------------------------------------------------------------------
+Carrier commitments (``carrier_min_``, ``carrier_max_``, ``carrier_share_``), minimum charges per lane
+(``charged_``, ``min_charge_``) and volume rate breaks (``tariff_``: convex incremental rates as an LP, falling
+incremental rates by the incremental model, all-units rates by the multiple choice model of Croxton, Gendron &
+Magnanti 2003, Management Science 49(9)) are stated, with their sources and big-M bounds :math:`\\min(u_l, M_l)`,
+in :mod:`lanesolve.model.tariffs`.
+
 Examples
 --------
 >>> from lanesolve.model.network import make_network
@@ -131,6 +139,7 @@ import pandas as pd
 from lanesolve.model.arrays import Assembly, SparseModel
 from lanesolve.model.network import Network
 from lanesolve.model.result import COST_COMPONENTS, DESIGN_COST_COMPONENTS
+from lanesolve.model.tariffs import add_carrier_terms
 
 
 def customer_penalties(network: Network) -> np.ndarray:
@@ -493,7 +502,7 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
                               costs={"unmet_penalty": penalty[soft]})
 
     need = needs_use(network)
-    bounds = lane_bounds(network) if (need.any() or design) else np.zeros(len(lanes))
+    bounds = lane_bounds(network) if (need.any() or design or network.has_carrier_terms) else np.zeros(len(lanes))
     add_depot_supply(model, network, ends)
     add_customer_balance(model, network, ends, unmet, soft)
     add_hub_flow(model, network, ends)
@@ -509,7 +518,8 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
                 add_open_links(model, network, ends, kind, open_of_node, bounds)
             add_max_open(model, network, kind, open_of_node)
         constant["fixed_node"] = fixed_charges_of_open_nodes(network)
-    return model.finish(constant=constant, lane_index=lanes.index.to_numpy(),
+    lane_cost_terms = add_carrier_terms(model, network, flow, unmet, soft, bounds, capacity)
+    return model.finish(lane_cost_terms=lane_cost_terms, constant=constant, lane_index=lanes.index.to_numpy(),
                         unmet_index=customers.index[soft].to_numpy(),
                         big_m=dict(zip(lanes.index[need].tolist(), bounds[need].tolist())), penalty=penalty,
                         design=design)

@@ -8,13 +8,16 @@ depots     id, supply, handling_cost, fixed_cost, status, latitude, longitude, r
 customers  id, demand, unmet_penalty, single_source, latitude, longitude, row
 hubs       id, capacity, handling_cost, fixed_cost, status, latitude, longitude, row
 lanes      origin, destination, mode, cost_per_unit, capacity, fixed_cost, min_volume, trip_capacity, cost_per_trip,
-           active, row
+           active, carrier, minimum_charge, row
+carriers   id, min_volume, max_volume, max_share, row (the optional Carriers sheet; empty without it)
+rate_breaks  lane, from_volume, cost_per_unit, kind, row (the optional Rate breaks sheet; empty without it)
 lane_sources  distance, cost_source, sheet (same index as lanes)
 
 Contract v2 columns, resolved: ``status`` is ``"open"``, ``"closed"`` or ``"decide"`` (a blank status is already
 ``decide`` when the node has a fixed cost, else ``open``); ``single_source`` is a bool (a blank one already takes
 the Settings default); ``trip_capacity`` is NaN when the lane is not run in whole trips; ``min_volume`` and
-``cost_per_trip`` are 0 when not given.
+``cost_per_trip`` are 0 when not given; ``carrier`` is ``""`` for a lane with no carrier and ``minimum_charge`` 0
+when not given.
 
 Rates from distance: ``cost_per_unit`` is always a number. :attr:`Network.lane_sources` says, per lane, where it
 came from: ``cost_source`` (``"given"``, ``"rate x distance"`` or ``"rate x great circle x circuity"``, see
@@ -38,11 +41,16 @@ DEPOT_COLUMNS = ["id", "supply", "handling_cost", "fixed_cost", "status", "latit
 CUSTOMER_COLUMNS = ["id", "demand", "unmet_penalty", "single_source", "latitude", "longitude", "row"]
 HUB_COLUMNS = ["id", "capacity", "handling_cost", "fixed_cost", "status", "latitude", "longitude", "row"]
 LANE_COLUMNS = ["origin", "destination", "mode", "cost_per_unit", "capacity", "fixed_cost", "min_volume",
-                "trip_capacity", "cost_per_trip", "active", "row"]
+                "trip_capacity", "cost_per_trip", "active", "carrier", "minimum_charge", "row"]
 #: Columns of :attr:`Network.lane_sources`: where each lane and its cost came from.
 LANE_SOURCE_COLUMNS = ["distance", "cost_source", "sheet"]
 #: Columns holding text (everything else is a number, except the bool ``active`` / ``single_source`` and ``row``).
-TEXT_COLUMNS = frozenset({"id", "origin", "destination", "mode", "status"})
+TEXT_COLUMNS = frozenset({"id", "origin", "destination", "mode", "status", "carrier"})
+#: Columns of :attr:`Network.carriers`: one row per carrier of the Carriers sheet; NaN means no such commitment.
+CARRIER_COLUMNS = ["id", "min_volume", "max_volume", "max_share", "row"]
+#: Columns of :attr:`Network.rate_breaks`: one row per break, ``lane`` the lane's index in ``lanes``, sorted by lane
+#: and ``from_volume``; ``kind`` is ``"incremental"`` or ``"all_units"`` (one kind per lane).
+RATE_BREAK_COLUMNS = ["lane", "from_volume", "cost_per_unit", "kind", "row"]
 BOOL_COLUMNS = frozenset({"active", "single_source"})
 
 
@@ -83,6 +91,14 @@ class Network:
     settings: Settings = field(default_factory=Settings)
     source: str = ""
     lane_sources: pd.DataFrame | None = None
+    carriers: pd.DataFrame = field(default_factory=lambda: empty_carriers())
+    rate_breaks: pd.DataFrame = field(default_factory=lambda: empty_rate_breaks())
+
+    @property
+    def has_carrier_terms(self) -> bool:
+        """True when the network has carrier commitments, minimum charges or rate breaks."""
+        lanes = self.active_lanes
+        return bool(len(self.carriers) or len(self.rate_breaks) or (lanes["minimum_charge"] > 0).any())
 
     def cost_sources(self) -> pd.DataFrame:
         """:attr:`lane_sources` aligned with :attr:`lanes`; lanes built without one count as given on sheet Lanes."""
@@ -133,12 +149,63 @@ class Network:
                     or self.settings.max_open_depots is not None or self.settings.max_open_hubs is not None)
 
 
+def empty_carriers() -> pd.DataFrame:
+    """A :attr:`Network.carriers` frame with no carrier."""
+    return pd.DataFrame({"id": pd.Series(dtype=object), "min_volume": pd.Series(dtype=float),
+                         "max_volume": pd.Series(dtype=float), "max_share": pd.Series(dtype=float),
+                         "row": pd.Series(dtype=int)})
+
+
+def empty_rate_breaks() -> pd.DataFrame:
+    """A :attr:`Network.rate_breaks` frame with no break."""
+    return pd.DataFrame({"lane": pd.Series(dtype=int), "from_volume": pd.Series(dtype=float),
+                         "cost_per_unit": pd.Series(dtype=float), "kind": pd.Series(dtype=object),
+                         "row": pd.Series(dtype=int)})
+
+
+def carrier_frame(records: list[dict] | pd.DataFrame | None) -> pd.DataFrame:
+    """A :attr:`Network.carriers` frame from records with ``id`` and any of the commitments (missing = none).
+
+    >>> carrier_frame([{"id": "K", "min_volume": 5}])[["id", "min_volume", "max_share"]].values.tolist()
+    [['K', 5.0, nan]]
+    """
+    frame = pd.DataFrame(records if records is not None else [])
+    if frame.empty:
+        return empty_carriers()
+    for col in CARRIER_COLUMNS[1:-1]:
+        frame[col] = frame[col].astype(float) if col in frame else math.nan
+    if "row" not in frame:
+        frame["row"] = range(2, len(frame) + 2)
+    frame["id"] = frame["id"].astype(str).astype(object)
+    return frame[CARRIER_COLUMNS].reset_index(drop=True)
+
+
+def rate_break_frame(lanes: pd.DataFrame, records: list[dict] | pd.DataFrame | None) -> pd.DataFrame:
+    """A :attr:`Network.rate_breaks` frame from records naming the lane by ``origin``, ``destination`` and
+    ``mode`` (or by ``lane`` index), sorted by lane and ``from_volume``. No validation (see
+    :mod:`lanesolve.read.carrier_sheets` for workbook input)."""
+    frame = pd.DataFrame(records if records is not None else [])
+    if frame.empty:
+        return empty_rate_breaks()
+    if "lane" not in frame:
+        keys = {key: i for i, key in enumerate(zip(lanes["origin"], lanes["destination"], lanes["mode"]))}
+        mode = frame["mode"] if "mode" in frame else pd.Series("", index=frame.index)
+        frame["lane"] = [keys[(o, d, m)] for o, d, m in zip(frame["origin"], frame["destination"], mode.fillna(""))]
+    if "row" not in frame:
+        frame["row"] = range(2, len(frame) + 2)
+    frame = frame.astype({"lane": int, "from_volume": float, "cost_per_unit": float, "row": int})
+    frame["kind"] = frame["kind"].astype(object)
+    return frame[RATE_BREAK_COLUMNS].sort_values(["lane", "from_volume"], kind="stable").reset_index(drop=True)
+
+
 def make_network(
     depots: list[dict] | pd.DataFrame,
     customers: list[dict] | pd.DataFrame,
     lanes: list[dict] | pd.DataFrame,
     hubs: list[dict] | pd.DataFrame | None = None,
     settings: Settings | None = None,
+    carriers: list[dict] | pd.DataFrame | None = None,
+    rate_breaks: list[dict] | pd.DataFrame | None = None,
 ) -> Network:
     """Build a :class:`Network` from plain records, filling defaults; meant for tests and the Python API.
 
@@ -160,7 +227,7 @@ def make_network(
         "hubs": {"capacity": math.inf, "handling_cost": 0.0, "fixed_cost": 0.0, "status": "", "latitude": math.nan,
                  "longitude": math.nan},
         "lanes": {"mode": "", "capacity": math.inf, "fixed_cost": 0.0, "min_volume": 0.0, "trip_capacity": math.nan,
-                  "cost_per_trip": 0.0, "active": True},
+                  "cost_per_trip": 0.0, "active": True, "carrier": "", "minimum_charge": 0.0},
     }
     settings = settings or Settings()
     columns = {"depots": DEPOT_COLUMNS, "customers": CUSTOMER_COLUMNS, "hubs": HUB_COLUMNS, "lanes": LANE_COLUMNS}
@@ -192,10 +259,13 @@ def make_network(
                 df[col] = df[col].astype(float)
         return df
 
+    lane_frame = frame("lanes", lanes)
     return Network(
         depots=frame("depots", depots),
         customers=frame("customers", customers),
         hubs=frame("hubs", hubs),
-        lanes=frame("lanes", lanes),
+        lanes=lane_frame,
         settings=settings,
+        carriers=carrier_frame(carriers),
+        rate_breaks=rate_break_frame(lane_frame, rate_breaks),
     )

@@ -82,8 +82,11 @@ class FlowAnswer:
 
 
 def applies(network: Network) -> bool:
-    """True when ``network`` is a pure min-cost flow (no yes/no or trip decisions): :func:`solve_flow` may take it."""
-    return not network.has_fixed_charges and not network.has_design
+    """True when ``network`` is a pure min-cost flow (no yes/no or trip decisions, no carrier terms):
+    :func:`solve_flow` may take it."""
+    # Carrier terms (commitments, minimum charges, rate breaks) add rows or columns a network algorithm cannot take.
+    return (not network.has_fixed_charges and not network.has_design
+            and not getattr(network, "has_carrier_terms", False))
 
 
 def decimal_scale(values: np.ndarray) -> int | None:

@@ -79,6 +79,12 @@ def cost_order(keys) -> list[str]:
 OPEN_NODE_COLUMNS = ["node", "kind", "status", "open", "fixed_charge"]
 #: Columns of :attr:`Result.trips` (one row per lane with a trip capacity and flow > 0).
 TRIP_COLUMNS = ["origin", "destination", "mode", "flow", "trip_capacity", "trips", "cost_per_trip", "trip_cost"]
+#: Columns of :attr:`Result.carriers` (see :mod:`lanesolve.model.carrier_results`): per carrier and commitment its
+#: lanes, volume, share of units delivered, cost, the commitment (``min_volume``, ``max_volume``, ``max_share`` or
+#: blank) and its bound, ``state`` (``met``, ``binding (minimum)``, ...), the change in total cost when the bound
+#: moves one unit down / up (inf: not possible with the plan's other decisions; NaN: not binding) and a sentence.
+CARRIER_RESULT_COLUMNS = ["carrier", "lanes", "volume", "share", "cost", "commitment", "bound", "state",
+                          "cost_one_less", "cost_one_more", "text"]
 #: Columns of :attr:`Result.sensitivity` (see :mod:`lanesolve.model.sensitivity`): ``value_up`` is what one more unit
 #: costs (demand) or saves (a capacity), ``value_down`` what one unit less saves or costs; ``value`` is the figure when
 #: both sides agree (``unique``), NaN when they differ; ``inf`` marks a side with no plan.
@@ -143,7 +149,8 @@ class SolveStatus(str, enum.Enum):
 
 
 def empty_frame(columns: list[str]) -> pd.DataFrame:
-    text = ("origin", "destination", "mode", "node", "kind", "customer", "status", "figure", "item", "basis", "text")
+    text = ("origin", "destination", "mode", "node", "kind", "customer", "status", "figure", "item", "basis", "text",
+            "carrier", "commitment", "state")
     return pd.DataFrame({c: pd.Series(dtype=object if c in text else bool if c in ("open", "unique") else float)
                          for c in columns})
 
@@ -184,6 +191,8 @@ class Result:
         :data:`SENSITIVITY_COLUMNS` (see :mod:`lanesolve.model.sensitivity`); empty when not computed.
     diagnosis : Diagnosis or None
         Why no plan exists, when that was analysed (see :mod:`lanesolve.model.diagnose`).
+    carriers : DataFrame
+        :data:`CARRIER_RESULT_COLUMNS`; empty when no lane names a carrier.
     """
 
     status: SolveStatus
@@ -202,6 +211,7 @@ class Result:
     trips: pd.DataFrame = field(default_factory=lambda: empty_frame(TRIP_COLUMNS))
     sensitivity: pd.DataFrame = field(default_factory=lambda: empty_frame(SENSITIVITY_COLUMNS))
     diagnosis: object = None
+    carriers: pd.DataFrame = field(default_factory=lambda: empty_frame(CARRIER_RESULT_COLUMNS))
 
     def cost_lines(self) -> list[CostLine]:
         """The cost breakdown every report shows: the one source of the chart, the tables, the sheets and the mail.
@@ -272,4 +282,11 @@ class Result:
                              "unique": bool(r.unique), "basis": r.basis, "text": r.text}
                             for r in self.sensitivity.itertuples(index=False)],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
+            "carriers": [{"carrier": r.carrier, "lanes": int(r.lanes), "volume": num(r.volume), "share": num(r.share),
+                          "cost": num(r.cost), "commitment": r.commitment or None, "bound": num(r.bound),
+                          "state": r.state, "cost_one_less": num(r.cost_one_less),
+                          "cost_one_more": num(r.cost_one_more),
+                          "possible_one_less": not math.isinf(r.cost_one_less),
+                          "possible_one_more": not math.isinf(r.cost_one_more), "text": r.text}
+                         for r in self.carriers.itertuples(index=False)],
         }

@@ -280,7 +280,8 @@ def _copy(network: Network) -> Network:
     sources = network.lane_sources.copy(deep=True) if network.lane_sources is not None else None
     return Network(depots=network.depots.copy(deep=True), customers=network.customers.copy(deep=True),
                    hubs=network.hubs.copy(deep=True), lanes=network.lanes.copy(deep=True),
-                   settings=dataclasses.replace(network.settings), source=network.source, lane_sources=sources)
+                   settings=dataclasses.replace(network.settings), source=network.source, lane_sources=sources,
+                   carriers=network.carriers.copy(deep=True), rate_breaks=network.rate_breaks.copy(deep=True))
 
 
 def _matched_rows(network: Network, change: Change) -> tuple[pd.Index, list[Problem]]:

@@ -39,6 +39,7 @@ import pandas as pd
 
 from lanesolve.errors import SolverError
 from lanesolve.model import network_flow
+from lanesolve.model import carrier_results
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.formulation import build_sparse_model
 from lanesolve.model.network import Network
@@ -395,10 +396,13 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         _no_plan(network, result, status, limit, model.is_mip)
         return result
 
-    values = plan_values(network, model, answer.value)
+    values = carrier_results.tidy_values(network, model, plan_values(network, model, answer.value))
     n_lanes = len(model.lane_index)
     _fill_plan(network, model.lane_index, values[:n_lanes], model.unmet_index, values[model.columns("unmet_")],
                model.penalty, model.breakdown(values), result)
+    carrier_results.apply_lane_costs(result, network, model, values)
+    result.carriers = carrier_results.carrier_figures(network, model, values, result,
+                                                      lambda lp: solve_model(lp, lp_engine(solver), limit, gap))
     if model.design:
         result.open_nodes = open_node_frame(network, model, values)
         result.trips = trip_frame(network, dict(zip(model.lane_index.tolist(), values[:n_lanes].tolist())))
@@ -421,6 +425,11 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
                                f"optimal; the best possible plan may cost up to {gap_text} less than this one "
                                "(raise time_limit_s in Settings or use --time-limit).")
     return result
+
+
+def lp_engine(solver: str) -> str:
+    """The LP engine for follow-up solves of a plan (carrier figures): the one chosen, HiGHS under ``auto``."""
+    return "highs" if solver == "auto" else solver
 
 
 def limit_or(limit: float | None, end: float) -> float:

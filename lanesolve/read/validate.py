@@ -38,6 +38,7 @@ from lanesolve.errors import Problem, WorkbookError
 from lanesolve.model import scenarios
 from lanesolve.model.network import (BOOL_COLUMNS, CUSTOMER_COLUMNS, DEPOT_COLUMNS, HUB_COLUMNS, LANE_COLUMNS,
                                      TEXT_COLUMNS, Network, Settings, resolve_status)
+from lanesolve.read.carrier_sheets import check_carriers, check_rate_breaks
 from lanesolve.read.cells import BLANK_MEANS_NO_LIMIT
 from lanesolve.read.findings import Findings, is_blank
 from lanesolve.read.reader import RawWorkbook
@@ -111,6 +112,8 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
     check_lanes(tables[contract.LANES.name], node_ids, found)
     check_lane_design(tables[contract.LANES.name], found)
     check_lane_costs(tables[contract.LANES.name], settings, found)
+    carriers = check_carriers(tables.pop(contract.CARRIERS.name), tables[contract.LANES.name], found)
+    rate_breaks = check_rate_breaks(tables.pop(contract.RATE_BREAKS.name), tables[contract.LANES.name], found)
 
     frames = None
     if all(table.complete for table in tables.values()):
@@ -130,6 +133,8 @@ def validate(raw: RawWorkbook) -> tuple[Network, list[Problem]]:
         settings=settings,
         source=raw.path,
         lane_sources=lane_sources,
+        carriers=carriers,
+        rate_breaks=rate_breaks,
     )
     return network, warnings
 

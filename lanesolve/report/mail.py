@@ -90,7 +90,8 @@ def one_line(text: str) -> str:
 
 
 def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
-                attach: str | os.PathLike | None = None, comparison: pd.DataFrame | None = None) -> EmailMessage:
+                attach: str | os.PathLike | None = None, comparison: pd.DataFrame | None = None,
+                extra: dict | None = None) -> EmailMessage:
     """Build the summary mail: HTML with inline PNG charts, a plain-text alternative, the workbook if asked.
 
     Parameters
@@ -102,6 +103,8 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     comparison : DataFrame, optional
         The what-if scenarios beside the baseline (:func:`lanesolve.model.scenarios.compare`): the mail shows them
         as the HTML summary does.
+    extra : dict, optional
+        The plan-changes and carrier sections (:func:`lanesolve.report.carrier_report.summary_extra`).
 
     Returns
     -------
@@ -115,7 +118,8 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     drawings = _charts.summary_charts(network, result)
     cids = {chart.key: make_msgid(idstring=chart.key, domain=CID_DOMAIN) for chart in drawings}
     html = summary.render_html(network, result, info, warnings, charts=drawings,
-                              image_src=lambda chart: "cid:" + cids[chart.key][1:-1], comparison=comparison)
+                              image_src=lambda chart: "cid:" + cids[chart.key][1:-1], comparison=comparison,
+                              extra=extra)
 
     message = EmailMessage(policy=EML_POLICY)
     message["Subject"] = subject_for(network, result, info)
@@ -142,14 +146,15 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
 
 
 def write_email(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list,
-                attach: str | os.PathLike | None = None, comparison: pd.DataFrame | None = None) -> None:
+                attach: str | os.PathLike | None = None, comparison: pd.DataFrame | None = None,
+                extra: dict | None = None) -> None:
     """Write the summary mail to ``path`` (an ``.eml`` file) atomically.
 
     Parameters
     ----------
     path : path-like
         Where the mail goes; open it in a mail program, add the recipients and send.
-    network, result, info, warnings, attach, comparison
+    network, result, info, warnings, attach, comparison, extra
         As for :func:`build_email`.
 
     Raises
@@ -158,6 +163,6 @@ def write_email(path: str | os.PathLike, network: Network, result: Result, info:
         The attachment cannot be read, or the file cannot be written (missing folder, no permission).
     """
     path = Path(path)
-    data = build_email(network, result, info, warnings, attach, comparison).as_bytes()
+    data = build_email(network, result, info, warnings, attach, comparison, extra).as_bytes()
     with atomic.replacing(path, "the mail") as handle:
         handle.write(data)

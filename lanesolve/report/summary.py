@@ -426,7 +426,7 @@ def _gap_text(result: Result) -> str:
 def build_context(network: Network, result: Result, info: RunInfo, warnings: list,
                   charts: list[_charts.Drawing] | None = None,
                   image_src: Callable[[_charts.Drawing], str] | None = None,
-                  comparison: pd.DataFrame | None = None) -> dict:
+                  comparison: pd.DataFrame | None = None, extra: dict | None = None) -> dict:
     """Everything the template shows, already formatted as text (the template only lays it out).
 
     Parameters
@@ -445,6 +445,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         Maps a chart to its ``<img src>``; by default an SVG ``data:`` URI (the mail passes ``cid:`` references).
     comparison : DataFrame, optional
         The baseline and every scenario side by side (:func:`lanesolve.model.scenarios.compare`); shown when given.
+    extra : dict, optional
+        ``changes`` and ``carriers`` (:func:`lanesolve.report.carrier_report.summary_extra`); none shown without.
 
     Returns
     -------
@@ -511,6 +513,9 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "messages": messages,
         "warnings": [str(w) for w in warnings],
         "caution": CAUTION,
+        "changes": None,
+        "carriers": [],
+        **(extra or {}),
     }
 
 
@@ -569,7 +574,7 @@ def _environment() -> jinja2.Environment:
 def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
                 charts: list[_charts.Drawing] | None = None,
                 image_src: Callable[[_charts.Drawing], str] | None = None,
-                comparison: pd.DataFrame | None = None) -> str:
+                comparison: pd.DataFrame | None = None, extra: dict | None = None) -> str:
     """Render the HTML summary of one run.
 
     Parameters
@@ -582,9 +587,9 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
         Run facts (input file, run time stamp, version, checksum).
     warnings : list of Problem or str
         Warnings found while reading the workbook; listed in the page.
-    charts, image_src, comparison : optional
-        As for :func:`build_context`: which charts, how the page refers to each (``data:`` URI by default), and
-        the what-if comparison.
+    charts, image_src, comparison, extra : optional
+        As for :func:`build_context`: which charts, how the page refers to each (``data:`` URI by default), the
+        what-if comparison, and the plan-changes and carrier sections.
 
     Returns
     -------
@@ -605,11 +610,11 @@ def render_html(network: Network, result: Result, info: RunInfo, warnings: list,
     True
     """
     template = _environment().get_template(TEMPLATE_NAME)
-    return template.render(**build_context(network, result, info, warnings, charts, image_src, comparison))
+    return template.render(**build_context(network, result, info, warnings, charts, image_src, comparison, extra))
 
 
 def write_html(path: str | os.PathLike, network: Network, result: Result, info: RunInfo, warnings: list,
-               comparison: pd.DataFrame | None = None) -> None:
+               comparison: pd.DataFrame | None = None, extra: dict | None = None) -> None:
     """Write the HTML summary to ``path`` atomically.
 
     The page is written to a temporary file in the same folder and moved over ``path`` with :func:`os.replace`,
@@ -619,7 +624,7 @@ def write_html(path: str | os.PathLike, network: Network, result: Result, info: 
     ----------
     path : path-like
         Where the summary goes (by convention ``<stem>-summary.html`` beside the workbook).
-    network, result, info, warnings, comparison
+    network, result, info, warnings, comparison, extra
         As for :func:`render_html`.
 
     Raises
@@ -628,7 +633,7 @@ def write_html(path: str | os.PathLike, network: Network, result: Result, info: 
         The folder does not exist or the file cannot be written or replaced.
     """
     path = Path(path)
-    page = render_html(network, result, info, warnings, comparison=comparison)
+    page = render_html(network, result, info, warnings, comparison=comparison, extra=extra)
     with atomic.replacing(path, "the HTML summary",
                           hint="check that the folder exists and the file is not open in another program") as handle:
         handle.write(page.encode("utf-8"))

@@ -34,11 +34,13 @@ TRIPS_SHEET = RESULT_PREFIX + "Trips"
 SENSITIVITY_SHEET = RESULT_PREFIX + "Sensitivity"
 WHY_SHEET = RESULT_PREFIX + "Why no plan"
 SCENARIOS_SHEET = RESULT_PREFIX + "Scenarios"
+CARRIERS_SHEET = RESULT_PREFIX + "Carriers"  # built in lanesolve.write.carrier_tables
+CHANGES_SHEET = RESULT_PREFIX + "Changes"
 
 #: Every result sheet name lanesolve writes (or wrote in earlier versions); see
 #: :func:`lanesolve.write.writeback.result_sheet_clashes`.
 KNOWN_SHEETS = (SUMMARY_SHEET, FLOWS_SHEET, NODES_SHEET, DESIGN_SHEET, TRIPS_SHEET, SENSITIVITY_SHEET, WHY_SHEET,
-                SCENARIOS_SHEET)
+                SCENARIOS_SHEET, CARRIERS_SHEET, CHANGES_SHEET)
 
 #: The summary row whose label marks an LS Summary sheet as lanesolve's own (the fingerprint that lets a workbook
 #: solved before result sheets carried a mark be rerun; see :mod:`lanesolve.write.writeback`).

@@ -387,7 +387,7 @@ def write_template(path: str | os.PathLike, force: bool = False) -> None:
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "blank.xlsx"
     >>> write_template(target)
     >>> openpyxl.load_workbook(target).sheetnames
-    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Settings', 'Scenarios']
+    ['Guide', 'Depots', 'Customers', 'Hubs', 'Lanes', 'Carriers', 'Rate breaks', 'Settings', 'Scenarios']
     """
     if Path(path).suffix.lower() == ".xlsx":  # a wrong suffix gets save_atomically's own message
         path = paths.check_new_file(path, "the template", "template", force).real

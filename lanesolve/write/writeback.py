@@ -174,6 +174,20 @@ def _clash_message(clashes: list[str]) -> str:
             f"{clashes[0].replace(RESULT_PREFIX, 'My ', 1)!r}) and run again")
 
 
+def earlier_result_sheets(path: str | Path) -> list[str]:
+    """Names of the sheets an earlier lanesolve run wrote into the workbook (by its mark, see
+    :func:`write_results`); empty for a file that is not a workbook zip or holds no results."""
+    try:
+        zin = zipfile.ZipFile(path)
+    except (OSError, zipfile.BadZipFile):
+        return []
+    with zin:
+        workbook, wb_rels = _read_text(zin, WORKBOOK), _read_text(zin, _rels_path(WORKBOOK))
+        if workbook is None or wb_rels is None:
+            return []
+        return [e.name for e in _lanesolve_sheets(zin, workbook, _sheet_entries(workbook, _parse_rels(wb_rels, "xl")))]
+
+
 def check_result_sheets(path: str | Path) -> None:
     """Refuse, before any solving, a workbook with a sheet of its own named like a result sheet.
 
