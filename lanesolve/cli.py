@@ -122,6 +122,8 @@ def check(workbook: str) -> None:
 @click.option("--time-limit", type=Seconds(), metavar="S",
               help="Seconds the solver may run (overrides the time_limit_s setting).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document on stdout; messages go to stderr.")
+@click.option("--all-figures", is_flag=True,
+              help="With --json: list every unused lane's figure, not only the 500 nearest to paying.")
 @click.option("--email", "email_path", type=click.Path(dir_okay=False), metavar="PATH",
               help="Also write the summary as a mail (.eml) to PATH: open it in a mail program, add recipients, send.")
 @click.option("--attach-workbook", is_flag=True, help="Attach the solved workbook to the --email mail.")
@@ -133,7 +135,8 @@ def check(workbook: str) -> None:
               help="Solver to use (overrides the solver setting): auto (the engine that fits the model), cbc or "
                    "highs.")
 @click.option("--force", is_flag=True, help=FORCE_HELP)
-def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, email_path: str | None,
+def solve(workbook: str, output: str | None, time_limit: float | None, as_json: bool, all_figures: bool,
+          email_path: str | None,
           attach_workbook: bool, quiet: bool, verbose: bool, scenario_names: tuple[str, ...],
           solver: str | None, force: bool) -> None:
     """Solve WORKBOOK, write the result sheets back into it and an HTML summary beside it."""
@@ -146,6 +149,8 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
         raise click.UsageError("--attach-workbook needs --email PATH (the mail to attach the workbook to)")
     if quiet and verbose:
         raise click.UsageError("--quiet and --verbose cannot be used together")
+    if all_figures and not as_json:
+        raise click.UsageError("--all-figures needs --json (the figures it adds are in the JSON document)")
     progress = no_progress if quiet or as_json else TerminalProgress()
     try:
         try:
@@ -164,7 +169,7 @@ def solve(workbook: str, output: str | None, time_limit: float | None, as_json: 
     if not quiet:
         _print_problems(outcome.warnings, "warning")
     if as_json:
-        click.echo(json.dumps(outcome.to_json(), indent=2))
+        click.echo(json.dumps(outcome.to_json(all_figures=all_figures), indent=2))
     if not quiet:
         for line in terminal_lines(outcome.network, outcome.result, outcome.info, outcome.comparison):
             _say(line, err=as_json)

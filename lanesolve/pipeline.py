@@ -65,8 +65,10 @@ class RunOutcome:
     plan: WritePlan | None = None
     changes: plan_changes.PlanChanges | None = None
 
-    def to_json(self) -> dict:
-        doc = self.result.to_json()
+    def to_json(self, all_figures: bool = False) -> dict:
+        """The ``--json`` document; ``all_figures`` lists every sensitivity figure (see
+        :meth:`lanesolve.model.result.Result.to_json`), in the baseline and every scenario."""
+        doc = self.result.to_json(all_figures=all_figures)
         sources = self.network.cost_source_by_lane()
         if sources is not None:
             for flow in doc["flows"]:
@@ -76,7 +78,7 @@ class RunOutcome:
         if self.changes is not None:
             doc["changes"], doc["changes_summary"] = self.changes.to_json()
         if self.scenario_results:
-            doc["scenarios"] = [{"scenario": name, **result.to_json()}
+            doc["scenarios"] = [{"scenario": name, **result.to_json(all_figures=all_figures)}
                                 for name, result in self.scenario_results.items()]
         doc.update(
             input=self.info.input_path,
@@ -275,6 +277,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
 
     network, warnings = validate.validate(raw)
     variants = scenario_networks(raw, network, scenario_names)
+    del raw  # the cell values (most of a gigabyte at a million lanes) are not needed once the network is built
     timings["validate"] = time.perf_counter() - tick
     tick = time.perf_counter()
 

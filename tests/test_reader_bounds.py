@@ -135,3 +135,27 @@ def test_other_base_exceptions_from_calamine_are_not_swallowed(tmp_path, monkeyp
     monkeypatch.setattr(python_calamine.CalamineWorkbook, "get_sheet_by_name", interrupted)
     with pytest.raises(KeyboardInterrupt):
         read_workbook(path)
+
+
+@pytest.mark.parametrize("cells", [
+    [(1, "A1"), (1_000_000, "A1000000"), (1_000_001, "G1000001")],
+    [(1, "A1"), (2, "B999999"), (3, "C1000003")],  # a cell's reference past its row tag counts
+    [(1, "A1"), (1_048_576, "Z1048576"), (1_048_577, "A1048577")],
+    [(5, "A5"), (6, "AB1000001")],  # a two-letter column takes the full listing
+])
+def test_extent_of_a_sheet_near_the_row_limit_is_the_largest_reference(cells):
+    # Reference: Python's XML parser reading every row number and cell reference of the part.
+    import re
+    import xml.etree.ElementTree as ET
+
+    from lanesolve.read.sheet_xml import column_number, used_extent
+
+    ns = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+    xml = (f'<worksheet xmlns="{ns}"><sheetData>'
+           + "".join(f'<row r="{row}"><c r="{ref}"><v>1</v></c></row>' for row, ref in cells)
+           + "</sheetData></worksheet>").encode()
+    root = ET.fromstring(xml)
+    refs = [re.fullmatch(r"([A-Z]+)([0-9]+)", c.get("r")).groups() for c in root.iter(f"{{{ns}}}c")]
+    rows = max([int(r.get("r")) for r in root.iter(f"{{{ns}}}row")] + [int(d) for _, d in refs])
+    columns = max([26] + [column_number(letters) for letters, _ in refs])
+    assert used_extent(xml) == (rows, columns)

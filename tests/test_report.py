@@ -266,3 +266,27 @@ def test_source_checkout_finds_the_templates_beside_the_package(monkeypatch):
 
     monkeypatch.setattr(summary_module.resources, "files", no_package)
     assert (summary_module.template_folder() / summary_module.TEMPLATE_NAME).is_file()
+
+
+def test_two_renders_reuse_one_compiled_template(network, result, monkeypatch):
+    # The environment and the compiled template are built once per process: a batch renders a summary (and a mail)
+    # per workbook, and rebuilding the environment and recompiling the template each time was a third of the
+    # render. Record which template object each render uses.
+    import jinja2
+
+    used = []
+    render = jinja2.Template.render
+
+    def recording_render(self, *args, **kwargs):
+        used.append(self)
+        return render(self, *args, **kwargs)
+
+    monkeypatch.setattr(jinja2.Template, "render", recording_render)
+    first = report.render_html(network, result, make_info("plans/first-week.xlsx"), [])
+    second = report.render_html(network, result, make_info("plans/second-week.xlsx"), [])
+    assert len(used) == 2
+    assert used[0] is used[1]
+    assert report._environment() is report._environment()
+    # The reused template still renders each run's own facts, not the first run's.
+    assert "first-week.xlsx" in first and "second-week.xlsx" not in first
+    assert "second-week.xlsx" in second and "first-week.xlsx" not in second

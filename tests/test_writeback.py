@@ -28,6 +28,7 @@ import _workbooks as wbk  # noqa: E402
 
 from lanesolve.write import atomic
 from lanesolve.write import writeback  # noqa: E402
+from lanesolve.write import zipcopy  # noqa: E402
 from lanesolve.contract import RESULT_PREFIX  # noqa: E402
 from lanesolve.errors import LanesolveError, WriteError  # noqa: E402
 from lanesolve.model.network import Settings, make_network  # noqa: E402
@@ -226,6 +227,105 @@ def test_every_original_member_is_byte_identical_except_index_parts(tmp_path, ri
     assert len(added) == 3 * len(NEW_NAMES)  # per sheet: worksheet, its rels, its table
     for name in added:
         ET.fromstring(after[name])  # well-formed XML (Python's parser as the reference)
+
+
+def stored(path: Path) -> dict[str, bytes]:
+    """Each member as stored: its local header, compressed data and data descriptor, read from the offsets Python's
+    zipfile finds in the central directory (APPNOTE 4.3.7-4.3.9)."""
+    out = {}
+    with zipfile.ZipFile(path) as z, open(path, "rb") as raw:
+        infos = sorted(z.infolist(), key=lambda i: i.header_offset)
+        ends = [i.header_offset for i in infos[1:]] + [z.start_dir]
+        for info, end in zip(infos, ends):
+            raw.seek(info.header_offset)
+            out[info.filename] = raw.read(end - info.header_offset)
+    return out
+
+
+def test_unchanged_members_keep_their_compressed_bytes(tmp_path, rich, plan_sheets):
+    # Not only the content: every unchanged member is copied as stored (header, compressed data, descriptor),
+    # never decompressed and compressed again. The workbook is compressed at level 1 here, as a program favouring
+    # speed might save it, so compressing again at another level could not give the same bytes by chance.
+    content = wbk.members(rich)
+    with zipfile.ZipFile(rich, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as z:
+        for name, data in content.items():
+            z.writestr(name, data)
+    before = stored(rich)
+    out = tmp_path / "solved.xlsx"
+    write_results(rich, out, plan_sheets)
+    after = stored(out)
+    unchanged = [name for name in before if name not in EDITED_PARTS]
+    assert "xl/worksheets/sheet1.xml" in unchanged and "xl/media/image1.png" in unchanged
+    for name in unchanged:
+        assert after[name] == before[name], f"{name}: stored bytes changed"
+    with zipfile.ZipFile(out) as z:
+        assert z.testzip() is None  # zipfile checks every member's CRC
+
+
+def _rezip_streamed(source: Path, target: Path, zip64: set[str], stored_names: set[str]) -> None:
+    """Rewrite a workbook as a zip written to a stream that cannot seek, as some tools do: every member then has a
+    data descriptor after its data (APPNOTE 4.3.9), 8-byte sizes in it for the members in ``zip64`` (which get a
+    ZIP64 extra field in their local header); members in ``stored_names`` are stored without compression."""
+
+    class Unseekable:
+        def __init__(self, fh):
+            self.fh = fh
+
+        def write(self, data):
+            return self.fh.write(data)
+
+        def flush(self):
+            self.fh.flush()
+
+    with zipfile.ZipFile(source) as zin, open(target, "wb") as fh:
+        with zipfile.ZipFile(Unseekable(fh), "w") as zout:
+            for info in zin.infolist():
+                copy = zipfile.ZipInfo(info.filename, date_time=info.date_time)
+                copy.compress_type = zipfile.ZIP_STORED if info.filename in stored_names else zipfile.ZIP_DEFLATED
+                with zout.open(copy, "w", force_zip64=info.filename in zip64) as dst:
+                    dst.write(zin.read(info))
+
+
+def test_members_with_data_descriptors_and_zip64_fields_are_copied_as_stored(tmp_path, rich, plan_sheets):
+    streamed = tmp_path / "streamed.xlsx"
+    _rezip_streamed(rich, streamed, zip64={"xl/worksheets/sheet1.xml", "xl/media/image1.png"},
+                    stored_names={"xl/media/image1.png"})
+    with zipfile.ZipFile(streamed) as z:
+        assert all(i.flag_bits & 0x08 for i in z.infolist())  # the fixture really has descriptors
+    before, content = stored(streamed), wbk.members(streamed)
+    out = tmp_path / "solved.xlsx"
+    write_results(streamed, out, plan_sheets)
+    after = stored(out)
+    for name in before:
+        if name not in EDITED_PARTS:
+            assert after[name] == before[name], f"{name}: stored bytes changed"
+    with zipfile.ZipFile(out) as z:
+        assert z.testzip() is None
+        assert {n: z.read(n) for n in content if n not in EDITED_PARTS} == \
+            {n: d for n, d in content.items() if n not in EDITED_PARTS}
+    assert input_values(out) == input_values(rich)  # openpyxl reads the copied sheets as before
+
+
+def test_central_directory_uses_zip64_where_offsets_or_the_count_need_it(tmp_path, rich, plan_sheets, monkeypatch):
+    # Offsets past 2 GiB and more than 65,534 members cannot be made in a test quickly, so the limits are lowered:
+    # every offset past the first kilobyte and the member count then go through the ZIP64 records (APPNOTE 4.3.14,
+    # 4.3.15, 4.5.3), and Python's zipfile, an independent reader, must find every member through them.
+    monkeypatch.setattr(zipcopy, "ZIP64_LIMIT", 1024)
+    monkeypatch.setattr(zipcopy, "COUNT_LIMIT", 3)
+    out = tmp_path / "solved.xlsx"
+    write_results(rich, out, plan_sheets)
+    data = out.read_bytes()
+    assert b"PK\x06\x06" in data and b"PK\x06\x07" in data  # the ZIP64 end record and its locator
+    end = data[data.rindex(b"PK\x05\x06"):]
+    assert end[8:10] == b"\xff\xff"  # the 16-bit member count holds the ZIP64 marker
+    before = wbk.members(rich)
+    with zipfile.ZipFile(out) as z:
+        assert z.testzip() is None
+        assert all(i.header_offset < 1024 or len(i.extra) >= 12 for i in z.infolist())  # ZIP64 extra present
+        for name, content in before.items():
+            if name not in EDITED_PARTS:
+                assert z.read(name) == content
+    assert [s for s in openpyxl.load_workbook(out).sheetnames if s.startswith("LS ")] == NEW_NAMES
 
 
 def test_index_parts_only_gain_entries_and_keep_markup_compatibility(tmp_path, rich, plan_sheets):
@@ -524,19 +624,19 @@ def leftovers(folder: Path) -> list[str]:
 
 def test_failure_mid_write_leaves_the_original_and_no_temp_file(tmp_path, rich, plan_sheets, monkeypatch):
     before = rich.read_bytes()
-    real = zipfile.ZipFile.writestr
+    real = zipcopy.ZipSplicer.add
     calls = []
 
-    def failing_writestr(self, info, data, *args, **kwargs):
-        calls.append(info)
-        if len(calls) == 5:  # after the copied index parts, while adding the new sheets
+    def failing_add(self, name, *args, **kwargs):
+        calls.append(name)
+        if sum(n not in EDITED_PARTS for n in calls) == 2:  # after the index parts and a first new sheet part
             raise OSError(28, "No space left on device")
-        return real(self, info, data, *args, **kwargs)
+        return real(self, name, *args, **kwargs)
 
-    monkeypatch.setattr(zipfile.ZipFile, "writestr", failing_writestr)
+    monkeypatch.setattr(zipcopy.ZipSplicer, "add", failing_add)
     with pytest.raises(WriteError, match="No space left on device.*left as it was"):
         write_results(rich, rich, plan_sheets)
-    assert len(calls) == 5
+    assert {"xl/workbook.xml", "[Content_Types].xml"} <= set(calls)  # the failure came mid-write
     assert rich.read_bytes() == before
     assert leftovers(tmp_path) == []
 

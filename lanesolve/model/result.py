@@ -5,10 +5,12 @@ Nothing here refers to the solver; a :class:`Result` can be built by hand in a t
 
 from __future__ import annotations
 
+import dataclasses
 import enum
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 #: The caution every plan carries: on the summary sheet, in the HTML summary and (in other words) in README.md.
@@ -246,8 +248,23 @@ class Result:
         return [CostLine(key, COST_LABELS.get(key, key.replace("_", " ").capitalize()), amount,
                          amount / total if total > 0 else 0.0) for key, amount in amounts.items()]
 
-    def to_json(self) -> dict:
-        """The ``--json`` document (without run metadata, which the pipeline adds)."""
+    def to_json(self, all_figures: bool = False) -> dict:
+        """The ``--json`` document (without run metadata, which the pipeline adds).
+
+        Parameters
+        ----------
+        all_figures : bool, default False
+            List every sensitivity figure. By default the unused lanes' figures (``reduced_cost``) are capped as
+            *LS Sensitivity* caps them (:func:`capped_figures`); ``sensitivity_omitted`` counts those left out.
+        """
+        if not all_figures:
+            figures, omitted = capped_figures(self.sensitivity)
+            if omitted:  # a shallow copy: the other frames are shared, not copied
+                return {**dataclasses.replace(self, sensitivity=figures).to_json(all_figures=True),
+                        "sensitivity_omitted": omitted}
+        return {**self._json_document(), "sensitivity_omitted": 0}
+
+    def _json_document(self) -> dict:
 
         def num(x):
             if x is None:
@@ -290,3 +307,38 @@ class Result:
                           "possible_one_more": not math.isinf(r.cost_one_more), "text": r.text}
                          for r in self.carriers.itertuples(index=False)],
         }
+
+
+#: Most unused lanes whose figure (``reduced_cost``) ``--json`` lists: the same lanes, nearest to paying first, as
+#: *LS Sensitivity* (``lanesolve.write.tables.MAX_REDUCED_COST_ROWS``); ``--all-figures`` lists every one. On a
+#: large network nearly every lane is unused, and a figure for each made the document hundreds of megabytes.
+JSON_UNUSED_LANES = 500
+
+
+def capped_figures(sensitivity: pd.DataFrame, limit: int = JSON_UNUSED_LANES) -> tuple[pd.DataFrame, int]:
+    """The sensitivity figures with at most ``limit`` unused lanes, and how many unused lanes were left out.
+
+    Every figure of another kind is kept, in its order; then the unused lanes nearest to paying, as *LS
+    Sensitivity* chooses them: the smallest ``value_up`` (``value`` in a frame without it) first, a lane no plan
+    can use (``inf``) after every finite one, a lane without a figure (NaN) last, the model's order among equals.
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"figure": ["marginal_cost", "reduced_cost", "reduced_cost", "reduced_cost"],
+    ...                       "item": ["C1", "a", "b", "c"], "value": [4.0, 3.0, float("nan"), 1.0]})
+    >>> kept, omitted = capped_figures(frame, limit=1)
+    >>> kept["item"].tolist(), omitted
+    (['C1', 'c'], 2)
+    """
+    if not len(sensitivity):
+        return sensitivity, 0
+    unused = sensitivity["figure"].to_numpy() == "reduced_cost"
+    count = int(unused.sum())
+    if count <= limit:
+        return sensitivity, 0
+    lanes = sensitivity[unused]
+    key = lanes["value_up"] if "value_up" in lanes.columns else lanes["value"]
+    # argsort puts NaN last; "stable" keeps the model's order among equal figures.
+    nearest = np.argsort(key.to_numpy(dtype=float), kind="stable")[:limit]
+    return pd.concat([sensitivity[~unused], lanes.iloc[nearest]]), count - limit
+

@@ -141,6 +141,12 @@ def bad_cells(data: bytes, where: str) -> dict[tuple[int, int], str]:
 _CELL_START = re.compile(rb"<c[\s>]")
 _FORMULA_START = re.compile(rb"<f[\s>/]")
 _TAG_REF = re.compile(rb'\sr="([A-Z]+)([0-9]+)"')
+# A reference with two or more column letters; without one, only rows of seven or more digits can be far, and the
+# largest row is among those (any row of seven digits is larger than every row of six), so only they are listed.
+_WIDE_REF = re.compile(rb' r="[A-Z]{2}')
+_WIDE_REF_ANY = re.compile(rb'\sr="[A-Z]{2}')
+_LONG_ROW = re.compile(rb' r="[A-Z]+([0-9]{7,})"')  # a literal prefix makes the scan several times faster
+_LONG_ROW_ANY = re.compile(rb'\sr="[A-Z]+([0-9]{7,})"')
 _TAG_TYPE = re.compile(rb'\st="([A-Za-z]+)"')
 _FORMULA = re.compile(rb"<f((?:\s[^>]*?)?)(?:/>|>(.*?)</f>)", re.S)
 _VALUE = re.compile(rb"<v\s*/>|<v>(.*?)</v>", re.S)
@@ -231,6 +237,12 @@ _ROW_TAG_ANY = re.compile(rb"<(?:\w+:)?row[\s>/]")
 _FAR_REF = re.compile(rb' r="(?:[A-Z]{2}|[A-Z]*[0-9]{7})')
 _FAR_REF_ANY = re.compile(rb'\sr="(?:[A-Z]{2}|[A-Z]*[0-9]{7})')
 _REF = re.compile(rb'\sr="([A-Z]+)([0-9]+)"')
+# A reference with two or more column letters; without one, only rows of seven or more digits can be far, and the
+# largest row is among those (any row of seven digits is larger than every row of six), so only they are listed.
+_WIDE_REF = re.compile(rb' r="[A-Z]{2}')
+_WIDE_REF_ANY = re.compile(rb'\sr="[A-Z]{2}')
+_LONG_ROW = re.compile(rb' r="[A-Z]+([0-9]{7,})"')  # a literal prefix makes the scan several times faster
+_LONG_ROW_ANY = re.compile(rb'\sr="[A-Z]+([0-9]{7,})"')
 
 
 def used_extent(data: bytes) -> tuple[int, int]:
@@ -274,8 +286,13 @@ def used_extent(data: bytes) -> tuple[int, int]:
     rows = max(tags, max(map(int, numbers), default=0))
     columns = 26 if tags else 0
     if (_FAR_REF if plain else _FAR_REF_ANY).search(data):
-        for letters, digits in _REF.findall(data):
-            rows, columns = max(rows, int(digits)), max(columns, column_number(letters.decode()))
+        if (_WIDE_REF if plain else _WIDE_REF_ANY).search(data) is None:
+            # Columns A-Z only (26 is already the bound): a sheet near the row limit lists its last rows' cells,
+            # not every cell (listing 7 million references took seconds and most of a gigabyte at 1M lanes).
+            rows = max(rows, max(map(int, (_LONG_ROW if plain else _LONG_ROW_ANY).findall(data)), default=0))
+        else:
+            for letters, digits in _REF.findall(data):
+                rows, columns = max(rows, int(digits)), max(columns, column_number(letters.decode()))
     return rows, columns
 
 

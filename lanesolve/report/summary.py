@@ -12,6 +12,7 @@ This module reads only the plain data handed to it (:class:`~lanesolve.model.net
 
 from __future__ import annotations
 
+import functools
 import math
 import os
 from importlib import resources
@@ -560,7 +561,10 @@ def template_folder() -> Path:
         return Path(__file__).resolve().parents[2] / "templates"  # lanesolve/report/ -> repository root
 
 
+@functools.lru_cache(maxsize=None)
 def _environment() -> jinja2.Environment:
+    """The one Jinja2 environment of this process: it keeps each template it compiles, so later renders reuse it
+    (``auto_reload`` off: the installed templates do not change while lanesolve runs)."""
     return jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(template_folder())),
         autoescape=True,  # on for every template, whatever its extension: workbook names are untrusted text
@@ -568,6 +572,7 @@ def _environment() -> jinja2.Environment:
         trim_blocks=True,
         lstrip_blocks=True,
         keep_trailing_newline=True,
+        auto_reload=False,
     )
 
 

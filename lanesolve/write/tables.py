@@ -396,7 +396,7 @@ def sensitivity_sheet(result) -> ResultSheet:
     if left_out:
         rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None, None, None,
                      f"... and {left_out:,} more unused lanes, each further from being worth using than those above "
-                     "(lanesolve solve --json lists every figure)."])
+                     "(lanesolve solve --json --all-figures lists every figure)."])
     if not rows:
         why = ("the plan is not proven optimal, so its marginal costs could mislead"
                if result.status.value != "optimal" else "the figures could not be computed for this plan")

@@ -9,8 +9,9 @@ for large lane sheets. This module instead
    exactly like a result sheet when *LS Summary* holds lanesolve's own "lanesolve version" row. Any other sheet
    is the planner's and is kept, even one whose name starts with :data:`lanesolve.contract.RESULT_PREFIX`; one
    named like a result sheet stops the run with a :class:`~lanesolve.errors.WriteError` (rename it);
-2. copies every member of the source zip unchanged (the same uncompressed bytes), except the parts of those
-   earlier result sheets: their worksheet part, its relationships part and its table parts are dropped;
+2. copies every member of the source zip as it is stored -- the same compressed bytes, never decompressed
+   (:mod:`lanesolve.write.zipcopy`) -- except the parts of those earlier result sheets: their worksheet part, its
+   relationships part and its table parts are dropped;
 3. edits the index parts as text, with targeted edits only -- ``xl/workbook.xml`` (the ``<sheets>`` list,
    ``localSheetId`` of defined names, ``activeTab``/``firstSheet``, the mark and the print titles),
    ``xl/_rels/workbook.xml.rels``, ``[Content_Types].xml``, ``docProps/app.xml`` (sheet titles and counts, when
@@ -29,13 +30,13 @@ from __future__ import annotations
 import html
 import posixpath
 import re
-import shutil
 import time
 import zipfile
 from collections.abc import Callable
 from pathlib import Path
 
 from lanesolve.write import atomic
+from lanesolve.write import zipcopy
 from lanesolve.contract import RESULT_PREFIX
 from lanesolve.errors import WriteError
 from lanesolve.write.tables import (  # noqa: F401  (re-exported: the public names of the result sheets)
@@ -315,7 +316,9 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
         used_rel_ids = set(rels)
         next_sheet_id = max([e.sheet_id for e in entries] + [0]) + 1
         next_table_id = max(table_ids | {0}) + 1
-        new_members: list[tuple[str, str]] = []
+        # Each new sheet's parts are named here; its XML is built only when it is written (below), one sheet at a
+        # time, so the largest result sheet is the only one held in memory.
+        new_parts: list[tuple[ResultSheet, str, str, int, str]] = []
         new_sheet_tags: list[tuple[str, int, str]] = []
         new_rels: list[tuple[str, str, str]] = []
         new_types: list[tuple[str, str]] = []
@@ -326,14 +329,8 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
             t = _fresh_number(taken_members, "xl/tables/table{}.xml")
             table_part = f"xl/tables/table{t}.xml"
             taken_members.update((sheet_part, table_part, _rels_path(sheet_part)))
-            body, ref = sheet_xml(sheet, "rId1", styles)
-            headers = _header_names(sheet.columns)
-            table = table_xml(next_table_id, _table_name(sheet.name, taken_names), headers, ref)
+            new_parts.append((sheet, sheet_part, table_part, next_table_id, _table_name(sheet.name, taken_names)))
             next_table_id += 1
-            sheet_rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns='
-                          '"http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" '
-                          f'Type="{TABLE_REL}" Target="../tables/table{t}.xml"/></Relationships>')
-            new_members += [(sheet_part, body), (_rels_path(sheet_part), sheet_rels), (table_part, table)]
             rid = _fresh_number(used_rel_ids, "rId{}")
             used_rel_ids.add(f"rId{rid}")
             new_rels.append((f"rId{rid}", WORKSHEET_REL, f"worksheets/sheet{n}.xml"))
@@ -354,25 +351,32 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
             edited[APP] = _edit_app(app, [e.name for e in dropped], [s.name for s in sheets],
                                     [e.name for e in kept])
 
-        with zipfile.ZipFile(out, "w", compression=zipfile.ZIP_DEFLATED) as zout:
+        # Unchanged members are copied as stored (their compressed bytes, not recompressed); edited index parts and
+        # the new sheets are compressed here.
+        zout = zipcopy.ZipSplicer(out)
+        with open(source, "rb") as raw:
             for info in infos:
                 if info.filename in dropped_parts:
                     continue
-                copy = zipfile.ZipInfo(info.filename, date_time=info.date_time)
-                copy.compress_type = zipfile.ZIP_DEFLATED
-                copy.external_attr = info.external_attr
                 if info.filename in edited:
-                    zout.writestr(copy, edited[info.filename].encode("utf-8"))
+                    zout.add(info.filename, edited[info.filename], info.date_time, info.external_attr)
                     continue
-                copy.file_size = info.file_size  # lets zipfile choose ZIP64 up front for huge members
-                with zin.open(info) as src, zout.open(copy, "w") as dst:
-                    shutil.copyfileobj(src, dst, 1 << 20)
-            now = time.localtime()[:6]
-            for name, text in new_members:
-                info = zipfile.ZipInfo(name, date_time=now)
-                info.compress_type = zipfile.ZIP_DEFLATED
-                info.external_attr = 0o644 << 16  # rw-r--r-- for tools that unpack the zip
-                zout.writestr(info, text.encode("utf-8"))
+                try:
+                    zout.copy(raw, info)
+                except zipcopy.ZipCopyError as exc:
+                    raise WriteError(f"{source} is damaged ({exc}); results were not written (open it in a "
+                                     "spreadsheet program and save it, then run again)") from exc
+        now = time.localtime()[:6]
+        for sheet, sheet_part, table_part, table_id, table_name in new_parts:
+            body, ref = sheet_xml(sheet, "rId1", styles)
+            zout.add(sheet_part, body, now)  # rw-r--r-- for tools that unpack the zip, the default
+            del body
+            sheet_rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns='
+                          '"http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" '
+                          f'Type="{TABLE_REL}" Target="../{table_part[len("xl/"):]}"/></Relationships>')
+            zout.add(_rels_path(sheet_part), sheet_rels, now)
+            zout.add(table_part, table_xml(table_id, table_name, _header_names(sheet.columns), ref), now)
+        zout.close()
 
 
 def write_results(source: str | Path, target: str | Path, sheets: list[ResultSheet],
