@@ -41,6 +41,7 @@ from lanesolve.write import paths
 from lanesolve.report import summary
 from lanesolve.report import carrier_report
 from lanesolve.model import scenarios
+from lanesolve.model.comparison import compare
 from lanesolve.model import analyse
 from lanesolve.read import validate
 from lanesolve.write import writeback
@@ -48,7 +49,7 @@ from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, W
 from lanesolve.model.network import Network
 from lanesolve.progress import ProgressCallback, no_progress
 from lanesolve.model.result import Result, SolveStatus
-from lanesolve.runinfo import RunInfo, file_checksum  # noqa: F401 (RunInfo is part of this module's API)
+from lanesolve.runinfo import RunInfo  # noqa: F401 (RunInfo is part of this module's API)
 from lanesolve.write.paths import WritePlan, summary_path_for  # noqa: F401 (part of this module's API)
 
 
@@ -290,7 +291,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
                         for name, variant in variants.items()}
     timings["solve_total"] = time.perf_counter() - tick
     result.timings.update(timings)
-    comparison = scenarios.compare(result, scenario_results) if scenario_results else None
+    comparison = compare(result, scenario_results) if scenario_results else None
     outcome = RunOutcome(network, result, info, warnings, scenario_results, comparison, plan,
                          plan_changes.compare_plans(earlier, result, network))
 

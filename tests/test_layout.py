@@ -50,3 +50,15 @@ def test_import_graph_sees_known_edges():
     graph = import_graph()
     assert graph.has_edge("lanesolve.pipeline", "lanesolve.read.reader")
     assert graph.has_edge("lanesolve.model.diagnose", "lanesolve.model.solve")
+
+
+#: The house rule is "about 600 lines"; past this a module is split by concern.
+MAX_MODULE_LINES = 650
+
+
+def test_no_module_is_past_the_size_that_means_two_concerns():
+    sizes = {str(p.relative_to(PACKAGE.parent)): len(p.read_text(encoding="utf-8").splitlines())
+             for p in PACKAGE.rglob("*.py")}
+    assert sizes, "no modules found"
+    too_big = {name: n for name, n in sizes.items() if n > MAX_MODULE_LINES}
+    assert too_big == {}

@@ -13,7 +13,8 @@ from pandas.testing import assert_frame_equal
 
 from lanesolve.model.network import Settings, make_network
 from lanesolve.model.result import Result, SolveStatus
-from lanesolve.model.scenarios import Change, Scenario, apply_scenario, compare, parse_scenarios, volume_shifts
+from lanesolve.model.comparison import compare, volume_shifts
+from lanesolve.model.scenarios import Change, Scenario, apply_scenario, parse_scenarios
 
 HEADER = ["scenario", "sheet", "match", "column", "change", "value"]
 

@@ -185,7 +185,7 @@ def next_steps(network: Network, result: Result, comparison: pd.DataFrame | None
     result : Result
         The plan; without a plan there are no sentences (the "Why no plan" section speaks instead).
     comparison : DataFrame, optional
-        :func:`lanesolve.model.scenarios.compare` of the baseline and its scenarios.
+        :func:`lanesolve.model.comparison.compare` of the baseline and its scenarios.
 
     Returns
     -------

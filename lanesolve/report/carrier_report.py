@@ -7,7 +7,7 @@ from __future__ import annotations
 import math
 
 from lanesolve.model.plan_changes import TOP_SHIFTS, PlanChanges
-from lanesolve.report.summary import format_money, format_quantity, format_share
+from lanesolve.report.formats import format_money, format_quantity, format_share
 
 
 def _signed_money(value: float, currency: str) -> str:

@@ -101,7 +101,7 @@ def build_email(network: Network, result: Result, info: RunInfo, warnings: list,
     attach : path-like, optional
         A file to attach, normally the solved workbook (``info.output_path``).
     comparison : DataFrame, optional
-        The what-if scenarios beside the baseline (:func:`lanesolve.model.scenarios.compare`): the mail shows them
+        The what-if scenarios beside the baseline (:func:`lanesolve.model.comparison.compare`): the mail shows them
         as the HTML summary does.
     extra : dict, optional
         The plan-changes and carrier sections (:func:`lanesolve.report.carrier_report.summary_extra`).

@@ -480,7 +480,7 @@ def frame_sheet(name: str, frame, kinds: dict[str, str], headers: dict[str, str]
 
 def scenario_sheet(comparison, settings=None) -> ResultSheet:
     """``"LS Scenarios"``: the baseline and every scenario side by side (the frame of
-    :func:`lanesolve.model.scenarios.compare`), with plain-word headers.
+    :func:`lanesolve.model.comparison.compare`), with plain-word headers.
 
     Every cost component the comparison has is a column, so the cost columns add up to the total cost. The change
     in percent is written as a fraction with a percent format.
