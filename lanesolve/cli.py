@@ -131,8 +131,9 @@ def check(workbook: str) -> None:
 @click.option("-v", "--verbose", is_flag=True, help="Show the solver's log on stderr.")
 @click.option("--scenario", "scenario_names", multiple=True, metavar="NAME",
               help="Solve only this scenario of the Scenarios sheet beside the baseline (repeatable; default: all).")
-@click.option("--solver", type=click.Choice(["cbc", "highs"], case_sensitive=False), default=None,
-              help="Solver to use (overrides the solver setting): cbc, bundled, or highs (needs highspy).")
+@click.option("--solver", type=click.Choice(["auto", "cbc", "highs"], case_sensitive=False), default=None,
+              help="Solver to use (overrides the solver setting): auto (the engine that fits the model), cbc or "
+                   "highs.")
 @click.option("--force", is_flag=True, help=FORCE_HELP)
 @click.option("--tradeoff", "tradeoff_points", type=click.IntRange(min=2), default=None, metavar="N",
               help="Also plan N points from the least-emissions to the least-cost plan (needs emission factors).")
@@ -205,8 +206,8 @@ def _write_email(path: str, outcome, attach_workbook: bool) -> None:
               help="Run on this Dask scheduler (tcp://host:8786) instead of local processes.")
 @click.option("--time-limit", type=Seconds(), metavar="S",
               help="Seconds the solver may run on each workbook (overrides their time_limit_s settings).")
-@click.option("--solver", type=click.Choice(["cbc", "highs"]),
-              help="Solver for every workbook (overrides their solver settings; highs needs lanesolve[highs]).")
+@click.option("--solver", type=click.Choice(["auto", "cbc", "highs"]),
+              help="Solver for every workbook (overrides their solver settings): auto, cbc or highs.")
 @click.option("--summary", "summary_csv", type=click.Path(dir_okay=False), default="batch-summary.csv",
               show_default=True, help="Write the batch summary as CSV here (a .json beside it holds the same).")
 @click.option("--json", "as_json", is_flag=True, help="Print the batch summary as JSON on stdout.")

@@ -320,9 +320,9 @@ SETTINGS_ROWS = (
                 "one inbound lane.",
             fixed_for_scenarios="each customer whose single_source is blank takes this setting when the workbook is "
                                 "read; change the Customers column single_source instead"),
-    Setting("solver", CHOICE, "cbc", choices=("cbc", "highs"),
-            doc="cbc (default, bundled with PuLP) or highs (needs the optional highspy package: "
-                "pip install \"lanesolve[highs]\"). The command line option --solver overrides it."),
+    Setting("solver", CHOICE, "auto", choices=("auto", "cbc", "highs"),
+            doc="auto (default: the engine that fits the model, named on LS Summary), cbc (bundled with PuLP) or "
+                "highs (HiGHS through highspy). The command line option --solver overrides it."),
     Setting("rate_per_distance", NUMBER, None, minimum=0, unit="currency per unit per distance unit",
             doc="Transport rate used for lanes whose cost_per_unit is blank: cost = rate x distance. Blank means "
                 "every lane needs its cost_per_unit.",
@@ -601,7 +601,7 @@ def setting_value(setting: Setting, cell) -> tuple[object, tuple[str, str] | Non
     >>> setting_value(setting_by_name("solver"), "HiGHS")
     ('highs', None)
     >>> setting_value(setting_by_name("solver"), "gurobi")[1][0]
-    "'gurobi' is not one of cbc, highs for setting 'solver'"
+    "'gurobi' is not one of auto, cbc, highs for setting 'solver'"
     """
     if blank_cell(cell):
         return setting.default, None

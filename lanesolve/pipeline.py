@@ -141,13 +141,19 @@ def scenario_networks(raw: reader.RawWorkbook, network: Network,
 
 
 def _solve_one(network: Network, time_limit: float | None, verbose: bool, progress: ProgressCallback,
-               stage: str, solver: str | None = None) -> Result:
-    """Run the cheap checks, then the solver when they find nothing."""
+               stage: str, solver: str | None = None, started: float | None = None) -> Result:
+    """Run the cheap checks, then the solver when they find nothing.
+
+    ``started`` (a :func:`time.monotonic` time) is when the time limit began to run: the solver gets what is left
+    of it (the run's limit covers everything after reading).
+    """
     reasons = checks.presolve_checks(network) + carrier_checks.presolve_checks(network)
     if reasons:
         return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
-    progress(stage, time_limit if time_limit is not None else network.settings.time_limit_s)
-    return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose)
+    limit = time_limit if time_limit is not None else network.settings.time_limit_s
+    progress(stage, limit)
+    deadline = started + limit if started is not None and limit else None
+    return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose, deadline=deadline)
 
 
 def _no_pause(outcome: RunOutcome) -> None:
@@ -195,8 +201,8 @@ def run(
         :class:`lanesolve.progress.TerminalProgress`.
     scenario_names : list of str, optional
         Solve only these scenarios of the Scenarios sheet (default: every one). The baseline is always solved.
-    solver : {"cbc", "highs"}, optional
-        Overrides the workbook's ``solver`` setting (CBC, bundled, is the default).
+    solver : {"auto", "cbc", "highs"}, optional
+        Overrides the workbook's ``solver`` setting (``auto``, the engine that fits the model, is the default).
     email : path-like, optional
         The mail the caller will write (``--email``): planned and checked with the other files before anything is
         read, so a clash or a missing folder stops the run before it writes anything. The path to write it to (a
@@ -268,6 +274,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
             set(guard.WRITABLE_SUFFIXES):
         guard.check_write_target(path, plan.workbook.given)  # by name alone: an .ods is refused unread
     raw, mark = _read(path)
+    read_done = time.monotonic()  # the time limit covers everything after reading
     earlier = earlier_plan.read_earlier_plan(path)  # the plan the workbook's earlier result sheets hold
     if plan is not None:
         # By content after reading, so a file that is no workbook at all is called that (an input error).
@@ -288,7 +295,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
     info = RunInfo(str(path), str(output), str(summary_path_for(output)), mark.sha256)
     if plan is not None:  # a planner's sheet named like a result sheet stops the run before any solving
         writeback.check_result_sheets(path)
-    result = _solve_one(network, time_limit, verbose, progress, "solving", solver)
+    result = _solve_one(network, time_limit, verbose, progress, "solving", solver, started=read_done)
     if result.status.has_plan:
         tradeoff.emission_figures(network, result, tradeoff_points, solver, time_limit)
     scenario_results = {name: _solve_one(variant, time_limit, verbose, progress, f"solving scenario {name}", solver)

@@ -104,35 +104,46 @@ def test_best_bound_from_the_log(log, objective, expected):
     assert cbc_module.best_bound(log, objective) == expected
 
 
-def test_cbc_failure_is_a_solver_error(monkeypatch):
-    class Failed:
-        returncode = 1
+def fake_cbc(returncode: int, effect=None):
+    """A stand-in for ``subprocess.Popen`` of the CBC program: it ends at once with ``returncode`` after
+    ``effect(command)`` (which may write a solution file)."""
+    class Ended:
+        def __init__(self, command, **kwargs):
+            if effect is not None:
+                effect(command)
+            self.returncode = returncode
 
-    monkeypatch.setattr(cbc_module.subprocess, "run", lambda *args, **kwargs: Failed())
+        def wait(self, timeout=None):
+            return returncode
+
+        def poll(self):
+            return returncode
+
+    return Ended
+
+
+def test_cbc_failure_is_a_solver_error(monkeypatch):
+    monkeypatch.setattr(cbc_module.subprocess, "Popen", fake_cbc(1))
     with pytest.raises(SolverError, match="CBC solver failed"):
-        solve(random_network(0))
+        solve(random_network(0), solver="cbc")
 
 
 def test_unreadable_solution_is_a_solver_error(monkeypatch):
-    def truncated(command, **kwargs):
+    def truncated(command):
         Path(command[command.index("-solution") + 1]).write_text("Optimal - objective value 1\n   0 R0 x\n")
 
-        class Done:
-            returncode = 0
-        return Done()
-
-    monkeypatch.setattr(cbc_module.subprocess, "run", truncated)
+    monkeypatch.setattr(cbc_module.subprocess, "Popen", fake_cbc(0, truncated))
     with pytest.raises(SolverError, match="answer could not be read"):
-        solve(random_network(0))
+        solve(random_network(0), solver="cbc")
 
 
 def test_missing_cbc_program_is_a_solver_error(monkeypatch):
-    def missing(*args, **kwargs):
+    def missing(command):
         raise FileNotFoundError(2, "No such file or directory")
 
-    monkeypatch.setattr(cbc_module.subprocess, "run", missing)
+    monkeypatch.setattr(cbc_module.subprocess, "Popen", fake_cbc(0, missing))
     with pytest.raises(SolverError, match="could not be started"):
-        solve(random_network(0))
+        solve(random_network(0), solver="cbc")
 
 
 def test_an_integer_column_without_an_upper_bound_is_not_read_as_binary(tmp_path):

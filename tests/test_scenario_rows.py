@@ -76,7 +76,7 @@ def test_scenario_setting_an_unknown_solver_fails_check_naming_the_row(tmp_path)
     path = with_scenarios(tmp_path, [["fast", "Settings", "solver", "value", "set", "gurobi"]])
     (problem,) = load_problems(path)
     assert (problem.sheet, problem.row, problem.column) == ("Scenarios", 2, "value")
-    assert problem.message == "'gurobi' is not one of cbc, highs for setting 'solver'"
+    assert problem.message == "'gurobi' is not one of auto, cbc, highs for setting 'solver'"
 
 
 def test_scenario_setting_a_known_solver_in_any_case_is_read(tmp_path):

@@ -85,16 +85,18 @@ def root_lp_bound(net) -> float:
     return float(res.fun)
 
 
-def test_pure_lp_is_optimal_without_binaries_or_gap():
+@pytest.mark.parametrize("solver, engine", [("auto", "OR-Tools "), ("cbc", "CBC "), ("highs", "HiGHS ")])
+def test_pure_lp_is_optimal_without_binaries_or_gap(solver, engine):
     net = beer_network()
     model = build_sparse_model(net)
     assert not model.is_mip and len(model.ids("use_")) == 0
     assert not model.integer.any()
-    result = solve(net)
+    result = solve(net, solver=solver)
     assert result.status is SolveStatus.OPTIMAL
     assert result.mip_gap is None
     assert result.total_cost == pytest.approx(8600, abs=TOL)  # PuLP BeerDistributionProblem.py optimum
-    assert result.solver.startswith("CBC ")
+    assert result.best_bound == pytest.approx(result.total_cost, abs=TOL)
+    assert result.solver.startswith(engine)
     assert list(result.flows.columns) == FLOW_COLUMNS
     assert list(result.nodes.columns) == NODE_COLUMNS
     assert list(result.unmet.columns) == UNMET_COLUMNS and result.unmet.empty
@@ -223,7 +225,7 @@ def test_unknown_solver_is_a_solver_error():
 
 def test_missing_highspy_says_how_to_install(monkeypatch):
     monkeypatch.setitem(sys.modules, "highspy", None)  # makes "import highspy" raise ImportError
-    with pytest.raises(SolverError, match=r"lanesolve\[highs\]"):
+    with pytest.raises(SolverError, match=r"pip install highspy"):
         solve(beer_network(), solver="highs")
 
 
@@ -235,7 +237,7 @@ def test_highs_solves_lp_and_mip(capfd):
     assert result.total_cost == pytest.approx(8600, abs=TOL)  # PuLP BeerDistributionProblem.py optimum
     assert result.solver.startswith("HiGHS ")
     mip = solve(beer_network(fixed_cost=100), solver="highs")
-    cbc = solve(beer_network(fixed_cost=100))
+    cbc = solve(beer_network(fixed_cost=100), solver="cbc")
     assert mip.status is SolveStatus.OPTIMAL
     assert mip.total_cost == pytest.approx(cbc.total_cost, abs=TOL)  # two independent MIP solvers agree
     assert mip.mip_gap is not None and mip.mip_gap <= 1e-4
@@ -244,13 +246,13 @@ def test_highs_solves_lp_and_mip(capfd):
 def test_missing_cbc_binary_is_a_solver_error(monkeypatch):
     monkeypatch.setattr(pulp.PULP_CBC_CMD, "available", lambda self: False)
     with pytest.raises(SolverError, match="CBC program bundled with PuLP"):
-        solve(beer_network())
+        solve(beer_network(), solver="cbc")
 
 
 def test_solver_crash_is_a_solver_error(monkeypatch):
-    class Killed:
-        returncode = -11  # the CBC program ended by a signal (a crash)
+    from tests.test_cbc import fake_cbc
 
-    monkeypatch.setattr(cbc_module.subprocess, "run", lambda *args, **kwargs: Killed())
+    # -11: the CBC program ended by a signal (a crash) that lanesolve did not send
+    monkeypatch.setattr(cbc_module.subprocess, "Popen", fake_cbc(-11))
     with pytest.raises(SolverError, match="CBC solver failed"):
-        solve(beer_network(fixed_cost=100))
+        solve(beer_network(fixed_cost=100), solver="cbc")

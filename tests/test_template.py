@@ -205,7 +205,7 @@ def test_every_choice_column_has_a_dropdown(book):
     # Settings: the value cell of each choice or yes/no setting
     settings = book[contract.SETTINGS.name]
     rows = {settings.cell(row=r, column=1).value: r for r in range(2, settings.max_row + 1)}
-    assert _dropdown_at(settings, f"B{rows['solver']}") == ["cbc", "highs"]
+    assert _dropdown_at(settings, f"B{rows['solver']}") == ["auto", "cbc", "highs"]
     assert _dropdown_at(settings, f"B{rows['distance_unit']}") == ["km", "mi"]
     assert _dropdown_at(settings, f"B{rows['single_source']}") == ["yes", "no"]
     # Scenarios: sheet, column and change

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import io
 import re
+import signal
 import subprocess
 import tempfile
 import time
@@ -195,7 +196,73 @@ def best_bound(log_text: str, objective: float | None) -> float | None:
     return float(found[-1]) if found else None
 
 
-def solve_with_cbc(model: SparseModel, time_limit: float | None = None, gap: float | None = None) -> Answer:
+#: Most seconds CBC gets after SIGINT to end its search and write its plan before it is terminated (our choice:
+#: the stop itself is immediate in the branch and bound; the rest is writing the solution file).
+INTERRUPT_GRACE = 3.0
+
+
+def interrupt_grace(time_limit: float | None) -> float:
+    """Seconds CBC gets after SIGINT: 5 % of the limit, at least 1 and at most :data:`INTERRUPT_GRACE` (a short
+    limit cannot afford a long wait; a first LP that ignores the interrupt would waste all of it)."""
+    if time_limit is None:
+        return INTERRUPT_GRACE
+    return min(INTERRUPT_GRACE, max(1.0, 0.05 * time_limit))
+
+
+def _interrupt(process: subprocess.Popen) -> None:
+    """SIGINT where there is one (POSIX); elsewhere terminate at once."""
+    try:
+        process.send_signal(signal.SIGINT)
+    except (ValueError, AttributeError):
+        process.terminate()
+
+
+def run_watched(command: list[str], log, deadline: float | None, grace: float = INTERRUPT_GRACE
+                ) -> tuple[int | None, bool]:
+    """Run CBC, stopping it at ``deadline`` (a :func:`time.monotonic` time) if it is still running.
+
+    CBC checks its own ``-sec`` limit only between steps; in a long first LP it does not look at the clock at
+    all. So at the deadline it gets SIGINT, its own "ctrl-c" stop: in the branch and bound it then ends the search
+    and writes its best plan to the solution file like a time limit would ("Stopped on ..."). If it has not ended
+    after ``grace`` seconds (:func:`interrupt_grace`) it gets SIGTERM, then SIGKILL; a program killed that way leaves no
+    solution file, and the caller builds a plan itself.
+
+    Returns
+    -------
+    (int or None, bool)
+        CBC's exit code (None when it had to be terminated or killed: its solution file, if any, may be
+        incomplete) and whether it had to be stopped.
+    """
+    process = subprocess.Popen(command, stdout=log, stderr=log, stdin=subprocess.DEVNULL)
+    try:
+        if deadline is None:
+            return process.wait(), False
+        try:
+            return process.wait(timeout=max(deadline - time.monotonic(), 0.0)), False
+        except subprocess.TimeoutExpired:
+            pass
+        _interrupt(process)
+        try:
+            return process.wait(timeout=grace), True
+        except subprocess.TimeoutExpired:
+            pass
+        for stop in (subprocess.Popen.terminate, subprocess.Popen.kill):
+            stop(process)
+            try:
+                process.wait(timeout=1.0)
+                break
+            except subprocess.TimeoutExpired:
+                pass
+        # Killed, perhaps while writing: a solution file it left may be cut short, and is never read.
+        return None, True
+    finally:
+        if process.poll() is None:  # an exception on the way (KeyboardInterrupt): never leave CBC running
+            process.kill()
+            process.wait()
+
+
+def solve_with_cbc(model: SparseModel, time_limit: float | None = None, gap: float | None = None,
+                   deadline: float | None = None) -> Answer:
     """Solve ``model`` with the bundled CBC program through an MPS file and a solution file in a temporary folder.
 
     Parameters
@@ -205,6 +272,9 @@ def solve_with_cbc(model: SparseModel, time_limit: float | None = None, gap: flo
         Seconds CBC may run (``-sec``, elapsed time).
     gap : float, optional
         Relative MIP gap at which CBC stops (``-ratio``); ignored for an LP.
+    deadline : float, optional
+        A :func:`time.monotonic` time at which CBC is stopped if it still runs (:func:`run_watched`); its plan so
+        far is kept when it writes one (status ``feasible``), else the status is ``not_solved``.
 
     Returns
     -------
@@ -224,20 +294,29 @@ def solve_with_cbc(model: SparseModel, time_limit: float | None = None, gap: flo
         tick = time.perf_counter()
         try:
             with open(log_path, "w") as log:
-                code = subprocess.run(command, stdout=log, stderr=log, stdin=subprocess.DEVNULL).returncode
+                code, stopped = run_watched(command, log, deadline, min(INTERRUPT_GRACE, interrupt_grace(time_limit)))
         except OSError as exc:
             raise SolverError(f"the CBC program could not be started ({exc}); reinstall PuLP: "
                               "pip install --force-reinstall pulp") from exc
         seconds = time.perf_counter() - tick
         log_text = log_path.read_text(errors="replace") if log_path.exists() else ""
-        if code != 0 or not solution_path.exists():
+        if stopped and (code is None or not solution_path.exists()):
+            # Stopped before it wrote an answer (still in its first LP, where it does not look at the clock).
+            answer = Answer(SolveStatus.NOT_SOLVED, np.zeros(model.n_columns), np.zeros(model.n_rows),
+                            np.zeros(model.n_columns))
+            objective = None
+        elif code != 0 or not solution_path.exists():
             raise SolverError(f"the CBC solver failed (exit code {code}) (rerun with the solver log shown to see "
                               "why; a damaged PuLP install is fixed by: pip install --force-reinstall pulp)")
-        try:
-            answer, objective = read_cbc_solution(solution_path, backend, model.n_rows, model.n_columns,
-                                                  model.is_mip)
-        except (OSError, ValueError, IndexError) as exc:
-            raise SolverError(f"the CBC solver's answer could not be read: {exc}") from exc
+        else:
+            try:
+                answer, objective = read_cbc_solution(solution_path, backend, model.n_rows, model.n_columns,
+                                                      model.is_mip)
+            except (OSError, ValueError, IndexError) as exc:
+                raise SolverError(f"the CBC solver's answer could not be read: {exc}") from exc
+            if stopped and answer.status is SolveStatus.OPTIMAL:
+                # Interrupted, CBC may word its stop as a finish; a plan it was not let finish is not proven.
+                answer.status = SolveStatus.FEASIBLE if model.is_mip else SolveStatus.NOT_SOLVED
     version = _VERSION.search(log_text)
     answer.solver = f"CBC {version.group(1) if version else '(version unknown)'} (PuLP {pulp.__version__})"
     answer.seconds, answer.log = seconds, log_text

@@ -11,7 +11,7 @@ Every check here is *certain*: when it fires, the model is infeasible (it never 
    comes in).
 4. A customer with hard demand that no depot with supply can reach along active lanes of non-zero capacity (and
    through no hub of zero capacity, and no closed depot or hub).
-5. Contract v2 structure (:func:`lanesolve.model.diagnose.structural_causes`): a customer with hard demand whose every
+5. Design structure (:func:`lanesolve.model.diagnose.structural_causes`): a customer with hard demand whose every
    active inbound lane starts at a closed node; more nodes marked open than max_open_depots / max_open_hubs.
 
 Examples

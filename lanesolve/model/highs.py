@@ -1,6 +1,6 @@
 """Solve a :class:`~lanesolve.model.arrays.SparseModel` with HiGHS in memory, through ``highspy`` (no files).
 
-``pip install "lanesolve[highs]"`` installs highspy. The model's arrays go to ``Highs.passModel`` as they are
+highspy is installed with lanesolve. The model's arrays go to ``Highs.passModel`` as they are
 (column-wise matrix, bounds, costs, integrality); status, values, duals, the MIP gap and the best bound are read from
 the API.
 
@@ -37,16 +37,18 @@ from lanesolve.model.result import SolveStatus
 
 
 @contextlib.contextmanager
-def stdout_to_stderr():
-    """Send what native code writes to file descriptor 1 to 2 instead while inside the block.
+def stdout_to_stderr(silent: bool = False):
+    """Send what native code writes to file descriptor 1 to 2 instead (to nowhere when ``silent``) while inside
+    the block.
 
     highspy prints a banner on stdout whenever a solver object is made, even with output off; ``--json`` promises
-    stdout holds only the JSON document.
+    stdout holds only the JSON document, and a planner who did not ask for the solver's log need not see it.
     """
     sys.stdout.flush()
     saved = os.dup(1)
+    sink = os.open(os.devnull, os.O_WRONLY) if silent else None
     try:
-        os.dup2(2, 1)
+        os.dup2(2 if sink is None else sink, 1)
         yield
     finally:
         sys.stdout.flush()
@@ -55,6 +57,8 @@ def stdout_to_stderr():
         _flush_c_stdout()
         os.dup2(saved, 1)
         os.close(saved)
+        if sink is not None:
+            os.close(sink)
 
 
 def _flush_c_stdout() -> None:
@@ -68,8 +72,8 @@ def _import_highspy():
     try:
         import highspy
     except ImportError as exc:
-        raise SolverError('solver "highs" needs the highspy package (install it with: '
-                          'pip install "lanesolve[highs]")') from exc
+        raise SolverError('solver "highs" needs the highspy package, which lanesolve installs; it is missing '
+                          '(reinstall it with: pip install highspy)') from exc
     return highspy
 
 
@@ -94,7 +98,7 @@ def _status(highspy, model_status, has_point: bool, is_mip: bool, empty_rows_hol
 
 
 def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: float | None = None,
-                     msg: bool = False) -> Answer:
+                     msg: bool = False, start: np.ndarray | None = None) -> Answer:
     """Solve ``model`` with HiGHS in this process.
 
     Parameters
@@ -106,6 +110,8 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
         Relative MIP gap at which HiGHS stops (option ``mip_rel_gap``); ignored for an LP.
     msg : bool
         Show HiGHS's log (on stderr).
+    start : numpy.ndarray, optional
+        Column values of a known plan, given to a MIP search as its first incumbent (``setSolution``).
 
     Returns
     -------
@@ -121,7 +127,7 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
     highspy = _import_highspy()
     matrix = model.matrix.tocsc()
     tick = time.perf_counter()
-    with stdout_to_stderr():
+    with stdout_to_stderr(silent=not msg):
         highs = highspy.Highs()
         highs.setOptionValue("output_flag", bool(msg))
         if msg:
@@ -138,6 +144,11 @@ def solve_with_highs(model: SparseModel, time_limit: float | None = None, gap: f
                                  matrix.indices.astype(np.int32), matrix.data, integrality)
         if loaded == highspy.HighsStatus.kError:
             raise SolverError("HiGHS refused the model (a lanesolve bug: please report it)")
+        if start is not None and model.is_mip:
+            known = highspy.HighsSolution()
+            known.col_value = np.asarray(start, dtype=float)
+            known.value_valid = True
+            highs.setSolution(known)
         highs.run()
         seconds = time.perf_counter() - tick
     info = highs.getInfo()

@@ -13,7 +13,7 @@ carriers   id, min_volume, max_volume, max_share, row (the optional Carriers she
 rate_breaks  lane, from_volume, cost_per_unit, kind, row (the optional Rate breaks sheet; empty without it)
 lane_sources  distance, cost_source, sheet (same index as lanes)
 
-Contract v2 columns, resolved: ``status`` is ``"open"``, ``"closed"`` or ``"decide"`` (a blank status is already
+Design columns, resolved: ``status`` is ``"open"``, ``"closed"`` or ``"decide"`` (a blank status is already
 ``decide`` when the node has a fixed cost, else ``open``); ``single_source`` is a bool (a blank one already takes
 the Settings default); ``trip_capacity`` is NaN when the lane is not run in whole trips; ``min_volume`` and
 ``cost_per_trip`` are 0 when not given; ``carrier`` is ``""`` for a lane with no carrier and ``minimum_charge`` 0
@@ -57,7 +57,7 @@ BOOL_COLUMNS = frozenset({"active", "single_source"})
 
 
 def resolve_status(status: pd.Series, fixed_cost: pd.Series) -> pd.Series:
-    """Node status with blanks resolved: ``decide`` when the node has a fixed cost, else ``open`` (contract v2)."""
+    """Node status with blanks resolved: ``decide`` when the node has a fixed cost, else ``open``."""
     text = status.where(status.notna(), "").astype(str).str.strip().str.lower()
     blank = text.isin(["", "nan", "none"])
     return text.where(~blank, np.where(fixed_cost.to_numpy(dtype=float) > 0, "decide", "open")).astype(object)
@@ -75,7 +75,7 @@ class Settings:
     max_open_depots: float | None = None
     max_open_hubs: float | None = None
     single_source: bool = False
-    solver: str = "cbc"
+    solver: str = "auto"
     rate_per_distance: float | None = None
     distance_unit: str = "km"
     circuity_factor: float = 1.2
@@ -149,7 +149,7 @@ class Network:
 
     @property
     def has_design(self) -> bool:
-        """True when any contract v2 decision is present: a node to open or close, a fixed node charge, a minimum
+        """True when any design decision is present: a node to open or close, a fixed node charge, a minimum
         lane volume, whole trips, single sourcing or a limit on open nodes (the model then adds their rows)."""
         lanes = self.active_lanes
         nodes = pd.concat([self.depots[["fixed_cost", "status"]], self.hubs[["fixed_cost", "status"]]])

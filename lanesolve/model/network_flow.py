@@ -67,6 +67,9 @@ class FlowAnswer:
         The plan's cost (transport + handling + unmet penalties), from the integer optimum.
     quantity_scale, cost_scale : int
         The powers of ten applied to quantities and to costs.
+    infeasible : bool
+        The algorithm proved that the demand that must be delivered cannot all reach its customers (False when
+        it stopped for any other reason, such as a cost range it cannot handle: then neither answer is known).
     """
 
     feasible: bool
@@ -75,11 +78,15 @@ class FlowAnswer:
     objective: float
     quantity_scale: int
     cost_scale: int
+    infeasible: bool = False
 
 
 def applies(network: Network) -> bool:
-    """True when ``network`` is a pure min-cost flow (no yes/no or trip decisions): :func:`solve_flow` may take it."""
-    return not network.has_fixed_charges and not network.has_design
+    """True when ``network`` is a pure min-cost flow (no yes/no or trip decisions, no carrier terms):
+    :func:`solve_flow` may take it."""
+    # Carrier terms (commitments, minimum charges, rate breaks) add rows or columns a network algorithm cannot take.
+    return (not network.has_fixed_charges and not network.has_design
+            and not getattr(network, "has_carrier_terms", False))
 
 
 def decimal_scale(values: np.ndarray) -> int | None:
@@ -179,7 +186,8 @@ def solve_flow(network: Network) -> FlowAnswer | None:
     lane_flow = np.zeros(len(lanes))
     unmet = np.zeros(n_c)
     if status != solver.OPTIMAL:
-        return FlowAnswer(False, lane_flow, unmet, math.nan, q_scale, c_scale)
+        return FlowAnswer(False, lane_flow, unmet, math.nan, q_scale, c_scale,
+                          infeasible=status == solver.INFEASIBLE)
     flows = solver.flows(np.arange(len(capacities), dtype=np.int64)).astype(float) / q_scale
     n_lanes = len(lane_index)
     lane_flow[lane_index] = flows[n_d:n_d + n_lanes]

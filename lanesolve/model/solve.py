@@ -1,15 +1,25 @@
 """Solve a network: build the one model, run a solver on it, and turn its answer into a plain
 :class:`~lanesolve.model.result.Result`.
 
-Solvers
+Engines
 -------
-Both read the same :class:`~lanesolve.model.arrays.SparseModel` built by
+``"auto"`` (the default) picks per model: the network-flow algorithm of :mod:`lanesolve.model.network_flow`
+(OR-Tools' min-cost flow) for a pure min-cost flow it can take exactly, else :func:`pick_engine`. The LP engines both
+read the same :class:`~lanesolve.model.arrays.SparseModel` built by
 :func:`lanesolve.model.formulation.build_sparse_model`:
 
-- ``"cbc"`` (default): the CBC program bundled in PuLP's wheel (no system install needed), fed one MPS file
-  (:mod:`lanesolve.model.cbc`);
-- ``"highs"``: HiGHS in memory through the ``highspy`` package, ``pip install "lanesolve[highs]"``
-  (:mod:`lanesolve.model.highs`).
+- ``"cbc"``: the CBC program bundled in PuLP's wheel, fed one MPS file and stopped at the deadline if it has not
+  stopped itself (:mod:`lanesolve.model.cbc`);
+- ``"highs"``: HiGHS in memory through ``highspy`` (:mod:`lanesolve.model.highs`).
+
+Every answer, the network algorithm's too, becomes a Result through the same code (:func:`plan_values`, the cost
+breakdown from the model's per-component costs).
+
+Time limit
+----------
+The limit (or a ``deadline``) is kept: a MIP engine gets all but a reserve (:func:`engine_deadline`), and when it stops
+without a plan, :mod:`lanesolve.model.construct` builds one (status ``feasible``, its gap against the best bound
+known); a pure flow an LP engine could not finish goes to the network algorithm.
 
 Each maps its own words to one :class:`~lanesolve.model.result.SolveStatus` (tables in those modules): a MIP stopped
 by the time limit with a plan in hand is ``feasible`` with its gap, never ``optimal``; an LP stopped early is
@@ -28,6 +38,7 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.errors import SolverError
+from lanesolve.model import network_flow
 from lanesolve.model import carrier_results
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
@@ -40,7 +51,7 @@ from lanesolve.model.result import (FLOW_COLUMNS, NODE_COLUMNS, OPEN_NODE_COLUMN
 #: Values smaller than this in magnitude are solver noise and are reported as 0.
 NOISE = 1e-9
 
-SOLVERS = ("cbc", "highs")
+SOLVERS = ("auto", "cbc", "highs")
 
 
 def _clean(values: np.ndarray) -> np.ndarray:
@@ -92,9 +103,13 @@ def node_balance(network: Network, outflow: dict[str, float], inflow: dict[str, 
 
 
 def solve_model(model: SparseModel, solver: str = "cbc", time_limit: float | None = None,
-                gap: float | None = None, msg: bool = False) -> Answer:
+                gap: float | None = None, msg: bool = False, deadline: float | None = None,
+                start: np.ndarray | None = None) -> Answer:
     """Run ``solver`` on ``model`` and return its :class:`~lanesolve.model.arrays.Answer` (values, and for an
     optimal LP the row duals and reduced costs, read from the solver).
+
+    ``deadline`` (a :func:`time.monotonic` time) stops CBC if it has not stopped itself on ``time_limit`` by then;
+    HiGHS keeps its ``time_limit`` on its own; ``start`` (a known plan's column values) is its first incumbent.
 
     Raises
     ------
@@ -104,14 +119,67 @@ def solve_model(model: SparseModel, solver: str = "cbc", time_limit: float | Non
     """
     if solver == "cbc":
         from lanesolve.model.cbc import solve_with_cbc  # late import: PuLP is loaded only when CBC runs
-        answer = solve_with_cbc(model, time_limit, gap)
+        answer = solve_with_cbc(model, time_limit, gap, deadline)
         if msg and answer.log:
             sys.stderr.write(answer.log)
         return answer
     if solver == "highs":
         from lanesolve.model.highs import solve_with_highs
-        return solve_with_highs(model, time_limit, gap, msg)
+        return solve_with_highs(model, time_limit, gap, msg, start)
     raise SolverError(f"unknown solver {solver!r} (choose one of: {', '.join(SOLVERS)})")
+
+
+def pick_engine(model: SparseModel) -> str:
+    """The engine ``auto`` gives a model the network-flow algorithm could not take.
+
+    HiGHS for a model with whole-number decisions: on the published single-source facility sets it proved cases
+    that CBC left open after 60 s, and it keeps its time limit through presolve and the root LP. CBC for a pure LP
+    (one whose data the network-flow algorithm cannot scale to exact integers): on a 1M-lane network its LP took
+    42 CPU-s against HiGHS's 294 s. Both measured before this choice existed (benchmarks/README.md, *Engines and
+    time limits*, says what was rerun since).
+    """
+    return "highs" if model.is_mip else "cbc"
+
+
+#: Share of a MIP's time kept back from the engine, so that a plan can still be built when it stops without one
+#: (our choice, with the limit + 10 % + 5 s promise of README.md *Engines and time limits* in mind), at least
+#: :data:`CONSTRUCTION_FLOOR` and at most :data:`CONSTRUCTION_CAP` seconds.
+CONSTRUCTION_SHARE, CONSTRUCTION_CAP = 0.1, 15.0
+#: Seconds a construction may always take, even when the engine ran late.
+CONSTRUCTION_FLOOR = 2.0
+
+
+def engine_deadline(end: float, limit: float, is_mip: bool, engine: str) -> float:
+    """When the engine must stop: ``end`` less the construction's reserve (a MIP) and less the seconds CBC may
+    take to stop after its interrupt (:func:`lanesolve.model.cbc.interrupt_grace`)."""
+    reserve = min(max(CONSTRUCTION_SHARE * limit, CONSTRUCTION_FLOOR), CONSTRUCTION_CAP) if is_mip else 0.0
+    if engine == "cbc":
+        from lanesolve.model.cbc import interrupt_grace
+        reserve += interrupt_grace(limit)
+    return end - reserve
+
+
+#: A MIP with at least this many columns gets, under ``auto``, a quick construction first (:data:`FIRST_SHARE` of
+#: its time), whose plan HiGHS then starts from: on the 100 x 1000 published facility sets HiGHS's first LP alone
+#: outlasts two minutes (benchmarks/README.md, *Time limits*), so without it the run would end on the small
+#: construction share. The size is our choice between those (100,000 columns) and the largest sets HiGHS proves in
+#: seconds (cap131 … cap134: 2,500 columns).
+LARGE_MIP = 20_000
+FIRST_SHARE = 0.5
+
+
+def _flow_answer(model: SparseModel, network: Network, flow) -> Answer:
+    """The network algorithm's plan as the model's column values, so one code path makes every Result."""
+    from ortools import __version__ as ortools_version
+
+    value = np.zeros(model.n_columns)
+    value[:len(model.lane_index)] = flow.lane_flow[model.lane_index]
+    value[model.columns("unmet_")] = flow.unmet[model.ids("unmet_")]
+    status = SolveStatus.OPTIMAL if flow.feasible else SolveStatus.INFEASIBLE
+    answer = Answer(status, value, np.zeros(model.n_rows), np.zeros(model.n_columns),
+                    solver=f"OR-Tools {ortools_version} min-cost flow (network algorithm)")
+    answer.bound = flow.objective if flow.feasible else None
+    return answer
 
 
 def plan_values(network: Network, model: SparseModel, values: np.ndarray) -> np.ndarray:
@@ -224,7 +292,8 @@ def trip_frame(network: Network, flow: dict[int, float]) -> pd.DataFrame:
 
 
 def solve(network: Network, time_limit: float | None = None, solver: str | None = None, msg: bool = False,
-          sensitivity: bool = False, linking: bool = True, cap: float | None = None) -> Result:
+          sensitivity: bool = False, linking: bool = True, deadline: float | None = None,
+          cap: float | None = None) -> Result:
     """Build the model of :mod:`lanesolve.model.formulation` for ``network`` once and solve it.
 
     Parameters
@@ -234,11 +303,14 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     time_limit : float, optional
         Seconds the solver may run; overrides ``network.settings.time_limit_s``. A value of 0 or less, or None
         with a setting of 0, means no limit.
-    solver : {"cbc", "highs"}, optional
-        ``"cbc"``: the CBC binary in PuLP's wheel. ``"highs"``: HiGHS in memory through ``highspy`` (optional
-        extra). None takes the ``solver`` setting (default ``"cbc"``).
+    solver : {"auto", "cbc", "highs"}, optional
+        ``"auto"``: the engine that fits the model (module docstring). ``"cbc"``: the CBC binary in PuLP's wheel.
+        ``"highs"``: HiGHS in memory through ``highspy``. None takes the ``solver`` setting (default ``"auto"``).
     msg : bool
         Echo the solver's log to stderr.
+    deadline : float, optional
+        A :func:`time.monotonic` time by which a plan must be in hand (the run's limit counted from the end of
+        reading); the earlier of it and ``time_limit`` counts.
     sensitivity : bool
         Accepted and ignored: sensitivity figures are not part of a solve (:mod:`lanesolve.model.sensitivity`
         computes them from the plan), so ``Result.sensitivity`` stays empty here.
@@ -272,20 +344,56 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     ('optimal', 10.0, None)
     """
     settings = network.settings
-    solver = (solver or getattr(settings, "solver", None) or "cbc").lower()
+    solver = (solver or getattr(settings, "solver", None) or "auto").lower()
     if solver not in SOLVERS:
         raise SolverError(f"unknown solver {solver!r} (choose one of: {', '.join(SOLVERS)})")
     limit = time_limit if time_limit is not None else settings.time_limit_s
     limit = float(limit) if limit is not None and limit > 0 else None
     gap = float(settings.mip_gap) if settings.mip_gap is not None else None
+    end = time.monotonic() + limit if limit is not None else None
+    if deadline is not None:
+        end = deadline if end is None else min(end, deadline)
 
+    flow = None
+    tick = time.perf_counter()
+    # Several products, a carbon price or an emissions cap are beyond the one-commodity flow algorithm.
+    goods = network.products is not None or cap is not None or (
+        network.emissions is not None and (settings.carbon_price or settings.emissions_cap is not None))
+    if solver == "auto" and not goods and network_flow.applies(network):
+        flow = network_flow.solve_flow(network)  # None: not exactly in integers; the LP engine takes it
+        if flow is not None and not (flow.feasible or flow.infeasible):
+            flow = None
+    flow_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     model = build_model(network, linking=linking, cap=cap, single_product=build_sparse_model)
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
-    answer = solve_model(model, solver, limit, gap, msg)
-    # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
-    solver_seconds = time.perf_counter() - tick
+    constructed = False
+    if flow is not None:
+        answer = _flow_answer(model, network, flow)
+        solver_seconds = flow_seconds
+    else:
+        engine = pick_engine(model) if solver == "auto" else solver
+        engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
+        first = None
+        if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
+            from lanesolve.model.construct import construct
+            first = construct(model, FIRST_SHARE * max(end - time.monotonic(), 0.0))
+        engine_limit = None if engine_end is None else max(engine_end - time.monotonic(), 1.0)
+        answer = solve_model(model, engine, engine_limit, gap, msg,
+                             deadline=None if engine_end is None else time.monotonic() + engine_limit,
+                             start=None if first is None else plan_values(network, model, first.value))
+        if first is not None and not answer.status.has_plan:
+            first.solver = f"{answer.solver}, no plan of its own in its limit; plan by quick construction"
+            answer, constructed = first, True
+        elif first is not None and first.bound is not None:
+            answer.bound = first.bound if answer.bound is None else max(answer.bound, first.bound)
+        if answer.status is SolveStatus.NOT_SOLVED and end is not None:
+            built = _build_plan(network, model, answer, end)
+            if built is not None:
+                answer, constructed = built, True
+        # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
+        solver_seconds = time.perf_counter() - tick
 
     status = answer.status
     result = Result(status=status, solver=answer.solver, solve_seconds=solver_seconds)
@@ -302,7 +410,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
                model.penalty, model.breakdown(values), result)
     carrier_results.apply_lane_costs(result, network, model, values)
     result.carriers = carrier_results.carrier_figures(network, model, values, result,
-                                                      lambda lp: solve_model(lp, solver, limit, gap))
+                                                      lambda lp: solve_model(lp, lp_engine(solver), limit, gap))
     finish_plan(network, model, values, result, node_balance)
     if model.design:
         result.open_nodes = open_node_frame(network, model, values)
@@ -317,12 +425,44 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         bound = min(answer.bound + model.objective_constant, result.total_cost)
         result.best_bound = bound
         result.mip_gap = max(0.0, (result.total_cost - bound) / max(abs(result.total_cost), 1e-9))
+    if constructed:
+        result.messages.append("The solver found no plan in its time limit; this plan was built by a quick "
+                               "construction (LP rounding) and is not proven optimal.")
     if status is SolveStatus.FEASIBLE:
         gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
         result.messages.append(f"The solver stopped on its time limit ({limit:g} s) before proving the plan "
                                f"optimal; the best possible plan may cost up to {gap_text} less than this one "
                                "(raise time_limit_s in Settings or use --time-limit).")
     return result
+
+
+def lp_engine(solver: str) -> str:
+    """The LP engine for follow-up solves of a plan (carrier figures): the one chosen, HiGHS under ``auto``."""
+    return "highs" if solver == "auto" else solver
+
+
+def limit_or(limit: float | None, end: float) -> float:
+    """The run's limit in seconds, or the time to ``end`` when only a deadline was given."""
+    return limit if limit is not None else max(end - time.monotonic(), 0.0)
+
+
+def _build_plan(network: Network, model: SparseModel, stopped: Answer, end: float) -> Answer | None:
+    """A plan after the engine stopped without one: the network algorithm for a pure flow (exact, so optimal),
+    else the quick construction of :mod:`lanesolve.model.construct` in the time left (at least
+    :data:`CONSTRUCTION_FLOOR` seconds)."""
+    if not model.is_mip:
+        flow = network_flow.solve_flow(network) if network_flow.applies(network) else None
+        if flow is None or not flow.feasible:
+            return None
+        answer = _flow_answer(model, network, flow)
+        answer.solver = f"{stopped.solver}, stopped on its limit; then {answer.solver}"
+        return answer
+    from lanesolve.model.construct import construct  # late import: needed only when the engine found nothing
+
+    built = construct(model, max(end - time.monotonic(), CONSTRUCTION_FLOOR), stopped.bound)
+    if built is not None:
+        built.solver = f"{stopped.solver}, stopped on its limit; plan by quick construction ({built.solver})"
+    return built
 
 
 def _no_plan(network: Network, result: Result, status: SolveStatus, limit: float | None, is_mip: bool) -> None:

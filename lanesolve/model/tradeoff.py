@@ -16,7 +16,7 @@ from lanesolve.errors import Problem, WorkbookError
 from lanesolve.model.build import build_model
 from lanesolve.model.network import Network
 from lanesolve.model.result import Result
-from lanesolve.model.solve import solve, solve_model
+from lanesolve.model.solve import pick_engine, solve, solve_model
 
 #: Step of the re-solves that price the cap, in tonnes CO2e.
 CAP_STEP_T = 0.01
@@ -73,7 +73,9 @@ def least_emissions(network: Network, keep_unmet: np.ndarray | None = None, solv
         for prefix in ("unmet_", "unmet_product_"):
             span = model.columns(prefix)
             model.upper[span] = np.minimum(model.upper[span], keep_unmet[prefix])
-    answer = solve_model(model, solver or network.settings.solver, time_limit, network.settings.mip_gap)
+    engine = (solver or network.settings.solver or "auto").lower()
+    answer = solve_model(model, pick_engine(model) if engine == "auto" else engine, time_limit,
+                         network.settings.mip_gap)
     return float(model.emission @ answer.value) if answer.status.has_plan else None
 
 

@@ -1,0 +1,125 @@
+"""A large pure min-cost flow end to end through lanesolve, beside OR-Tools' min-cost flow alone on the same network.
+
+The network is benchmarks/generate.py's invented three-tier transshipment network (depots, hubs, customers; lane and
+hub capacities; costs with two decimals) at the size asked for, 131,072 lanes by default -- the size of the NETGEN
+case in the findings that led to the ``auto`` engine (not a NETGEN instance: generate.py's own networks).
+
+Printed, from one run, each as a fresh process:
+
+- **lanesolve**: ``python -m lanesolve solve WORKBOOK --json --solver S`` wall and CPU time (process start, imports,
+  reading, validation, model, solve, figures, write-back, HTML summary), the engine the result names, and its stage
+  timings;
+- **OR-Tools alone**: a process that unpickles the same network (generate.py's cache) and runs lanesolve's
+  network-flow mapping (:func:`lanesolve.model.network_flow.solve_flow`); its wall time from start to the answer,
+  and inside it the seconds of ``SimpleMinCostFlow`` itself (adding the arcs and solving);
+- the ratio lanesolve / OR-Tools-alone process, and whether both found the same cost.
+
+Usage::
+
+    python benchmarks/pure_flow.py                         # 131k lanes, solver auto
+    python benchmarks/pure_flow.py --lanes 1m --solvers auto,cbc
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import pickle
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+import generate  # noqa: E402
+
+
+def ortools_alone(network_pickle: str) -> dict:
+    """Run inside a fresh process: unpickle, map to OR-Tools, solve; time SimpleMinCostFlow's own calls."""
+    from ortools.graph.python import min_cost_flow
+
+    from lanesolve.model import network_flow
+
+    with open(network_pickle, "rb") as fh:
+        network = pickle.load(fh)
+    spent = {"seconds": 0.0}
+    real = min_cost_flow.SimpleMinCostFlow
+
+    class Timed:
+        """SimpleMinCostFlow with its arc loading and solve timed (every other call passed through)."""
+
+        def __init__(self):
+            self._inner = real()
+
+        def __getattr__(self, name):
+            attribute = getattr(self._inner, name)
+            if name not in ("add_arcs_with_capacity_and_unit_cost", "set_nodes_supplies", "solve"):
+                return attribute
+
+            def timed(*args):
+                tick = time.perf_counter()
+                try:
+                    return attribute(*args)
+                finally:
+                    spent["seconds"] += time.perf_counter() - tick
+            return timed
+
+    min_cost_flow.SimpleMinCostFlow = Timed
+    answer = network_flow.solve_flow(network)
+    return {"cost": None if answer is None else answer.objective, "ortools_seconds": spent["seconds"]}
+
+
+def run_process(command: list[str]) -> tuple[float, float, subprocess.CompletedProcess]:
+    """Wall and CPU seconds (children's user + system) of one command."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    tick = time.perf_counter()
+    done = subprocess.run(command, capture_output=True, text=True)
+    wall = time.perf_counter() - tick
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return wall, (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime), done
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--lanes", default="131072", help="lane count (131072, 1m, ...)")
+    parser.add_argument("--solvers", default="auto", help="lanesolve solvers, comma separated (default auto)")
+    parser.add_argument("--time-limit", type=float, default=600.0)
+    parser.add_argument("--alone", help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.alone:
+        print(json.dumps(ortools_alone(args.alone)))
+        return 0
+    book, pickled = generate.ensure_instance(generate.parse_size(args.lanes))
+    wall, cpu, done = run_process([sys.executable, __file__, "--alone", str(pickled)])
+    alone = json.loads(done.stdout.strip().splitlines()[-1])
+    print(f"network: {book.name} ({generate.parse_size(args.lanes):,} lanes)")
+    print("| run | wall s | CPU s | engine | cost | stages (s) |")
+    print("|---|---|---|---|---|---|")
+    print(f"| OR-Tools alone (process) | {wall:.2f} | {cpu:.2f} | SimpleMinCostFlow: {alone['ortools_seconds']:.2f} s "
+          f"| {alone['cost']:,.2f} | |")
+    with tempfile.TemporaryDirectory() as folder:
+        for solver in [s for s in args.solvers.split(",") if s]:
+            output = Path(folder) / "solved.xlsx"
+            output.unlink(missing_ok=True)
+            s_wall, s_cpu, run = run_process([sys.executable, "-m", "lanesolve", "solve", str(book), "--output",
+                                              str(output), "--json", "--solver", solver, "--time-limit",
+                                              str(args.time_limit)])
+            try:
+                doc = json.loads(run.stdout)
+            except json.JSONDecodeError:
+                print(f"| lanesolve {solver} | {s_wall:.2f} | {s_cpu:.2f} | failed: {run.stderr.strip()[-200:]} | | |")
+                continue
+            stages = ", ".join(f"{k} {v:.2f}" for k, v in doc.get("timings", {}).items())
+            same = "" if alone["cost"] is None else (
+                " (same)" if abs(doc["total_cost"] - alone["cost"]) <= 1e-6 * max(1.0, abs(alone["cost"])) else
+                " (DIFFERENT)")
+            print(f"| lanesolve {solver} (ratio {s_wall / wall:.2f}) | {s_wall:.2f} | {s_cpu:.2f} | {doc['solver']} "
+                  f"| {doc['total_cost']:,.2f}{same} | {stages} |")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

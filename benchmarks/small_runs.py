@@ -1,0 +1,90 @@
+"""Small workbooks end to end: the fixed cost of a run (process start, imports, read, validate, solve, write, HTML).
+
+Two workbooks, each solved ``--repeat`` times as a fresh ``python -m lanesolve solve --json`` process:
+
+- the bundled example (example_workbooks/orvale_larder_supply.xlsx: fixed charges, so a MIP, with its scenarios);
+- an invented 1,000-lane pure flow written here (10 depots, 100 customers, every depot-customer lane, costs with
+  two decimals), seeded.
+
+Printed: median wall and CPU seconds (user + system of the child process), the engine named, and the median of
+each stage's timing from the JSON.
+
+Usage::
+
+    python benchmarks/small_runs.py [--repeat 5] [--solver auto]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import random
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import openpyxl
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def thousand_lane_workbook(path: Path, seed: int = 11) -> Path:
+    """An invented pure flow: 10 depots (D01 ...), 100 customers (K001 ...), all 1,000 lanes between them."""
+    rng = random.Random(seed)
+    book = openpyxl.Workbook()
+    depots = book.active
+    depots.title = "Depots"
+    depots.append(["depot", "supply"])
+    demand = [rng.randint(5, 60) for _ in range(100)]
+    for d in range(10):
+        depots.append([f"D{d + 1:02d}", round(sum(demand) * rng.uniform(0.12, 0.2))])
+    customers = book.create_sheet("Customers")
+    customers.append(["customer", "demand"])
+    for k, q in enumerate(demand):
+        customers.append([f"K{k + 1:03d}", q])
+    lanes = book.create_sheet("Lanes")
+    lanes.append(["origin", "destination", "cost_per_unit"])
+    for d in range(10):
+        for k in range(100):
+            lanes.append([f"D{d + 1:02d}", f"K{k + 1:03d}", round(rng.uniform(2, 40), 2)])
+    book.save(path)
+    return path
+
+
+def timed_run(book: Path, output: Path, solver: str) -> tuple[float, float, dict]:
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    tick = time.perf_counter()
+    done = subprocess.run([sys.executable, "-m", "lanesolve", "solve", str(book), "--output", str(output), "--force",
+                           "--json", "--solver", solver], capture_output=True, text=True)
+    wall = time.perf_counter() - tick
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return wall, cpu, json.loads(done.stdout)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--repeat", type=int, default=5)
+    parser.add_argument("--solver", default="auto")
+    args = parser.parse_args(argv)
+    print("| workbook | wall s (median) | CPU s (median) | engine | stages, median s |")
+    print("|---|---|---|---|---|")
+    with tempfile.TemporaryDirectory() as folder:
+        books = {"example (orvale_larder_supply)": ROOT / "example_workbooks" / "orvale_larder_supply.xlsx",
+                 "1,000-lane pure flow": thousand_lane_workbook(Path(folder) / "thousand.xlsx")}
+        for name, book in books.items():
+            runs = [timed_run(book, Path(folder) / "solved.xlsx", args.solver) for _ in range(args.repeat)]
+            stages = {key: statistics.median(doc["timings"][key] for _, _, doc in runs)
+                      for key in runs[0][2]["timings"]}
+            print(f"| {name} | {statistics.median(w for w, _, _ in runs):.2f} | "
+                  f"{statistics.median(c for _, c, _ in runs):.2f} | {runs[-1][2]['solver']} | "
+                  + ", ".join(f"{k} {v:.3f}" for k, v in stages.items()) + " |")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
