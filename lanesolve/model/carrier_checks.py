@@ -30,11 +30,8 @@ import math
 import numpy as np
 
 from lanesolve.model.formulation import customer_penalties, effective_capacity
+from lanesolve.model.checks import plain_number
 from lanesolve.model.network import Network
-
-
-def _num(value: float) -> str:
-    return f"{value:,.6g}" if abs(value) >= 1e6 else f"{value:.6g}"
 
 
 def presolve_checks(network: Network) -> list[str]:
@@ -66,8 +63,8 @@ def presolve_checks(network: Network) -> list[str]:
         can = float(capacity[carrier == name].sum())
         if can < minimum[k]:
             row = int(carriers["row"].iloc[k])
-            reasons.append(f"Carrier {name} must carry at least {_num(minimum[k])} {units} (Carriers row {row}), but "
-                           f"its active lanes can carry at most {_num(can)} {units} together (raise their capacity "
+            reasons.append(f"Carrier {name} must carry at least {plain_number(minimum[k])} {units} (Carriers row {row}), but "
+                           f"its active lanes can carry at most {plain_number(can)} {units} together (raise their capacity "
                            f"on Lanes, name the carrier on more lanes, or lower its min_volume).")
 
     customers = network.customers
@@ -82,8 +79,8 @@ def presolve_checks(network: Network) -> list[str]:
     for name, least, reached in direct:
         most = sum(demand[c] for c in reached)
         if least > most:
-            reasons.append(f"Carrier {name} must carry at least {_num(least)} {units}, but its lanes only reach "
-                           f"customers needing {_num(most)} {units} in all (lower its min_volume, or name it on "
+            reasons.append(f"Carrier {name} must carry at least {plain_number(least)} {units}, but its lanes only reach "
+                           f"customers needing {plain_number(most)} {units} in all (lower its min_volume, or name it on "
                            f"lanes to more customers).")
     if len(direct) > 1:
         together = sum(least for _, least, _ in direct)
@@ -91,8 +88,8 @@ def presolve_checks(network: Network) -> list[str]:
         most = sum(demand[c] for c in reached)
         if together > most:
             names = ", ".join(name for name, _, _ in direct)
-            reasons.append(f"Carriers {names} must carry at least {_num(together)} {units} together, but their "
-                           f"lanes reach customers needing {_num(most)} {units} in all (lower their min_volume).")
+            reasons.append(f"Carriers {names} must carry at least {plain_number(together)} {units} together, but their "
+                           f"lanes reach customers needing {plain_number(most)} {units} in all (lower their min_volume).")
 
     share = dict(zip(carriers["id"], carriers["max_share"].astype(float)))
     hard = float(customers["demand"].to_numpy(dtype=float)[np.isnan(customer_penalties(network))].sum())

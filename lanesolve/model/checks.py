@@ -37,7 +37,7 @@ from lanesolve.model.result import COST_COMPONENTS, Result, SolveStatus
 from lanesolve.model.solve import node_balance
 
 
-def _num(value: float) -> str:
+def plain_number(value: float) -> str:
     """A quantity as a planner writes it: 1200, 12.5 (no trailing zeros)."""
     return f"{value:,.6g}" if abs(value) >= 1e6 else f"{value:.6g}"
 
@@ -66,8 +66,8 @@ def presolve_checks(network: Network) -> list[str]:
     hard_demand = float(customers.loc[hard, "demand"].sum())
     if total_supply < hard_demand:
         reasons.append(
-            f"Total depot supply is {_num(total_supply)} {units} but customers without an unmet penalty need "
-            f"{_num(hard_demand)} {units}: {_num(hard_demand - total_supply)} {units} short (raise supply on the "
+            f"Total depot supply is {plain_number(total_supply)} {units} but customers without an unmet penalty need "
+            f"{plain_number(hard_demand)} {units}: {plain_number(hard_demand - total_supply)} {units} short (raise supply on the "
             "Depots sheet, or give customers an unmet_penalty to allow a shortfall).")
 
     inbound_capacity = lanes.groupby("destination")["capacity"].sum().to_dict()
@@ -76,15 +76,15 @@ def presolve_checks(network: Network) -> list[str]:
                                  customers.loc[hard, "row"]):
         where = f"Customers row {row}: customer '{node}'"
         if node not in inbound_capacity:
-            reasons.append(f"{where} needs {_num(demand)} {units} but no active lane ends there (add a lane with "
+            reasons.append(f"{where} needs {plain_number(demand)} {units} but no active lane ends there (add a lane with "
                            f"destination '{node}', set active to yes on one, or give it an unmet_penalty).")
             continue  # nothing else can be said of a customer no lane reaches
         if inbound_capacity[node] < demand:
-            reasons.append(f"{where} needs {_num(demand)} {units} but its active inbound lanes can carry only "
-                           f"{_num(inbound_capacity[node])} {units} in total (raise their capacity, add a lane, or "
+            reasons.append(f"{where} needs {plain_number(demand)} {units} but its active inbound lanes can carry only "
+                           f"{plain_number(inbound_capacity[node])} {units} in total (raise their capacity, add a lane, or "
                            "give it an unmet_penalty).")
         if node not in reachable:
-            reasons.append(f"{where} needs {_num(demand)} {units} but no depot with supply can reach it along "
+            reasons.append(f"{where} needs {plain_number(demand)} {units} but no depot with supply can reach it along "
                            "active lanes with capacity (check the lanes leading to it and the hubs on the way).")
     from lanesolve.model.diagnose import structural_causes  # late import: diagnose builds on the solver
 
