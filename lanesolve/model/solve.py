@@ -17,9 +17,10 @@ breakdown from the model's per-component costs).
 
 Time limit
 ----------
-The limit (or a ``deadline``) is kept: a MIP engine gets all but a reserve (:func:`engine_deadline`), and when it stops
-without a plan, :mod:`lanesolve.model.construct` builds one (status ``feasible``, its gap against the best bound
-known); a pure flow an LP engine could not finish goes to the network algorithm.
+The engine gets the whole limit (or the time to a ``deadline``; CBC less the seconds it may take to stop,
+:func:`engine_deadline`). Only when a MIP engine stops without a plan does :mod:`lanesolve.model.construct` build one,
+in at most :func:`construction_seconds` past the limit (status ``feasible``, its gap against the best bound known); a
+pure flow an LP engine could not finish goes to the network algorithm.
 
 Each maps its own words to one :class:`~lanesolve.model.result.SolveStatus` (tables in those modules): a MIP stopped
 by the time limit with a plan in hand is ``feasible`` with its gap, never ``optimal``; an LP stopped early is
@@ -141,22 +142,28 @@ def pick_engine(model: SparseModel) -> str:
     return "highs" if model.is_mip else "cbc"
 
 
-#: Share of a MIP's time kept back from the engine, so that a plan can still be built when it stops without one
-#: (our choice, with the limit + 10 % + 5 s promise of README.md *Engines and time limits* in mind), at least
-#: :data:`CONSTRUCTION_FLOOR` and at most :data:`CONSTRUCTION_CAP` seconds.
+#: Seconds a construction may take past the limit when the engine stopped without a plan: this share of the limit,
+#: at least :data:`CONSTRUCTION_FLOOR` and at most :data:`CONSTRUCTION_CAP` (our choice, inside the limit + 10 % + 5 s
+#: of README.md *Engines and time limits*, whose 5 s cover process start, reading and writing).
 CONSTRUCTION_SHARE, CONSTRUCTION_CAP = 0.1, 15.0
 #: Seconds a construction may always take, even when the engine ran late.
 CONSTRUCTION_FLOOR = 2.0
 
 
-def engine_deadline(end: float, limit: float, is_mip: bool, engine: str) -> float:
-    """When the engine must stop: ``end`` less the construction's reserve (a MIP) and less the seconds CBC may
-    take to stop after its interrupt (:func:`lanesolve.model.cbc.interrupt_grace`)."""
-    reserve = min(max(CONSTRUCTION_SHARE * limit, CONSTRUCTION_FLOOR), CONSTRUCTION_CAP) if is_mip else 0.0
+def construction_seconds(limit: float) -> float:
+    """Seconds past the limit a construction may use (:data:`CONSTRUCTION_SHARE` of ``limit``, within the floor and
+    the cap)."""
+    return min(max(CONSTRUCTION_SHARE * limit, CONSTRUCTION_FLOOR), CONSTRUCTION_CAP)
+
+
+def engine_deadline(end: float, limit: float, engine: str) -> float:
+    """When the engine must stop: ``end`` itself (the engine gets the whole limit; a construction, if one is needed,
+    runs after it), less for CBC the seconds it may take to stop after its interrupt
+    (:func:`lanesolve.model.cbc.interrupt_grace`)."""
     if engine == "cbc":
         from lanesolve.model.cbc import interrupt_grace
-        reserve += interrupt_grace(limit)
-    return end - reserve
+        return end - interrupt_grace(limit)
+    return end
 
 
 #: A MIP with at least this many columns gets, under ``auto``, a quick construction first (:data:`FIRST_SHARE` of
@@ -309,8 +316,8 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     msg : bool
         Echo the solver's log to stderr.
     deadline : float, optional
-        A :func:`time.monotonic` time by which a plan must be in hand (the run's limit counted from the end of
-        reading); the earlier of it and ``time_limit`` counts.
+        A :func:`time.monotonic` time at which the engine must stop (the run's limit counted from the end of
+        reading); the earlier of it and ``time_limit`` counts. A construction may run past it (module docstring).
     sensitivity : bool
         Accepted and ignored: sensitivity figures are not part of a solve (:mod:`lanesolve.model.sensitivity`
         computes them from the plan), so ``Result.sensitivity`` stays empty here.
@@ -374,7 +381,8 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         solver_seconds = flow_seconds
     else:
         engine = pick_engine(model) if solver == "auto" else solver
-        engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
+        allowed = None if end is None else limit_or(limit, end)
+        engine_end = None if end is None else engine_deadline(end, allowed, engine)
         first = None
         if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
             from lanesolve.model.construct import construct
@@ -389,7 +397,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         elif first is not None and first.bound is not None:
             answer.bound = first.bound if answer.bound is None else max(answer.bound, first.bound)
         if answer.status is SolveStatus.NOT_SOLVED and end is not None:
-            built = _build_plan(network, model, answer, end)
+            built = _build_plan(network, model, answer, end + construction_seconds(allowed))
             if built is not None:
                 answer, constructed = built, True
         # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
@@ -448,8 +456,8 @@ def limit_or(limit: float | None, end: float) -> float:
 
 def _build_plan(network: Network, model: SparseModel, stopped: Answer, end: float) -> Answer | None:
     """A plan after the engine stopped without one: the network algorithm for a pure flow (exact, so optimal),
-    else the quick construction of :mod:`lanesolve.model.construct` in the time left (at least
-    :data:`CONSTRUCTION_FLOOR` seconds)."""
+    else the quick construction of :mod:`lanesolve.model.construct` until ``end`` (the limit plus
+    :func:`construction_seconds`; at least :data:`CONSTRUCTION_FLOOR` seconds)."""
     if not model.is_mip:
         flow = network_flow.solve_flow(network) if network_flow.applies(network) else None
         if flow is None or not flow.feasible:
