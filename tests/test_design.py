@@ -210,3 +210,48 @@ def test_v1_network_builds_no_design_rows_and_keeps_v1_breakdown():
     result = solve(net)
     assert set(result.cost_breakdown) == {"transport", "handling", "fixed_lane", "unmet_penalty"}
     assert result.to_json()["open_nodes"] == [] and result.to_json()["trips"] == []
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_every_customer_single_sourced_agrees_with_scipy_milp(seed):
+    # Every customer single-sourced: the lanes into them carry nothing or the whole demand, so their link rows are
+    # equalities (formulation docstring, single_source_); the optimum must not move.
+    rng = random.Random(500 + seed)
+    depots, customers, lanes, hubs = random_design(500 + seed)
+    for lane in lanes:
+        if rng.random() < 0.2:
+            lane["min_volume"] = rng.randint(3, 8)
+    for customer in customers:
+        customer["single_source"] = True
+    net = make_network(depots, customers, lanes, hubs)
+    reference = scipy_design_milp(net)  # source: SciPy milp (HiGHS) on the independent formulation above
+    result = solve(net, solver="highs")
+    if reference.status != 0:
+        assert result.status.value == "infeasible"
+        return
+    assert result.status.value == "optimal"
+    assert result.total_cost == pytest.approx(reference.fun, abs=1e-5)
+    assert (result.flows.groupby("destination").size().reindex([c["id"] for c in customers]).fillna(0) <= 1).all()
+
+
+def test_only_whole_delivery_lanes_get_equality_links():
+    # C1 is single-sourced with hard demand: its lanes carry 0 or all 6 units. C2 may go short (a penalty), C3
+    # forwards goods to C4, and the lane D2 -> C1 can carry only 4 of C1's 6: those keep x <= M y.
+    from lanesolve.model.formulation import build_sparse_model
+
+    net = make_network([{"id": "D1", "supply": 30, "fixed_cost": 5}, {"id": "D2", "supply": 30}],
+                       [{"id": "C1", "demand": 6, "single_source": True},
+                        {"id": "C2", "demand": 5, "single_source": True, "unmet_penalty": 100},
+                        {"id": "C3", "demand": 4, "single_source": True}, {"id": "C4", "demand": 3}],
+                       [{"origin": "D1", "destination": "C1", "cost_per_unit": 1},
+                        {"origin": "D2", "destination": "C1", "cost_per_unit": 1, "capacity": 4},
+                        {"origin": "D1", "destination": "C2", "cost_per_unit": 1},
+                        {"origin": "D2", "destination": "C3", "cost_per_unit": 1},
+                        {"origin": "C3", "destination": "C4", "cost_per_unit": 1}])
+    model = build_sparse_model(net)
+    block = model.row_blocks["link_"]
+    equal = dict(zip(block.ids.tolist(), (model.row_lower[block.start:block.stop] == 0).tolist()))
+    assert equal == {0: True, 1: False, 2: False, 3: False}
+    # Hand computation: C1 from D1 (6 + fixed 5), C2 from D1 (5), C3 and C4 through C3 from D2 (7 + 3) = 26.
+    result = solve(net, solver="highs")
+    assert result.status.value == "optimal" and result.total_cost == pytest.approx(26.0, abs=TOL)

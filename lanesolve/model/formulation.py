@@ -90,6 +90,13 @@ the solvers never see them; they are added to the plan's cost and to the solver'
 - closed node: every lane at it gets capacity 0 (and counts 0 in every bound below);
 - ``min_volume_<n>``: :math:`x_l \\ge m_l y_l`;
 - ``single_source_<n>``: :math:`\\sum_{l \\in \\delta^-(c)} y_l \\le 1` (with hard demand the balance row makes it 1);
+  a lane into a single-sourced customer :math:`c` with hard demand and no lane out, whose :math:`M_l = q_c`, has
+  ``link_<n>`` as an equality, :math:`x_l = q_c y_l`: every plan satisfies it (the balance row makes the inflow
+  :math:`q_c`, and it arrives on the one lane used), and it lets the solver's presolve substitute the flow away, which
+  leaves the textbook single-source model, :math:`y` the customer's assignment (e.g. Holmberg, Rönnqvist & Yuan,
+  "An exact algorithm for the capacitated facility location problems with single sourcing", European Journal of
+  Operational Research 113, 1999, as cited in benchmarks/data/holmberg_optima.json).
+  HiGHS proves the published single-source sets much sooner so (benchmarks/README.md, *Engines and time limits*);
 - ``trip_<n>``: :math:`x_l \\le r_l t_l`, :math:`t_l \\le \\lceil M_l / r_l \\rceil`. A lane with a trip capacity
   but no cost per trip needs no variable: its trips are reported as :math:`\\lceil x_l / r_l \\rceil`;
 - ``open_out_depot_<n>``: :math:`\\sum_{\\delta^+(d)} x - \\sum_{\\delta^-(d)} x \\le s_d w_d`, and
@@ -337,8 +344,9 @@ def needs_use(network: Network) -> np.ndarray:
 
 
 def add_fixed_charge_links(model: Assembly, network: Network, ends: _Ends, need: np.ndarray,
-                           bounds: np.ndarray) -> np.ndarray:
-    """``use_<n>`` columns and ``link_<n>``: flow on a lane only when the lane is used, ``x_l <= M_l * y_l``.
+                           bounds: np.ndarray, exact: np.ndarray | None = None) -> np.ndarray:
+    """``use_<n>`` columns and ``link_<n>``: flow on a lane only when the lane is used, ``x_l <= M_l * y_l``;
+    ``x_l = M_l * y_l`` where ``exact`` (per active lane, :func:`whole_delivery_lanes`) says so.
 
     Returns the ``use_`` column of each active lane (-1 where it has none).
     """
@@ -346,10 +354,25 @@ def add_fixed_charge_links(model: Assembly, network: Network, ends: _Ends, need:
     index = lanes.index[need]
     fixed = lanes["fixed_cost"].to_numpy(dtype=float)[need]
     use = model.add_columns("use_", index, 0.0, 1.0, integer=True, costs={"fixed_lane": fixed})
-    rows = model.add_rows("link_", index, -np.inf, 0.0)
+    lower = -np.inf if exact is None else np.where(exact[need], 0.0, -np.inf)
+    rows = model.add_rows("link_", index, lower, 0.0)
     model.add_entries(rows, ends.flow[need], 1.0)
     model.add_entries(rows, use, -bounds[need])
     return _row_table(len(lanes), need, use)
+
+
+def whole_delivery_lanes(network: Network, ends: _Ends, bounds: np.ndarray) -> np.ndarray:
+    """Per active lane: does it carry either nothing or its destination's whole demand in every plan? True for
+    a lane into a single-sourced customer with hard demand and no active lane out, whose :math:`M_l` is that
+    demand (module docstring, ``single_source_``); such a lane's ``link_`` row can be an equality."""
+    customers = network.customers
+    position = ends.destination["customer"]
+    whole = (customers["single_source"].to_numpy(dtype=bool) & np.isnan(customer_penalties(network))
+             & ~_touches(ends, "customer", len(customers))[0])
+    chosen = position >= 0
+    chosen[chosen] = whole[position[chosen]]
+    chosen[chosen] = bounds[chosen] == customers["demand"].to_numpy(dtype=float)[position[chosen]]
+    return chosen
 
 
 def add_min_volume(model: Assembly, network: Network, ends: _Ends, use: np.ndarray) -> None:
@@ -506,7 +529,8 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
     add_depot_supply(model, network, ends)
     add_customer_balance(model, network, ends, unmet, soft)
     add_hub_flow(model, network, ends)
-    use = add_fixed_charge_links(model, network, ends, need, bounds)
+    use = add_fixed_charge_links(model, network, ends, need, bounds,
+                                 whole_delivery_lanes(network, ends, bounds) if design else None)
     constant = {}
     if design:
         add_min_volume(model, network, ends, use)
