@@ -26,3 +26,36 @@ def test_importing_the_package_loads_no_heavy_module():
 def test_the_data_classes_still_load_on_first_use():
     # Guards the two tests above against a probe that sees nothing: asking for Network does load pandas.
     assert "pandas" in loaded_after("import lanesolve\nlanesolve.Network")
+
+
+def modules_after(code: str, names: tuple[str, ...]) -> set[str]:
+    """Which of the modules ``names`` (full dotted names) a fresh interpreter has loaded after running ``code``."""
+    probe = f"import sys\n{code}\nprint(' '.join(sorted(n for n in {names!r} if n in sys.modules)))"
+    out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True).stdout
+    return set(out.split())
+
+
+#: Loaded only when a run needs them: SciPy's optimizers for the diagnosis of a network without a plan, Jinja2
+#: for the HTML summary, each engine when it is the one chosen, openpyxl for the template, and xml.sax (urllib,
+#: http, ssl behind it) never.
+ON_DEMAND = ("scipy.optimize", "jinja2", "highspy", "ortools", "pulp", "openpyxl", "xml.sax.saxutils")
+EXAMPLE = "pathlib.Path(lanesolve.__file__).parent.parent / 'example_workbooks' / 'orvale_larder_supply.xlsx'"
+
+
+def test_the_pipeline_loads_nothing_on_demand_before_it_runs():
+    assert modules_after("import lanesolve.pipeline", ON_DEMAND) == set()
+
+
+def test_a_run_without_the_summary_loads_only_the_engine_it_uses():
+    # The example has fixed charges, so auto gives it (and each scenario) to HiGHS (README, Engines and time limits).
+    code = f"import pathlib, lanesolve\nfrom lanesolve import pipeline\npipeline.run({EXAMPLE}, write=False)"
+    assert modules_after(code, ON_DEMAND) == {"highspy"}
+
+
+def test_a_run_without_a_plan_still_loads_the_diagnosis_stack():
+    # Guards the probe above: a network with too little supply is diagnosed, and that does need SciPy's optimizers.
+    code = ("from lanesolve.model.network import make_network\nfrom lanesolve.model.analyse import solve_and_analyse\n"
+            "net = make_network([{'id': 'D', 'supply': 3}], [{'id': 'C', 'demand': 4}],\n"
+            "                   [{'origin': 'D', 'destination': 'C', 'cost_per_unit': 1}])\n"
+            "assert solve_and_analyse(net).diagnosis is not None")
+    assert "scipy.optimize" in modules_after(code, ON_DEMAND)

@@ -28,7 +28,6 @@ import math
 
 import numpy as np
 import pandas as pd
-from scipy.optimize import linprog
 from scipy.sparse import coo_matrix
 
 from lanesolve.model.formulation import closed_nodes, customer_penalties
@@ -133,6 +132,8 @@ def least_raises(network: Network) -> pd.DataFrame | None:
             objective[column] = 1.0
     a_ub = coo_matrix((vals, (rows, cols)), shape=(len(b_ub), n_cols)).tocsr() if b_ub else None
     a_eq = coo_matrix((eq_vals, (eq_rows, eq_cols)), shape=(len(b_eq), n_cols)).tocsr() if b_eq else None
+    from scipy.optimize import linprog  # late import: scipy.optimize (a tenth of a second) only when no plan exists
+
     answer = linprog(objective, A_ub=a_ub, b_ub=b_ub or None, A_eq=a_eq, b_eq=b_eq or None, bounds=bounds,
                      method="highs")
     if answer.status != 0:

@@ -19,7 +19,6 @@ from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable
 
-import jinja2
 import pandas as pd
 
 from lanesolve.write import atomic
@@ -33,6 +32,7 @@ from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable
 from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, money_words, top_few
 
 if TYPE_CHECKING:  # imported for type hints only: pipeline imports this module
+    import jinja2
     from lanesolve.model.network import Network
     from lanesolve.runinfo import RunInfo
 
@@ -481,9 +481,12 @@ def template_folder() -> Path:
 
 
 @functools.lru_cache(maxsize=None)
-def _environment() -> jinja2.Environment:
+def _environment() -> "jinja2.Environment":
     """The one Jinja2 environment of this process: it keeps each template it compiles, so later renders reuse it
-    (``auto_reload`` off: the installed templates do not change while lanesolve runs)."""
+    (``auto_reload`` off: the installed templates do not change while lanesolve runs). Jinja2 is imported here, so
+    a run that writes no HTML (``lanesolve check``, the library without a summary) does not load it."""
+    import jinja2
+
     return jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(template_folder())),
         autoescape=True,  # on for every template, whatever its extension: workbook names are untrusted text
