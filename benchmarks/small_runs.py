@@ -9,15 +9,23 @@ Two workbooks, each solved ``--repeat`` times as a fresh ``python -m lanesolve s
 Printed: median wall and CPU seconds (user + system of the child process), the engine named, and the median of
 each stage's timing from the JSON.
 
+Bytecode: an installed lanesolve has its modules compiled (pip writes the ``.pyc`` files), but a source checkout run
+where ``PYTHONDONTWRITEBYTECODE`` is set (as on the shared build machine) compiles its ~70 modules from source in
+every process, about 0.2 CPU-s. By default the child processes get a bytecode cache of their own
+(``PYTHONPYCACHEPREFIX`` in a temporary folder, ``PYTHONDONTWRITEBYTECODE`` unset) and one uncounted warm-up run per
+workbook fills it, so the figures are those of an installed lanesolve; ``--no-bytecode-cache`` runs the processes
+in the environment as it is.
+
 Usage::
 
-    python benchmarks/small_runs.py [--repeat 5] [--solver auto]
+    python benchmarks/small_runs.py [--repeat 5] [--solver auto] [--no-bytecode-cache]
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import random
 import resource
 import statistics
@@ -55,11 +63,11 @@ def thousand_lane_workbook(path: Path, seed: int = 11) -> Path:
     return path
 
 
-def timed_run(book: Path, output: Path, solver: str) -> tuple[float, float, dict]:
+def timed_run(book: Path, output: Path, solver: str, env: dict | None = None) -> tuple[float, float, dict]:
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     tick = time.perf_counter()
     done = subprocess.run([sys.executable, "-m", "lanesolve", "solve", str(book), "--output", str(output), "--force",
-                           "--json", "--solver", solver], capture_output=True, text=True)
+                           "--json", "--solver", solver], capture_output=True, text=True, env=env)
     wall = time.perf_counter() - tick
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
@@ -70,14 +78,22 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--repeat", type=int, default=5)
     parser.add_argument("--solver", default="auto")
+    parser.add_argument("--no-bytecode-cache", action="store_true",
+                        help="run the processes in the environment as it is (module docstring)")
     args = parser.parse_args(argv)
     print("| workbook | wall s (median) | CPU s (median) | engine | stages, median s |")
     print("|---|---|---|---|---|")
     with tempfile.TemporaryDirectory() as folder:
         books = {"example (orvale_larder_supply)": ROOT / "example_workbooks" / "orvale_larder_supply.xlsx",
                  "1,000-lane pure flow": thousand_lane_workbook(Path(folder) / "thousand.xlsx")}
+        env = None
+        if not args.no_bytecode_cache:
+            env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+            env["PYTHONPYCACHEPREFIX"] = str(Path(folder) / "bytecode")
         for name, book in books.items():
-            runs = [timed_run(book, Path(folder) / "solved.xlsx", args.solver) for _ in range(args.repeat)]
+            if env is not None:
+                timed_run(book, Path(folder) / "solved.xlsx", args.solver, env)  # warm-up: fills the cache
+            runs = [timed_run(book, Path(folder) / "solved.xlsx", args.solver, env) for _ in range(args.repeat)]
             stages = {key: statistics.median(doc["timings"][key] for _, _, doc in runs)
                       for key in runs[0][2]["timings"]}
             print(f"| {name} | {statistics.median(w for w, _, _ in runs):.2f} | "
