@@ -117,7 +117,8 @@ class ColumnParser:
         values[masks["str"]] = nfc(masks["stripped"][masks["str"]])
         if masks["number"].any():
             values[masks["number"]] = number_text(raw[masks["number"]])
-        too_long = (masks["str"] & (values.str.len() > contract.MAX_ID_LENGTH)).to_numpy()
+        lengths = np.fromiter(map(len, values.to_numpy(dtype=object)), dtype=np.int64, count=len(values))
+        too_long = masks["str"].to_numpy() & (lengths > contract.MAX_ID_LENGTH)
         self.report(too_long, raw, lambda v: f"the id is {len(v.strip()):,} characters long; a spreadsheet cell "
                     f"holds at most {contract.MAX_ID_LENGTH:,}", "use a short id", value=lambda pos: None)
         invalid |= too_long
@@ -153,7 +154,9 @@ class ColumnParser:
             ambiguous[text_cells] = unsure
         self.report(ambiguous, raw, lambda v: contract.ambiguous_number_text(v), contract.PLAIN_NUMBER_HINT)
         not_number = text_cells & ~plain & ~ambiguous
-        comma = not_number & masks["stripped"].str.contains(",", regex=False).to_numpy()
+        comma = np.zeros(len(raw), dtype=bool)
+        if not_number.any():  # usually none: only the cells that are not numbers are searched
+            comma[not_number] = masks["stripped"][not_number].str.contains(",", regex=False).to_numpy()
         self.report(comma, raw, lambda v: f"{show(v)} is not a number", contract.PLAIN_NUMBER_HINT)
         self.report(not_number & ~comma, raw, lambda v: f"{show(v)} is not a number",
                     f"enter a number{unit}, without units or other text")
