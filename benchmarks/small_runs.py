@@ -16,9 +16,14 @@ every process, about 0.2 CPU-s. By default the child processes get a bytecode ca
 workbook fills it, so the figures are those of an installed lanesolve; ``--no-bytecode-cache`` runs the processes
 in the environment as it is.
 
+Before and after: ``--sources A,B`` runs the lanesolve of each source folder (a checkout or a ``git archive`` of a
+commit, put first on the processes' ``PYTHONPATH``) in turn, one run of each per round, so that a change of load on
+the machine falls on both alike; it prints a row per workbook and source and the ratio of each source's median CPU
+to the first's.
+
 Usage::
 
-    python benchmarks/small_runs.py [--repeat 5] [--solver auto] [--no-bytecode-cache]
+    python benchmarks/small_runs.py [--repeat 5] [--solver auto] [--no-bytecode-cache] [--sources A,B]
 """
 
 from __future__ import annotations
@@ -80,27 +85,40 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--solver", default="auto")
     parser.add_argument("--no-bytecode-cache", action="store_true",
                         help="run the processes in the environment as it is (module docstring)")
+    parser.add_argument("--sources", default="", help="source folders to compare, comma separated (module docstring)")
     args = parser.parse_args(argv)
-    print("| workbook | wall s (median) | CPU s (median) | engine | stages, median s |")
-    print("|---|---|---|---|---|")
+    sources = [s for s in args.sources.split(",") if s] or [None]
+    print("| workbook | lanesolve from | wall s (median) | CPU s (median) | CPU / first | engine | stages, median s |")
+    print("|---|---|---|---|---|---|---|")
     with tempfile.TemporaryDirectory() as folder:
         books = {"example (orvale_larder_supply)": ROOT / "example_workbooks" / "orvale_larder_supply.xlsx",
                  "1,000-lane pure flow": thousand_lane_workbook(Path(folder) / "thousand.xlsx")}
-        env = None
-        if not args.no_bytecode_cache:
-            env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
-            env["PYTHONPYCACHEPREFIX"] = str(Path(folder) / "bytecode")
+        base = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE" or args.no_bytecode_cache}
+        envs = []
+        for number, source in enumerate(sources):
+            env = dict(base)
+            if source is not None:
+                env["PYTHONPATH"] = os.pathsep.join(filter(None, [source, env.get("PYTHONPATH")]))
+            if not args.no_bytecode_cache:  # one cache per source: the same module paths would mix otherwise
+                env["PYTHONPYCACHEPREFIX"] = str(Path(folder) / f"bytecode-{number}")
+            envs.append(env)
         for name, book in books.items():
-            if env is not None:
-                timed_run(book, Path(folder) / "solved.xlsx", args.solver, env)  # warm-up: fills the cache
-            runs = [timed_run(book, Path(folder) / "solved.xlsx", args.solver, env) for _ in range(args.repeat)]
-            stages = {key: statistics.median(doc["timings"][key] for _, _, doc in runs)
-                      for key in runs[0][2]["timings"]}
-            print(f"| {name} | {statistics.median(w for w, _, _ in runs):.2f} | "
-                  f"{statistics.median(c for _, c, _ in runs):.2f} | {runs[-1][2]['solver']} | "
-                  + ", ".join(f"{k} {v:.3f}" for k, v in stages.items()) + " |")
+            if not args.no_bytecode_cache:
+                for env in envs:
+                    timed_run(book, Path(folder) / "solved.xlsx", args.solver, env)  # warm-up: fills the cache
+            runs: list[list] = [[] for _ in envs]
+            for _ in range(args.repeat):
+                for number, env in enumerate(envs):
+                    runs[number].append(timed_run(book, Path(folder) / "solved.xlsx", args.solver, env))
+            first = statistics.median(c for _, c, _ in runs[0])
+            for source, done in zip(sources, runs):
+                stages = {key: statistics.median(doc["timings"][key] for _, _, doc in done)
+                          for key in done[0][2]["timings"]}
+                cpu = statistics.median(c for _, c, _ in done)
+                print(f"| {name} | {source or 'installed'} | {statistics.median(w for w, _, _ in done):.2f} | "
+                      f"{cpu:.2f} | {cpu / first:.2f} | {done[-1][2]['solver']} | "
+                      + ", ".join(f"{k} {v:.3f}" for k, v in stages.items()) + " |")
     return 0
-
 
 if __name__ == "__main__":
     sys.exit(main())
