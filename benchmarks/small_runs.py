@@ -77,7 +77,9 @@ def timed_run(book: Path | None, output: Path, solver: str, env: dict | None = N
         [sys.executable, "-c", "import json, lanesolve.pipeline; print(json.dumps({'timings': {}, 'solver': '-'}))"]
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     tick = time.perf_counter()
-    done = subprocess.run(command, capture_output=True, text=True, env=env)
+    # In a folder of its own: ``python -m`` and ``-c`` put the working folder first on sys.path, and from a
+    # checkout that would import the checkout's lanesolve whatever PYTHONPATH says.
+    done = subprocess.run(command, capture_output=True, text=True, env=env, cwd=output.parent)
     wall = time.perf_counter() - tick
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
