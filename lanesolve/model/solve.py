@@ -12,6 +12,11 @@ read the same :class:`~lanesolve.model.arrays.SparseModel` built by
   stopped itself (:mod:`lanesolve.model.cbc`);
 - ``"highs"``: HiGHS in memory through ``highspy`` (:mod:`lanesolve.model.highs`).
 
+A large model of capacitated facility location with split deliveries (depots to open or close and nothing else
+to decide, :func:`lanesolve.model.lagrangian.recognise`; at least :data:`LARGE_MIP` columns) with a time limit goes
+under ``auto`` to :mod:`lanesolve.model.lagrangian` instead (Lagrangian relaxation, min-cost flows and a local
+search over the open depots); when that finds no plan, the engines above take the time left.
+
 Every answer, the network algorithm's too, becomes a Result through the same code (:func:`plan_values`, the cost
 breakdown from the model's per-component costs).
 
@@ -39,7 +44,7 @@ import pandas as pd
 
 from lanesolve.errors import SolverError
 from lanesolve.model import network_flow
-from lanesolve.model import carrier_results
+from lanesolve.model import carrier_results, lagrangian
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
 from lanesolve.model.formulation import build_sparse_model
@@ -369,9 +374,21 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     constructed = False
+    facility = None
+    if flow is None and solver == "auto" and end is not None and model.n_columns >= LARGE_MIP:
+        # Large facility location with split deliveries: the MIP engines do not finish its first LP in minutes
+        # (benchmarks/README.md, *Engines and time limits*), the Lagrangian method plans it in seconds. It stops
+        # by itself when its search ends, at the latest when a MIP engine would have to; without a plan the
+        # engines below take what time is left.
+        facility = lagrangian.recognise(model)
+        answer = None if facility is None else lagrangian.solve_facility(
+            model, facility, engine_deadline(end, limit_or(limit, end), True, "highs") - time.monotonic(), gap)
+        facility = None if answer is None else facility
     if flow is not None:
         answer = _flow_answer(model, network, flow)
         solver_seconds = flow_seconds
+    elif facility is not None:
+        solver_seconds = time.perf_counter() - tick
     else:
         engine = pick_engine(model) if solver == "auto" else solver
         engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
@@ -428,7 +445,12 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     if constructed:
         result.messages.append("The solver found no plan in its time limit; this plan was built by a quick "
                                "construction (LP rounding) and is not proven optimal.")
-    if status is SolveStatus.FEASIBLE:
+    if status is SolveStatus.FEASIBLE and facility is not None:
+        gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
+        result.messages.append(f"This plan comes from a Lagrangian relaxation and a local search over the depots to "
+                               f"open, which do not prove a plan optimal; the best possible plan may cost up to "
+                               f"{gap_text} less than this one (the relaxation's lower bound).")
+    elif status is SolveStatus.FEASIBLE:
         gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
         result.messages.append(f"The solver stopped on its time limit ({limit:g} s) before proving the plan "
                                f"optimal; the best possible plan may cost up to {gap_text} less than this one "
