@@ -378,11 +378,10 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     if flow is None and solver == "auto" and end is not None and model.n_columns >= LARGE_MIP:
         # Large facility location with split deliveries: the MIP engines do not finish its first LP in minutes
         # (benchmarks/README.md, *Engines and time limits*), the Lagrangian method plans it in seconds. It stops
-        # by itself when its search ends, at the latest when a MIP engine would have to; without a plan the
-        # engines below take what time is left.
+        # by itself when its search ends, at the latest at the limit (no construction follows it); without a plan
+        # the engines below take what time is left.
         facility = lagrangian.recognise(model)
-        answer = None if facility is None else lagrangian.solve_facility(
-            model, facility, engine_deadline(end, limit_or(limit, end), True, "highs") - time.monotonic(), gap)
+        answer = None if facility is None else lagrangian.solve_facility(model, facility, end - time.monotonic(), gap)
         facility = None if answer is None else facility
     if flow is not None:
         answer = _flow_answer(model, network, flow)
