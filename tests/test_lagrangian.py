@@ -254,6 +254,21 @@ def test_no_plan_from_the_relaxation_leaves_the_model_to_the_engine(monkeypatch)
     assert not result.solver.startswith("Lagrangian")
 
 
+def test_a_model_without_a_plan_the_checks_before_solving_miss_goes_to_the_engine(monkeypatch):
+    # C0 and C1 are reachable only from D0, whose supply covers one of them: no plan, though every customer has a
+    # lane and the total supply is ample (worked by hand).
+    net = make_network([{"id": "D0", "supply": 10, "fixed_cost": 5, "status": "decide"},
+                        {"id": "D1", "supply": 100, "fixed_cost": 5, "status": "decide"}],
+                       [{"id": "C0", "demand": 8}, {"id": "C1", "demand": 8}, {"id": "C2", "demand": 8}],
+                       [{"origin": "D0", "destination": "C0", "cost_per_unit": 1},
+                        {"origin": "D0", "destination": "C1", "cost_per_unit": 1},
+                        {"origin": "D1", "destination": "C2", "cost_per_unit": 1}])
+    assert lagrangian.recognise(build_sparse_model(net)) is not None
+    result = lagrangian_solve(monkeypatch, net)
+    assert result.status is SolveStatus.INFEASIBLE
+    assert not result.solver.startswith("Lagrangian")
+
+
 def test_auto_keeps_highs_for_small_models_and_an_explicit_engine_is_obeyed(monkeypatch):
     net = to_network(random_cflp(14))
     assert solve(net, time_limit=60).solver.startswith("HiGHS")  # below LARGE_MIP columns

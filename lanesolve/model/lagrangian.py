@@ -400,6 +400,10 @@ def solve_facility(model: SparseModel, problem: FacilityProblem, seconds: float,
     end = start + max(seconds, 0.0)
     tolerance = 1e-4 if gap is None else max(gap, 1e-9)
     search = DepotSearch(problem)
+    # Every depot open is the most any plan can use: without a plan then, no open set has one, and the engines get
+    # the time (a relaxation of a model without a plan would raise its bound without end).
+    if math.isinf(search.price(problem.reach > 0)):
+        return None
     # Half the time at most for the bound (it settles in seconds on 100 x 1,000 sets), the rest for the search.
     bound, _, depot_value, exact, steps = subgradient(problem, start + (end - start) / 2, search.price, tolerance)
     if search.best is None:
