@@ -63,6 +63,9 @@ ROW_FAMILIES = frozenset({"supply_", "balance_", "open_out_depot_", "open_link_d
 #: factor below which the bound is taken as converged (common practice for this method, values our choice after
 #: trials on capa/capb/capc: the bound then settles in 1,000-2,000 steps).
 PATIENCE, FIRST_FACTOR, LAST_FACTOR = 30, 2.0, 1e-5
+#: A step counts as progress when it raises the best bound by more than this share of it (common practice: a
+#: bound creeping up by float-sized amounts would otherwise keep the step factor from ever falling).
+PROGRESS = 1e-6
 #: Most states the covering knapsack's dominance table may hold before its LP bound is used instead.
 MAX_STATES = 200_000
 
@@ -337,8 +340,8 @@ def subgradient(problem: FacilityProblem, end: float, plan_cost, tolerance: floa
     """Raise the Lagrangian bound by subgradient steps until :data:`LAST_FACTOR`, the plan meets the bound within
     ``tolerance`` (relative), or ``end`` (a :func:`time.monotonic` time).
 
-    ``plan_cost(opened)`` prices each step's open set as a plan (the best plan's cost so far, ``inf`` before any);
-    it is the :math:`U` of the step rule.
+    ``plan_cost(opened)`` prices each step's open set as a plan (``inf`` when it has none); the cheapest so far is
+    the :math:`U` of the step rule.
 
     Returns
     -------
@@ -349,20 +352,22 @@ def subgradient(problem: FacilityProblem, end: float, plan_cost, tolerance: floa
     """
     multiplier = first_multipliers(problem)
     best, best_multiplier, best_value = -math.inf, multiplier, problem.fixed.copy()
-    factor, stale, steps, exact = FIRST_FACTOR, 0, 0, True
+    factor, stale, steps, exact, upper = FIRST_FACTOR, 0, 0, True, math.inf
     while factor >= LAST_FACTOR and (steps == 0 or time.monotonic() < end):  # one step at least
         relaxed = relax(problem, multiplier)
         if relaxed is None:
             break
         steps += 1
         exact &= relaxed.exact
-        upper = plan_cost(relaxed.opened)
-        if relaxed.bound > best + 1e-12 * abs(relaxed.bound):
-            best, best_multiplier, best_value, stale = relaxed.bound, multiplier, relaxed.depot_value, 0
+        upper = min(upper, plan_cost(relaxed.opened))
+        if relaxed.bound > best + PROGRESS * abs(relaxed.bound):
+            stale = 0
         else:
             stale += 1
             if stale >= PATIENCE:
                 factor, stale = factor / 2, 0
+        if relaxed.bound > best:
+            best, best_multiplier, best_value = relaxed.bound, multiplier, relaxed.depot_value
         if math.isfinite(upper) and upper - best <= tolerance * abs(upper):
             break
         norm = float((relaxed.shortfall ** 2).sum())
