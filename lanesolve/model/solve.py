@@ -381,9 +381,10 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     else:
         engine = pick_engine(model) if solver == "auto" else solver
         engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
-        # Under auto, a network whose only decisions are lane charges keeps a share of its time for the lane search.
+        # Under auto, a network whose only decisions are lane charges keeps a share of its time for the lane search
+        # (below LARGE_MIP, where it was measured; a larger one searches in the construction's reserve if unused).
         searching = solver == "auto" and end is not None and model.is_mip and lane_search.applies(network)
-        if searching:
+        if searching and model.n_columns < LARGE_MIP:
             engine_end = min(engine_end, end - SEARCH_SHARE * limit_or(limit, end))
         first = None
         if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
