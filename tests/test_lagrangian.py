@@ -98,12 +98,14 @@ def milp_optimum(inst: dict) -> float | None:
     size = nx + nz + m
     matrix = coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
                         shape=(n + m + nx, size)).tocsr()
-    objective = np.concatenate([cost.ravel(), np.full(nz, inst["penalty"] or 0.0), np.where(forced, 0.0, inst["fixed"])])
+    objective = np.concatenate([cost.ravel(), np.full(nz, inst["penalty"] or 0.0),
+                                np.where(forced, 0.0, inst["fixed"])])
     lower = np.zeros(size)
     lower[y[forced]] = 1.0
     upper = np.concatenate([upper_x, demand if soft else [], np.ones(m)])
-    res = milp(objective, constraints=LinearConstraint(matrix, lo, hi), integrality=np.r_[np.zeros(nx + nz), np.ones(m)],
-               bounds=Bounds(lower, upper), options={"mip_rel_gap": 0.0})
+    res = milp(objective, constraints=LinearConstraint(matrix, lo, hi),
+               integrality=np.r_[np.zeros(nx + nz), np.ones(m)], bounds=Bounds(lower, upper),
+               options={"mip_rel_gap": 0.0})
     if res.status != 0:
         return None
     return float(res.fun + inst["fixed"][forced].sum())

@@ -36,8 +36,8 @@ Its optimum :math:`L(\\lambda) = \\sum_j \\lambda_j q_j + \\dots` is a lower bou
 :math:`\\lambda`); the subgradient step (Held, Wolfe & Crowder 1974; the step rule of Beasley's papers)
 :math:`\\lambda \\leftarrow \\max(0, \\lambda + \\pi (U - L) g / \\lVert g \\rVert^2)`, with :math:`g_j` the units
 customer :math:`j` is under-served in the relaxed solution, :math:`U` the best plan's cost and :math:`\\pi` halved
-after :data:`PATIENCE` steps without a better bound, raises it. Each step's set of open depots is a candidate plan:
-its flows are a transportation problem, solved exactly as a min-cost flow
+after :data:`PATIENCE` steps without the bound rising by :data:`PROGRESS`, raises it. Each step's set of open
+depots is a candidate plan: its flows are a transportation problem, solved exactly as a min-cost flow
 (:mod:`lanesolve.model.depot_search`), which also runs the local search on the open set afterwards.
 
 The result is ``feasible`` with its gap against the best Lagrangian bound, ``optimal`` only when the plan's cost
@@ -59,9 +59,9 @@ from lanesolve.model.result import SolveStatus
 #: Column and row families a facility-location model may have (prefixes of :mod:`lanesolve.model.formulation`).
 COLUMN_FAMILIES = frozenset({"flow_", "unmet_", "open_depot_"})
 ROW_FAMILIES = frozenset({"supply_", "balance_", "open_out_depot_", "open_link_depot_"})
-#: Subgradient steps without a better bound before the step factor is halved, the factor it starts at and the
-#: factor below which the bound is taken as converged (common practice for this method, values our choice after
-#: trials on capa/capb/capc: the bound then settles in 1,000-2,000 steps).
+#: Subgradient steps without progress (:data:`PROGRESS`) before the step factor is halved, the factor it starts at
+#: and the factor below which the bound is taken as converged (common practice for this method, values our choice
+#: after trials on capa/capb/capc: the bound then settles in 650-1,000 steps).
 PATIENCE, FIRST_FACTOR, LAST_FACTOR = 30, 2.0, 1e-5
 #: A step counts as progress when it raises the best bound by more than this share of it (common practice: a
 #: bound creeping up by float-sized amounts would otherwise keep the step factor from ever falling).
