@@ -77,8 +77,12 @@ def _figures(result: Result, figures) -> list[tuple[str, str, float]]:
     frame = result.sensitivity
     if frame is None or frame.empty or "figure" not in frame:
         return []
+    return _figure_rows(frame[frame["figure"].isin(list(figures))])
+
+
+def _figure_rows(frame: pd.DataFrame) -> list[tuple[str, str, float]]:
     found = []
-    for row in frame[frame["figure"].isin(list(figures))].itertuples(index=False):
+    for row in frame.itertuples(index=False):
         value = _figure_value(row)
         if value is not None:
             found.append((str(row.figure), str(row.item), value))
@@ -139,6 +143,9 @@ def _short(network: Network, result: Result, units: str, currency: str) -> list[
 def _near_misses(result: Result, units: str, currency: str) -> list[str]:
     one = singular(units or "units")
     lanes = [f for f in _figures(result, ("reduced_cost",)) if f[2] > MONEY_EPSILON]
+    more = result.figures_beyond()
+    if more is not None:  # unused lanes without a row yet: those that could be among the nearest above round-off
+        lanes += [f for f in _figure_rows(more.nearest_above(MONEY_EPSILON, TOP)) if f[2] > MONEY_EPSILON]
     lanes.sort(key=lambda f: (f[2], f[1]))
     return [f"Nearest to paying: lane {_lane(item)} would be used if it cost {_money(value, currency)} per {one} "
             "less." for _figure, item, value in lanes[:TOP]]
