@@ -62,6 +62,40 @@ def snapped(values: np.ndarray) -> np.ndarray:
     return np.where(np.abs(values) < SAME, 0.0, values) + 0.0
 
 
+def amount_words(values: np.ndarray, currency: str = "") -> np.ndarray:
+    """:func:`_amounts` of many values at once: Arrow's number formatting where pyarrow is installed (as the unused
+    lanes' sentences use it), the same words either way."""
+    values = np.asarray(values, dtype=float) + 0.0
+    try:
+        import pyarrow  # noqa: F401
+    except ImportError:
+        return _amounts(values, currency)
+    finite = np.isfinite(values)
+    out = np.empty(len(values), dtype=object)
+    words = _arrow_amounts(np.abs(values[finite])).to_numpy(zero_copy_only=False).astype(object)
+    out[finite] = np.where(values[finite] < 0, "-" + words, words)
+    out[~finite] = _amounts(values[~finite])
+    return out + f" {currency}" if currency else out
+
+
+def _joined(*parts) -> np.ndarray:
+    """Texts joined element-wise: each part a string (the same in every row) or an object array of strings (other
+    values are written with ``str``, as an f-string would)."""
+    size = max((len(p) for p in parts if not isinstance(p, str)), default=0)
+    if not size:
+        return np.zeros(0, dtype=object)
+    try:
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        columns = [p if isinstance(p, str) else pa.array(p, type=pa.string()) for p in parts]
+        return pc.binary_join_element_wise(*columns, "").to_numpy(zero_copy_only=False).astype(object)
+    except (ImportError, TypeError, ValueError):  # no pyarrow, or values that are not text (Arrow's errors
+        pass                                     # derive from TypeError and ValueError)
+    columns = [[p] * size if isinstance(p, str) else [str(v) for v in p] for p in parts]
+    return np.array(["".join(row) for row in zip(*columns)], dtype=object)
+
+
 def two_sided_rows(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndarray, basis: str, what: str,
                    units: str, currency: str) -> dict[str, np.ndarray]:
     """Rows of a two-sided figure, with the sentence: one number when both sides agree, else both."""
@@ -70,18 +104,17 @@ def two_sided_rows(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndar
         same = np.isfinite(up) & np.isfinite(down) & (np.abs(up - down) <= SAME * np.maximum(1.0, np.abs(up)))
     demand = figure == "marginal_cost"
     more, less = ("costs", "saves") if demand else ("saves", "costs")
-    texts = []
-    up_words = _amounts(up, currency).tolist()
-    # Where both sides agree the sentence quotes one amount: the other is formatted only where it differs.
-    down_words = np.full(len(down), "", dtype=object)
+    items = np.asarray(items, dtype=object)
+    texts = np.empty(len(items), dtype=object)
+    # Most rows have one figure, so one sentence pattern: joined a column at a time.
+    agree = np.flatnonzero(same)
+    texts[agree] = _joined(f"One more or one less unit ({units}) {what} ", items[agree], " changes the cost by ",
+                           amount_words(up[agree], currency), ".")
     differ = np.flatnonzero(~same)
-    down_words[differ] = _amounts(down[differ], currency)
-    for item, u, d, s, u_text, d_text in zip(items.tolist(), up.tolist(), down.tolist(), same.tolist(), up_words,
-                                             down_words.tolist()):
+    up_words, down_words = amount_words(up[differ], currency).tolist(), amount_words(down[differ], currency).tolist()
+    for k, item, u, d, u_text, d_text in zip(differ.tolist(), items[differ].tolist(), up[differ].tolist(),
+                                             down[differ].tolist(), up_words, down_words):
         subject = f"unit ({units}) {what} {item}"
-        if s:
-            texts.append(f"One more or one less {subject} changes the cost by {u_text}.")
-            continue
         if math.isinf(u):
             first = (f"One more {subject} cannot be met: no plan delivers it" if demand
                      else f"One more {subject} saves nothing")
@@ -93,7 +126,7 @@ def two_sided_rows(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndar
             second = "with one less there is no plan (the hard demand needs it)"
         else:
             second = f"one less {less} {d_text}"
-        texts.append(f"{first}; {second}.")
+        texts[k] = f"{first}; {second}."
     return _columns(figure, items, np.where(same, up, math.nan), up, down, same, basis, texts)
 
 
@@ -273,7 +306,20 @@ def _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, fre
                                  else a.cast(pa.string()) for a in (origins, destinations, modes))
     item = join(origin, destination, " -> ")
     item = pc.if_else(pc.equal(mode, ""), item, join(item, " (", mode, ")", ""))
-    size = np.where(np.isfinite(reduced), reduced, 0.0)
+    amount = _arrow_amounts(np.where(np.isfinite(reduced), reduced, 0.0))
+    text = join("Lane ", item, middle, amount, end, "")
+    text = pc.if_else(pa.array(reduced == 0), join("Lane ", item, free, ""), text)
+    text = pc.if_else(pa.array(np.isinf(reduced)), join("Lane ", item, never, ""), text)
+    return item.to_numpy(zero_copy_only=False), text.to_numpy(zero_copy_only=False)
+
+
+def _arrow_amounts(size: np.ndarray):
+    """Finite non-negative amounts as :func:`money_words` writes them (four significant digits, at least two
+    decimals), as an Arrow string array: Arrow writes the shortest text of each rounded value; thousands and tiny
+    values go through :func:`_amounts`. Raises ImportError without pyarrow."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
     with np.errstate(divide="ignore", invalid="ignore"):
         magnitude = np.floor(np.log10(size))
     decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2)
@@ -286,7 +332,4 @@ def _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, fre
         fixed = amount.to_numpy(zero_copy_only=False).astype(object)
         fixed[odd] = _amounts(size[odd])
         amount = pa.array(fixed, type=pa.string())
-    text = join("Lane ", item, middle, amount, end, "")
-    text = pc.if_else(pa.array(reduced == 0), join("Lane ", item, free, ""), text)
-    text = pc.if_else(pa.array(np.isinf(reduced)), join("Lane ", item, never, ""), text)
-    return item.to_numpy(zero_copy_only=False), text.to_numpy(zero_copy_only=False)
+    return amount
