@@ -124,3 +124,31 @@ def test_setting_value_with_ambiguous_separators_is_an_error(tmp_path, text):
     (problem,) = errors_of(tmp_path, sheets)
     assert (problem.sheet, problem.row, problem.column) == ("Settings", 4, "value")
     assert problem.message.startswith(f"'{text}' is ambiguous") and "plain number" in problem.hint
+
+
+def test_type_masks_classify_every_kind_of_cell_as_a_cell_by_cell_reading_does():
+    # Independent check: each cell classified on its own, in plain Python, by the rules the module states (exact
+    # types: text, number, yes/no, date; None and empty text are blank, a float NaN is a number).
+    import datetime as dt
+
+    import numpy as np
+    import pandas as pd
+
+    from lanesolve.read.cells import type_masks
+
+    cells = [None, "", "  ", " a ", "x", 1, 1.5, np.float64(2), np.int64(3), np.int32(4), np.float32(1.0), True,
+             np.bool_(False), float("nan"), dt.date(2020, 1, 1), dt.datetime(2020, 1, 1), dt.time(1),
+             dt.timedelta(1), pd.Timestamp("2020-01-01"), pd.NaT, "nan", object()]
+    values = pd.Series(cells, index=range(100, 100 + len(cells)), dtype=object)
+    masks = type_masks(values)
+    numbers = (float, int, np.float64, np.float32, np.int64, np.int32)
+    dates = (dt.date, dt.datetime, dt.time, dt.timedelta, pd.Timestamp)
+    for position, cell in enumerate(cells):
+        kind = type(cell)
+        text = cell.strip() if kind is str else ""
+        expected = {"str": kind is str, "number": kind in numbers, "bool": kind in (bool, np.bool_),
+                    "date": kind in dates, "blank": cell is None or cell is pd.NaT or (kind is str and text == ""),
+                    "stripped": text}
+        got = {name: masks[name].iloc[position] for name in expected}
+        assert got == expected, (cell, got, expected)
+    assert all((masks[name].index == values.index).all() for name in masks)

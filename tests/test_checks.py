@@ -143,3 +143,33 @@ def test_no_plan_result_reports_infeasible_with_reasons_and_zero_flows():
     assert list(nodes.index) == ["D", "C", "H"]
     assert (nodes[["shipped", "received"]] == 0).all().all()
     assert nodes.loc["C", "demand"] == 5 and nodes.loc["D", "supply"] == 1 and nodes.loc["H", "capacity"] == 4
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_reachable_nodes_match_networkx_descendants(seed):
+    # Independent check: networkx.descendants from a super-source over the same arcs (lanes with capacity above 0,
+    # none leaving a hub of zero capacity or a closed node), the rule the check states.
+    import random
+
+    from lanesolve.model.checks import _reachable_from_supply
+
+    rng = random.Random(seed)
+    depots = [{"id": f"D{i}", "supply": rng.choice([0, 10]), "status": rng.choice(["open", "open", "closed"])}
+              for i in range(3)]
+    hubs = [{"id": f"H{i}", "capacity": rng.choice([0, 5, None])} for i in range(3)]
+    customers = [{"id": f"C{i}", "demand": 1} for i in range(5)]
+    names = [d["id"] for d in depots] + [h["id"] for h in hubs] + [c["id"] for c in customers]
+    lanes = [lane(a, b, capacity=rng.choice([0, 3, None])) for a in names for b in names
+             if a != b and not b.startswith("D") and rng.random() < 0.25]
+    net = make_network(depots, customers, lanes, hubs=hubs)
+    blocked = {h["id"] for h in hubs if h["capacity"] == 0} | {d["id"] for d in depots if d["status"] == "closed"}
+    graph = nx.DiGraph()
+    graph.add_node("source")
+    for d in depots:
+        if d["supply"] > 0 and d["status"] != "closed":
+            graph.add_edge("source", d["id"])
+    for row in net.active_lanes.itertuples():
+        if not row.capacity > 0 or row.origin in blocked:
+            continue
+        graph.add_edge(row.origin, row.destination)
+    assert _reachable_from_supply(net) == nx.descendants(graph, "source")

@@ -88,6 +88,20 @@ def test_near_miss_lanes_are_the_smallest_reduced_costs():
                                                      "Nearest to paying: lane A→B"]
 
 
+def test_near_miss_lanes_with_ties_match_a_full_sort_of_every_lane():
+    # Independent check: sort every unused lane by (value, name) in plain Python, as a planner would, and take
+    # the first three; the summary must name the same three however many lanes tie at the cut.
+    import random
+
+    rng = random.Random(11)
+    rows = [("reduced_cost", f"L{k:04d} -> C (road)", float(rng.choice([0.0, 0.25, 0.5, 0.5, 0.5, 1.0, 2.0])), True)
+            for k in range(400)]
+    rng.shuffle(rows)
+    steps = advice._near_misses(plan(figures(rows)), "pallets", "EUR")
+    expected = sorted((value, item) for _, item, value, _ in rows if value > advice.MONEY_EPSILON)[:advice.TOP]
+    assert [s.split("lane ")[1].split(" would")[0] for s in steps] == [advice._lane(i) for _, i in expected]
+
+
 def test_cheapest_scenario_is_named_with_its_saving():
     comparison = pd.DataFrame({"scenario": ["baseline", "diesel up", "new hub", "closed bridge"],
                                "total_cost": [1000.0, 1100.0, 900.0, math.nan],

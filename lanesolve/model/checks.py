@@ -27,11 +27,11 @@ Examples
 from __future__ import annotations
 
 import math
-from collections import deque
 
 import numpy as np
+import pandas as pd
 
-from lanesolve.model.formulation import customer_penalties
+from lanesolve.model.formulation import closed_nodes, customer_penalties
 from lanesolve.model.network import Network
 from lanesolve.model.result import COST_COMPONENTS, Result, SolveStatus
 from lanesolve.model.solve import node_balance
@@ -99,27 +99,26 @@ def _reachable_from_supply(network: Network) -> set[str]:
 
     A hub of zero capacity passes nothing on, so the search does not continue through it.
     """
-    lanes = network.active_lanes
-    lanes = lanes[lanes["capacity"] > 0]
-    successors: dict[str, list[str]] = {}
-    for origin, destination in zip(lanes["origin"].tolist(), lanes["destination"].tolist()):
-        successors.setdefault(origin, []).append(destination)
-    from lanesolve.model.formulation import closed_nodes
+    from scipy.sparse import csr_matrix
+    from scipy.sparse.csgraph import breadth_first_order
 
     closed = closed_nodes(network)
     blocked = set(network.hubs.loc[network.hubs["capacity"] <= 0, "id"]) | closed
     start = [d for d in network.depots.loc[network.depots["supply"] > 0, "id"].tolist() if d not in closed]
-    seen = set(start)
-    queue = deque(start)
-    while queue:
-        node = queue.popleft()
-        if node in blocked:
-            continue
-        for nxt in successors.get(node, ()):
-            if nxt not in seen:
-                seen.add(nxt)
-                queue.append(nxt)
-    return seen
+    if not start:
+        return set()
+    lanes = network.active_lanes
+    # A blocked node is reached but passes nothing on: its outgoing lanes are left out of the search.
+    lanes = lanes[(lanes["capacity"] > 0).to_numpy() & ~lanes["origin"].isin(blocked).to_numpy()]
+    origin, destination = lanes["origin"].to_numpy(dtype=object), lanes["destination"].to_numpy(dtype=object)
+    codes, ids = pd.factorize(np.concatenate([np.array(start, dtype=object), origin, destination]))
+    n, m, k = len(ids), len(origin), len(start)
+    # Node n is a virtual source joined to every depot with supply; the search runs in C (scipy.sparse.csgraph).
+    tails = np.concatenate([np.full(k, n), codes[k:k + m]])
+    heads = np.concatenate([codes[:k], codes[k + m:]])
+    graph = csr_matrix((np.ones(len(tails)), (tails, heads)), shape=(n + 1, n + 1))
+    reached = breadth_first_order(graph, n, directed=True, return_predecessors=False)
+    return set(ids[reached[reached < n]].tolist())
 
 
 def no_plan_result(network: Network, reasons: list[str]) -> Result:

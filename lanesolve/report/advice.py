@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING
 
+import numpy as np
 import pandas as pd
 
 from lanesolve.model.result import Result, singular
@@ -63,30 +64,38 @@ def _lane(item: str) -> str:
     return item.replace(" -> ", "→", 1) if item.count(" -> ") == 1 else item
 
 
-def _figure_value(row) -> float | None:
-    """What one more unit is worth: ``value_up`` when the frame has it, else ``value`` when it is unique."""
-    up = _finite(getattr(row, "value_up", None))
-    if up is not None:
-        return up
-    if bool(getattr(row, "unique", True)):
-        return _finite(getattr(row, "value", None))
-    return None
+def _figure_values(rows: pd.DataFrame) -> np.ndarray:
+    """What one more unit is worth, per row: ``value_up`` where finite, else ``value`` where the figure is unique
+    and finite, else NaN (a frame without ``value_up`` counts as one-sided: ``value`` where unique)."""
+    def column(name: str) -> np.ndarray:
+        return pd.to_numeric(rows[name], errors="coerce").to_numpy(dtype=float) if name in rows \
+            else np.full(len(rows), np.nan)
+    up, value = column("value_up"), column("value")
+    unique = rows["unique"].to_numpy(dtype=bool) if "unique" in rows else np.ones(len(rows), dtype=bool)
+    return np.where(np.isfinite(up), up, np.where(unique & np.isfinite(value), value, np.nan))
 
 
-def _figures(result: Result, figures) -> list[tuple[str, str, float]]:
+def _figures(result: Result, figures, smallest: int | None = None) -> list[tuple[str, str, float]]:
+    """(figure, item, what one more unit is worth) of the rows of ``figures`` that have such a value; with
+    ``smallest``, only the rows whose value is among the ``smallest`` values above :data:`MONEY_EPSILON` (a 100k-lane
+    plan has about 100k unused lanes, and the summary names a few)."""
     frame = result.sensitivity
     if frame is None or frame.empty or "figure" not in frame:
         return []
-    return _figure_rows(frame[frame["figure"].isin(list(figures))])
+    return _figure_rows(frame[frame["figure"].isin(list(figures))], smallest)
 
 
-def _figure_rows(frame: pd.DataFrame) -> list[tuple[str, str, float]]:
-    found = []
-    for row in frame.itertuples(index=False):
-        value = _figure_value(row)
-        if value is not None:
-            found.append((str(row.figure), str(row.item), value))
-    return found
+def _figure_rows(rows: pd.DataFrame, smallest: int | None = None) -> list[tuple[str, str, float]]:
+    """:func:`_figures` of the rows given."""
+    values = _figure_values(rows)
+    keep = np.isfinite(values)
+    if smallest is not None:
+        keep &= values > MONEY_EPSILON
+        if keep.sum() > smallest:  # every row tied with the smallest-th value stays, so ties sort by name after
+            keep &= values <= np.partition(values[keep], smallest - 1)[smallest - 1]
+    chosen = np.flatnonzero(keep)
+    return list(zip(rows["figure"].iloc[chosen].astype(str).tolist(), rows["item"].iloc[chosen].astype(str).tolist(),
+                    values[chosen].tolist()))
 
 
 def _capacities(result: Result, units: str, currency: str) -> list[str]:
@@ -142,10 +151,10 @@ def _short(network: Network, result: Result, units: str, currency: str) -> list[
 
 def _near_misses(result: Result, units: str, currency: str) -> list[str]:
     one = singular(units or "units")
-    lanes = [f for f in _figures(result, ("reduced_cost",)) if f[2] > MONEY_EPSILON]
+    lanes = [f for f in _figures(result, ("reduced_cost",), smallest=TOP) if f[2] > MONEY_EPSILON]
     more = result.figures_beyond()
     if more is not None:  # unused lanes without a row yet: those that could be among the nearest above round-off
-        lanes += [f for f in _figure_rows(more.nearest_above(MONEY_EPSILON, TOP)) if f[2] > MONEY_EPSILON]
+        lanes += [f for f in _figure_rows(more.nearest_above(MONEY_EPSILON, TOP), smallest=TOP) if f[2] > MONEY_EPSILON]
     lanes.sort(key=lambda f: (f[2], f[1]))
     return [f"Nearest to paying: lane {_lane(item)} would be used if it cost {_money(value, currency)} per {one} "
             "less." for _figure, item, value in lanes[:TOP]]

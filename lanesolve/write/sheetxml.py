@@ -216,7 +216,11 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | No
                     kind, style = own, (f' s="{styles[own]}"' if own in styles else "")
             # Fast paths for the common plain types; everything else goes through _cell_text.
             value_type = type(value)
-            if value_type is float and value == value and -inf < value < inf:
+            if value is None:  # a blank cell (as _cell_text would say)
+                continue
+            if value_type is float:
+                if not (-inf < value < inf):  # NaN and infinities are blank cells (as _cell_text would say)
+                    continue
                 cells.append(f'<c r="{letters[j]}{i}"{style}><v>{_number_text(value)}</v></c>')
                 length = _shown_length(value, kind)
             elif value_type is str and value:
