@@ -38,7 +38,7 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.errors import SolverError
-from lanesolve.model import network_flow
+from lanesolve.model import lane_search, network_flow
 from lanesolve.model import carrier_results
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
@@ -166,6 +166,12 @@ def engine_deadline(end: float, limit: float, is_mip: bool, engine: str) -> floa
 #: seconds (cap131 … cap134: 2,500 columns).
 LARGE_MIP = 20_000
 FIRST_SHARE = 0.5
+
+#: Share of the time limit that ``auto`` keeps, on a network whose only decisions are lane charges, for the lane
+#: search of :mod:`lanesolve.model.lane_search` after the engine stopped on its limit with a plan (our choice, by
+#: benchmarks/mip_family.py: the engine finds few better plans late in its run, the search many; 0.4 kept a
+#: cheaper 15 x 50 plan than 0.25 at 60 s).
+SEARCH_SHARE = 0.4
 
 
 def _flow_answer(model: SparseModel, network: Network, flow) -> Answer:
@@ -378,6 +384,11 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     else:
         engine = pick_engine(model) if solver == "auto" else solver
         engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
+        # Under auto, a network whose only decisions are lane charges keeps a share of its time for the lane search
+        # (below LARGE_MIP, where it was measured; a larger one searches in the construction's reserve if unused).
+        searching = solver == "auto" and end is not None and model.is_mip and lane_search.applies(network)
+        if searching and model.n_columns < LARGE_MIP:
+            engine_end = min(engine_end, end - SEARCH_SHARE * limit_or(limit, end))
         first = None
         if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
             from lanesolve.model.construct import construct
@@ -395,6 +406,11 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
             built = _build_plan(network, model, answer, end)
             if built is not None:
                 answer, constructed = built, True
+        if searching and answer.status is SolveStatus.FEASIBLE:
+            better = lane_search.improve(network, model, plan_values(network, model, answer.value), end)
+            if better is not None:
+                answer.value, answer.gap = better, None
+                answer.solver = f"{answer.solver}; plan improved by lane search"
         # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
         solver_seconds = time.perf_counter() - tick
 
