@@ -245,6 +245,9 @@ def _fill_plan(network: Network, lane_index: np.ndarray, flow: np.ndarray, unmet
     frame["utilisation"] = np.where(np.isfinite(capacity) & (capacity > 0), frame["flow"] / np.where(
         capacity > 0, capacity, 1.0), math.nan)
     result.flows = frame[FLOW_COLUMNS].reset_index(drop=True) if len(frame) else empty_frame(FLOW_COLUMNS)
+    if network.lanes.index.is_unique:  # the same flows per lane, for the figures (no matching of lanes by name)
+        result.lane_flow = np.zeros(len(network.lanes))
+        result.lane_flow[network.lanes.index.get_indexer(lane_index)] = np.where(used, flow, 0.0)
 
     outflow = pd.Series(flow, index=lanes["origin"].to_numpy()).groupby(level=0).sum().to_dict() if len(flow) else {}
     inflow = (pd.Series(flow, index=lanes["destination"].to_numpy()).groupby(level=0).sum().to_dict()
