@@ -1,7 +1,7 @@
 """Solve, then explain: the figures of an optimal plan, or why no plan exists. What the pipeline calls.
 
 :func:`lanesolve.model.solve.solve` only solves. :func:`solve_and_analyse` adds, for a plan proven optimal, the exact
-two-sided sensitivity figures of the written plan (:func:`lanesolve.model.sensitivity.analyse_plan`, no solver duals)
+two-sided sensitivity figures of the written plan (:func:`lanesolve.model.sensitivity.plan_figures`, no solver duals)
 and, for an infeasible network, the diagnosis (:func:`lanesolve.model.diagnose.diagnose`).
 """
 
@@ -13,8 +13,8 @@ from lanesolve.model.checks import no_plan_result
 from lanesolve.model.diagnose import diagnose
 from lanesolve.model.network import Network
 from lanesolve.model.product_plan import figures_left_out, no_figures
-from lanesolve.model.result import Result, SolveStatus
-from lanesolve.model.sensitivity import analyse_plan
+from lanesolve.model.result import JSON_UNUSED_LANES, Result, SolveStatus
+from lanesolve.model.sensitivity import plan_figures
 from lanesolve.model.solve import solve
 
 
@@ -34,7 +34,8 @@ def solve_and_analyse(network: Network, time_limit: float | None = None, solver:
     Returns
     -------
     Result
-        With an optimal plan, ``sensitivity`` holds the figures of :mod:`lanesolve.model.sensitivity`. A plan not
+        With an optimal plan, ``sensitivity`` holds the figures of :mod:`lanesolve.model.sensitivity`, with rows
+        for the 500 unused lanes nearest to paying and the others in ``more_figures``. A plan not
         proven optimal keeps an empty frame (the sheet then says why there are no figures). An infeasible result
         carries the :class:`~lanesolve.model.diagnose.Diagnosis` and its sentences in ``messages``.
 
@@ -56,7 +57,8 @@ def solve_and_analyse(network: Network, time_limit: float | None = None, solver:
         result.sensitivity = no_figures(figures_left_out(network))
     elif result.status is SolveStatus.OPTIMAL:
         tick = time.perf_counter()
-        result.sensitivity = analyse_plan(network, result)
+        # Rows for the unused lanes the sheet, --json and the summary show; the rest stay numbers until asked for.
+        result.sensitivity, result.more_figures = plan_figures(network, result, unused_rows=JSON_UNUSED_LANES)
         result.timings["sensitivity"] = time.perf_counter() - tick
     elif result.status is SolveStatus.INFEASIBLE:
         tick = time.perf_counter()

@@ -151,10 +151,12 @@ class Network:
     def has_design(self) -> bool:
         """True when any design decision is present: a node to open or close, a fixed node charge, a minimum
         lane volume, whole trips, single sourcing or a limit on open nodes (the model then adds their rows)."""
-        lanes = self.active_lanes
-        nodes = pd.concat([self.depots[["fixed_cost", "status"]], self.hubs[["fixed_cost", "status"]]])
-        return bool((nodes["status"] != "open").any() or (nodes["fixed_cost"] > 0).any()
-                    or (lanes["min_volume"] > 0).any() or lanes["trip_capacity"].notna().any()
+        # Columns of the active lanes as arrays: filtering a 100k-lane frame would cost more than the test itself.
+        lanes, active = self.lanes, self.lanes["active"].to_numpy(dtype=bool)
+        nodes = (self.depots, self.hubs)
+        return bool(any((frame["status"] != "open").any() or (frame["fixed_cost"] > 0).any() for frame in nodes)
+                    or (lanes["min_volume"].to_numpy(dtype=float)[active] > 0).any()
+                    or (~np.isnan(lanes["trip_capacity"].to_numpy(dtype=float)[active])).any()
                     or self.customers["single_source"].any()
                     or self.settings.max_open_depots is not None or self.settings.max_open_hubs is not None)
 

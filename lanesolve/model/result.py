@@ -5,7 +5,6 @@ Nothing here refers to the solver; a :class:`Result` can be built by hand in a t
 
 from __future__ import annotations
 
-import dataclasses
 import enum
 import math
 from dataclasses import dataclass, field
@@ -192,7 +191,16 @@ class Result:
     trips : DataFrame
         :data:`TRIP_COLUMNS`; lanes run in whole trips.
     sensitivity : DataFrame
-        :data:`SENSITIVITY_COLUMNS` (see :mod:`lanesolve.model.sensitivity`); empty when not computed.
+        :data:`SENSITIVITY_COLUMNS` (see :mod:`lanesolve.model.sensitivity`); empty when not computed. Of a large
+        plan's unused lanes only the nearest to paying have a row here; :attr:`more_figures` holds the rest.
+    more_figures : UnusedLanes or None
+        The unused lanes' figures that follow those in ``sensitivity`` (nearest to paying first), kept as numbers
+        and made into rows only when asked (:meth:`all_figures`, :meth:`figure_count`); see
+        :class:`lanesolve.model.figure_text.UnusedLanes`. They belong to the frame they were made with: a
+        ``sensitivity`` frame set later stands alone. None when ``sensitivity`` holds every figure.
+    lane_flow : numpy.ndarray or None
+        The plan's flow on every lane of ``network.lanes``, in lane order (0 where unused or inactive): the same
+        plan as ``flows``, as the figures read it. None in a result not made by a solve.
     diagnosis : Diagnosis or None
         Why no plan exists, when that was analysed (see :mod:`lanesolve.model.diagnose`).
     carriers : DataFrame
@@ -214,6 +222,8 @@ class Result:
     open_nodes: pd.DataFrame = field(default_factory=lambda: empty_frame(OPEN_NODE_COLUMNS))
     trips: pd.DataFrame = field(default_factory=lambda: empty_frame(TRIP_COLUMNS))
     sensitivity: pd.DataFrame = field(default_factory=lambda: empty_frame(SENSITIVITY_COLUMNS))
+    more_figures: object = None
+    lane_flow: np.ndarray | None = field(default=None, repr=False)
     diagnosis: object = None
     carriers: pd.DataFrame = field(default_factory=lambda: empty_frame(CARRIER_RESULT_COLUMNS))
     #: Several products (:mod:`lanesolve.model.product_plan`): units per lane and product, per node and product.
@@ -258,23 +268,42 @@ class Result:
         return [CostLine(key, COST_LABELS.get(key, key.replace("_", " ").capitalize()), amount,
                          amount / total if total > 0 else 0.0) for key, amount in amounts.items()]
 
+    def figures_beyond(self):
+        """:attr:`more_figures` when it continues :attr:`sensitivity` (else None): the unused lanes beyond its rows."""
+        more = self.more_figures
+        return more if more is not None and more.continues(self.sensitivity) else None
+
+    def all_figures(self) -> pd.DataFrame:
+        """Every sensitivity figure: :attr:`sensitivity` and, after it, the rows of :attr:`more_figures`."""
+        more = self.figures_beyond()
+        if more is None:
+            return self.sensitivity
+        return pd.concat([self.sensitivity, more.rows()], ignore_index=True)
+
+    def figure_count(self, figure: str) -> int:
+        """How many figures of kind ``figure`` the plan has, those without a row yet included."""
+        frame = self.sensitivity
+        count = int((frame["figure"] == figure).sum()) if len(frame) else 0
+        more = self.figures_beyond()
+        return count + (len(more) if more is not None and figure == "reduced_cost" else 0)
+
     def to_json(self, all_figures: bool = False) -> dict:
         """The ``--json`` document (without run metadata, which the pipeline adds).
 
         Parameters
         ----------
         all_figures : bool, default False
-            List every sensitivity figure. By default the unused lanes' figures (``reduced_cost``) are capped as
-            *LS Sensitivity* caps them (:func:`capped_figures`); ``sensitivity_omitted`` counts those left out.
+            List every sensitivity figure (:meth:`all_figures`). By default the unused lanes' figures
+            (``reduced_cost``) are capped as *LS Sensitivity* caps them (:func:`capped_figures`);
+            ``sensitivity_omitted`` counts those left out.
         """
-        if not all_figures:
-            figures, omitted = capped_figures(self.sensitivity)
-            if omitted:  # a shallow copy: the other frames are shared, not copied
-                return {**dataclasses.replace(self, sensitivity=figures).to_json(all_figures=True),
-                        "sensitivity_omitted": omitted}
-        return {**self._json_document(), "sensitivity_omitted": 0}
+        if all_figures:
+            return {**self._json_document(self.all_figures()), "sensitivity_omitted": 0}
+        figures, omitted = capped_figures(self.sensitivity)
+        more = self.figures_beyond()
+        return {**self._json_document(figures), "sensitivity_omitted": omitted + (0 if more is None else len(more))}
 
-    def _json_document(self) -> dict:
+    def _json_document(self, figures: pd.DataFrame) -> dict:
 
         def num(x):
             if x is None:
@@ -307,7 +336,7 @@ class Result:
                              "value_up": num(getattr(r, "value_up", r.value)),
                              "value_down": num(getattr(r, "value_down", r.value)),
                              "unique": bool(r.unique), "basis": r.basis, "text": r.text}
-                            for r in self.sensitivity.itertuples(index=False)],
+                            for r in figures.itertuples(index=False)],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
             "carriers": [{"carrier": r.carrier, "lanes": int(r.lanes), "volume": num(r.volume), "share": num(r.share),
                           "cost": num(r.cost), "commitment": r.commitment or None, "bound": num(r.bound),

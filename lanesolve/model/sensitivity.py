@@ -57,16 +57,16 @@ import pandas as pd
 from scipy.sparse import csr_matrix
 from scipy.sparse.csgraph import dijkstra
 
+from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow, _reduced_words_rows,  # noqa: F401
+                                         arrow_column, figure_frame, money_words, two_sided_rows)
 from lanesolve.model.formulation import closed_nodes, customer_penalties
 from lanesolve.model.network import Network
-from lanesolve.model.result import SENSITIVITY_COLUMNS, empty_frame
+from lanesolve.model.result import SENSITIVITY_COLUMNS
 
 #: Flows within this of a bound count as at the bound (relative to max(1, |bound|)).
 TOLERANCE = 1e-7
 #: How many rows of each figure the HTML summary should show (the sheet and JSON carry all).
 TOP_FEW = 5
-#: Two sides closer than this (relative to max(1, |value|)) are one figure.
-SAME = 1e-9
 
 LP_BASIS = "LP"
 FIXED_BASIS = "LP with the plan's yes/no and trip decisions fixed"
@@ -77,41 +77,6 @@ class PlanNotOptimal(Exception):
 
     Internal: :func:`analyse_plan` turns it into the one row saying why there are no figures.
     """
-
-
-def money_words(value: float, currency: str = "") -> str:
-    """Money for a sentence: four significant digits, at least two decimals, thousands separators.
-
-    >>> money_words(2.0571), money_words(0.153), money_words(43.339, "EUR"), money_words(5), money_words(0.009)
-    ('2.057', '0.153', '43.34 EUR', '5.00', '0.009')
-    >>> money_words(123456.789)
-    '123,456.79'
-    """
-    return str(_amounts(np.array([value], dtype=float), currency)[0])
-
-
-def _amounts(values: np.ndarray, currency: str = "") -> np.ndarray:
-    """:func:`money_words` for an array, as an object array; values are formatted in groups of equal decimals
-    (a 100k-lane plan formats about 100k of them, so each step is one cheap call per value)."""
-    values = np.asarray(values, dtype=float) + 0.0
-    size = np.abs(values)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        magnitude = np.floor(np.log10(size))
-    decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2).astype(int)
-    # Rounded once here, so the text shows the same digits whichever way it is formatted (ties go to even).
-    with np.errstate(invalid="ignore", over="ignore"):
-        size = np.where(np.isfinite(size) & (size < 1e15), np.round(size * 10.0 ** decimals) / 10.0 ** decimals, size)
-    out = np.empty(len(values), dtype=object)
-    for d in np.unique(decimals).tolist():
-        chosen = np.flatnonzero(decimals == d)
-        if d == 2:
-            out[chosen] = list(map("{:,.2f}".format, size[chosen].tolist()))
-            continue
-        # Below 10: drop trailing zeros, keep two decimals ("5.000" -> "5.00", "0.1530" -> "0.153").
-        trimmed = [t.rstrip("0") for t in map(f"%.{d}f".__mod__, size[chosen].tolist())]
-        out[chosen] = [(t + "00")[:max(len(t), t.index(".") + 3)] for t in trimmed]
-    out = np.where(values < 0, "-" + out, out)
-    return out + f" {currency}" if currency else out
 
 
 # ------------------------------------------------------------------------------------------------ the plan's graph
@@ -140,10 +105,12 @@ class _Graph:
         self.r_tail = np.concatenate([tail[room], head[above]])
         self.r_head = np.concatenate([head[room], tail[above]])
         self.r_cost = np.concatenate([cost[room], -cost[above]])
-        self.potentials = _bellman_ford(self.n_nodes, self.r_tail, self.r_head, self.r_cost)
-        reduced = self.r_cost + self.potentials[self.r_tail] - self.potentials[self.r_head]
-        self.forward = _csr(self.n_nodes, self.r_tail, self.r_head, np.maximum(reduced, 0.0))
-        self.backward = _csr(self.n_nodes, self.r_head, self.r_tail, np.maximum(reduced, 0.0))
+        # One stable order of the residual arcs by head serves Bellman-Ford and the backward graph.
+        by_head = _grouped(self.r_head, self.n_nodes)
+        self.potentials = _bellman_ford(self.n_nodes, self.r_tail, self.r_head, self.r_cost, by_head)
+        weight = np.maximum(self.r_cost + self.potentials[self.r_tail] - self.potentials[self.r_head], 0.0)
+        self.forward = _csr(self.n_nodes, self.r_tail, self.r_head, weight, _grouped(self.r_tail, self.n_nodes))
+        self.backward = _csr(self.n_nodes, self.r_head, self.r_tail, weight, by_head)
         phi, root = self.potentials, self.root
         self.from_root = dijkstra(self.forward, indices=root) - phi[root] + phi
         self.to_root = dijkstra(self.backward, indices=root) - phi + phi[root]
@@ -174,18 +141,31 @@ class _Graph:
         return out
 
 
-def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> csr_matrix:
+def _grouped(nodes: np.ndarray, n: int) -> np.ndarray:
+    """The stable order that groups arcs by node (``np.argsort(nodes, kind="stable")``), as one or two radix sorts
+    of 16-bit digits: numpy sorts integers of 16 bits or fewer by radix sort, several times faster than the merge
+    sort it uses for wider integers on the ~200k residual arcs of a 100k-lane plan."""
+    if n <= 1 << 16:
+        return np.argsort(nodes.astype(np.uint16), kind="stable")
+    if n > 1 << 32:
+        return np.argsort(nodes, kind="stable")
+    low = np.argsort((nodes & 0xFFFF).astype(np.uint16), kind="stable")
+    return low[np.argsort((nodes[low] >> 16).astype(np.uint16), kind="stable")]
+
+
+def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray, order: np.ndarray) -> csr_matrix:
     """A CSR graph keeping explicit zero weights (csgraph treats them as arcs) and parallel arcs (csgraph's
-    shortest-path routines take the cheapest of repeated entries, as its documentation says)."""
-    order = np.argsort(tail, kind="stable")
+    shortest-path routines take the cheapest of repeated entries, as its documentation says); ``order`` is
+    :func:`_grouped` of ``tail``."""
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(np.bincount(tail, minlength=n), out=indptr[1:])
     return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
 
 
-def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray) -> np.ndarray:
+def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray, order: np.ndarray) -> np.ndarray:
     """Potentials with ``cost + phi[tail] - phi[head] >= -tolerance`` on every arc, from a virtual source joined to
-    every node at cost 0: all arcs are relaxed at once per iteration until nothing changes.
+    every node at cost 0: all arcs are relaxed at once per iteration until nothing changes. ``order`` is
+    :func:`_grouped` of ``head``.
 
     Raises
     ------
@@ -196,7 +176,6 @@ def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray) 
     if not len(tail):
         return phi
     tolerance = SAME * max(1.0, float(np.abs(cost).max()))
-    order = np.argsort(head, kind="stable")
     tail, cost = tail[order], cost[order]
     counts = np.bincount(head, minlength=n)  # arcs per head, in head order: the groups reduceat needs
     heads = np.flatnonzero(counts)
@@ -211,15 +190,6 @@ def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray) 
 
 
 # ---------------------------------------------------------------------------------------------------- the figures
-def _needs_use(network: Network, lanes: pd.DataFrame, design: bool) -> np.ndarray:
-    """Per active lane: does the model give it a yes/no "used" decision? (as in the model's docstring)"""
-    need = lanes["fixed_cost"].to_numpy(dtype=float) > 0
-    if design:
-        single = set(network.customers.loc[network.customers["single_source"], "id"])
-        need = need | (lanes["min_volume"].to_numpy(dtype=float) > 0) | lanes["destination"].isin(single).to_numpy()
-    return need
-
-
 def _at_bound(value: np.ndarray, bound: np.ndarray) -> np.ndarray:
     """Elementwise: ``value`` at or above a finite ``bound`` (within :data:`TOLERANCE`, relative)."""
     bound = np.asarray(bound, dtype=float)
@@ -236,8 +206,8 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     network : Network
         The network the plan was made for.
     result : Result
-        A plan proven optimal: ``flows``, ``open_nodes`` and ``trips`` as :func:`lanesolve.model.solve.solve` fills
-        them. Nothing of the solver is read.
+        A plan proven optimal: ``flows`` (or ``lane_flow``, the same plan per lane), ``open_nodes`` and ``trips``
+        as :func:`lanesolve.model.solve.solve` fills them. Nothing of the solver is read.
 
     Returns
     -------
@@ -251,7 +221,8 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     Values are exact one-sided derivatives of the optimal cost; with whole-unit supplies, demands and capacities
     they equal the cost change of a re-solve with the bound moved by one unit (tests/test_sensitivity_exact.py checks
     that against SciPy's ``linprog``). Tiny negative reduced costs (|x| below 1e-9 of the largest cost) are solver
-    round-off and count as 0.
+    round-off and count as 0. :func:`plan_figures` gives the same figures with rows for only the unused lanes
+    someone reads.
 
     Examples
     --------
@@ -263,49 +234,82 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     >>> frame[["figure", "item", "value_up", "value_down"]].values.tolist()
     [['marginal_cost', 'C', 2.0, 2.0]]
     """
+    return plan_figures(network, result)[0]
+
+
+def plan_figures(network: Network, result, unused_rows: int | None = None) -> tuple[pd.DataFrame, UnusedLanes | None]:
+    """The figures of :func:`analyse_plan`, with rows for only the ``unused_rows`` unused lanes nearest to paying.
+
+    Parameters
+    ----------
+    network, result
+        As for :func:`analyse_plan`.
+    unused_rows : int, optional
+        How many unused lanes get their row (label and sentence) now; None: every one.
+
+    Returns
+    -------
+    frame : DataFrame
+        :func:`analyse_plan`'s frame up to and including the ``unused_rows`` unused lanes nearest to paying.
+    more : UnusedLanes or None
+        The unused lanes beyond them (:class:`~lanesolve.model.figure_text.UnusedLanes`, continuing ``frame``):
+        their figures as numbers, their rows made by ``more.rows()`` on demand. None when ``frame`` holds every
+        figure. ``pd.concat([frame, more.rows()])`` is :func:`analyse_plan`'s frame.
+
+    Examples
+    --------
+    >>> from lanesolve.model.network import make_network
+    >>> from lanesolve.model.solve import solve
+    >>> net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 4}],
+    ...                    [{"origin": "D", "destination": "C", "cost_per_unit": 2, "mode": m} for m in "abc"])
+    >>> frame, more = plan_figures(net, solve(net), unused_rows=1)
+    >>> frame["item"].tolist(), len(more), more.rows()["item"].tolist()
+    (['C', 'D -> C (b)'], 1, ['D -> C (c)'])
+    """
     units = network.settings.units or "units"
     currency = network.settings.currency or ""
-    depots, customers, hubs, lanes = network.depots, network.customers, network.hubs, network.active_lanes
+    depots, customers, hubs, lanes = network.depots, network.customers, network.hubs, network.lanes
+    # The active lanes as arrays of the lanes frame (no filtered copy of the frame: a 100k-lane frame takes
+    # milliseconds to filter, and usually every lane is active).
+    active = lanes["active"].to_numpy(dtype=bool)
+    where = slice(None) if active.all() else np.flatnonzero(active)
+    position = np.arange(len(lanes))[where]
+
+    def column(name: str) -> np.ndarray:
+        return lanes[name].to_numpy(dtype=float)[where]
+
     design = network.has_design
-    basis = FIXED_BASIS if (design or bool((lanes["fixed_cost"] > 0).any())) else LP_BASIS
+    fixed_cost = column("fixed_cost")
+    basis = FIXED_BASIS if (design or bool((fixed_cost > 0).any())) else LP_BASIS
     n_d, n_c, n_h = len(depots), len(customers), len(hubs)
     root = n_d + n_c + 2 * n_h
     # Every node id at one position (depots, customers, hubs), and the lane ends as positions.
     node_ids = pd.concat([depots["id"], customers["id"], hubs["id"]], ignore_index=True).astype(str)
-    at_origin, at_destination = _positions(node_ids, lanes["origin"]), _positions(node_ids, lanes["destination"])
+    at_origin = _positions(node_ids, lanes["origin"])[where]
+    at_destination = _positions(node_ids, lanes["destination"])[where]
     first_hub = n_d + n_c
     # Hubs are split: lanes leave from the "out" node (shifted by n_h), arrive at the "in" node.
     tail = np.where(at_origin >= first_hub, at_origin + n_h, at_origin)
     head = at_destination
 
-    # The plan's flows per active lane, matched on (origin, destination, mode) as integer keys.
-    flows = result.flows
-    modes_seen = pd.Series(pd.unique(pd.concat([lanes["mode"], flows["mode"]], ignore_index=True).astype(str)))
-    width = len(node_ids) + 1
-
-    def key(at_o, at_d, mode):
-        return (at_o.astype(np.int64) * width + at_d) * max(1, len(modes_seen)) + _positions(modes_seen, mode)
-
-    planned = pd.Index(key(_positions(node_ids, flows["origin"]), _positions(node_ids, flows["destination"]),
-                           flows["mode"]))
-    where = (planned.get_indexer(key(at_origin, at_destination, lanes["mode"])) if len(planned)
-             else np.full(len(lanes), -1))
-    flow = np.where(where >= 0, flows["flow"].to_numpy(dtype=float)[np.maximum(where, 0)] if len(flows) else 0.0,
-                    0.0)
+    flow = _lane_flows(network, result, where, node_ids, at_origin, at_destination)
     closed = closed_nodes(network)
     if len(result.open_nodes):
         closed |= set(result.open_nodes.loc[~result.open_nodes["open"].astype(bool), "node"])
     is_closed = node_ids.isin(list(closed)).to_numpy()
-    high = lanes["capacity"].to_numpy(dtype=float).copy()
-    low = np.zeros(len(lanes))
-    shut = is_closed[at_origin] | is_closed[at_destination] if len(lanes) else np.zeros(0, dtype=bool)
+    high = column("capacity").copy()
+    low = np.zeros(len(high))
+    shut = is_closed[at_origin] | is_closed[at_destination] if len(high) else np.zeros(0, dtype=bool)
     used = flow > 0
-    need_use = _needs_use(network, lanes, design)
+    need_use = fixed_cost > 0  # does the model give the lane a yes/no "used" decision? (as in its docstring)
+    if design:
+        single = set(customers.loc[customers["single_source"], "id"])
+        need_use = need_use | (column("min_volume") > 0) | lanes["destination"].isin(single).to_numpy()[where]
     shut = shut | (need_use & ~used)
-    minimum = lanes["min_volume"].to_numpy(dtype=float)
+    minimum = column("min_volume")
     low = np.where(need_use & used & design, minimum, low)
-    size = lanes["trip_capacity"].to_numpy(dtype=float)
-    per_trip = lanes["cost_per_trip"].to_numpy(dtype=float)
+    size = column("trip_capacity")
+    per_trip = column("cost_per_trip")
     with np.errstate(invalid="ignore", divide="ignore"):
         tripped = design & np.isfinite(size) & (size > 0) & (per_trip > 0)
         trips = np.where(tripped & used, np.ceil(flow / np.where(size > 0, size, 1.0) - 1e-9), 0.0)
@@ -317,7 +321,7 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     graph = _Graph(root + 1, root)
     handling = np.zeros(len(node_ids))
     handling[:n_d] = depots["handling_cost"].to_numpy(dtype=float)
-    cost = lanes["cost_per_unit"].to_numpy(dtype=float) + handling[at_origin]
+    cost = column("cost_per_unit") + handling[at_origin]
     lane_arc = graph.add(tail, head, cost, low, high, flow)
     outflow = np.bincount(at_origin, weights=flow, minlength=len(node_ids))
     inflow = np.bincount(at_destination, weights=flow, minlength=len(node_ids))
@@ -341,7 +345,7 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
         graph.finish()
     except PlanNotOptimal:
         return _none_row(basis, "the plan's own residual network shows a cheaper plan, so it is not optimal and "
-                                "its figures could mislead")
+                                "its figures could mislead"), None
 
     frames = []
     # Customers: one more unit costs min(p, d(R, c)); one less saves p when short, else -d(c, R).
@@ -350,128 +354,71 @@ def analyse_plan(network: Network, result) -> pd.DataFrame:
     short = kept < demand - TOLERANCE * np.maximum(1.0, demand)
     down = np.where(~hard & short, np.nan_to_num(penalty), -graph.to_root[node])
     down = np.where(demand <= 0, math.nan, down)  # demand cannot fall below 0
-    frames.append(_frame("marginal_cost", customer_ids, up, down, basis,
-                         "of demand at customer", units, currency))
+    frames.append(two_sided_rows("marginal_cost", customer_ids, up, down, basis,
+                                 "of demand at customer", units, currency))
 
     # Depots at their supply: one more saves -d(d, R); one less costs d(R, d).
     binding = ~depots["id"].isin(closed).to_numpy() & _at_bound(net, supply)
     node = np.arange(n_d)[binding]
-    frames.append(_frame("supply_value", depot_ids[binding],
-                         np.maximum(0.0, -graph.to_root[node]), graph.from_root[node], basis, "of supply at depot",
-                         units, currency))
+    frames.append(two_sided_rows("supply_value", depot_ids[binding],
+                                 np.maximum(0.0, -graph.to_root[node]), graph.from_root[node], basis,
+                                 "of supply at depot", units, currency))
 
     # Hubs at capacity and lanes at capacity (or full trips): an arc a = (i, j) at its upper bound.
     binding = (hub_cap > 0) & _at_bound(through, hub_cap)
     i, j = (first_hub + np.arange(n_h))[binding], (first_hub + n_h + np.arange(n_h))[binding]
     g = hubs["handling_cost"].to_numpy(float)[binding]
-    frames.append(_frame("hub_capacity_value", hub_ids[binding],
-                         np.maximum(0.0, -(g + graph.distance(j, i))), graph.distance(i, j) - g, basis,
-                         "of capacity at hub", units, currency))
+    frames.append(two_sided_rows("hub_capacity_value", hub_ids[binding],
+                                 np.maximum(0.0, -(g + graph.distance(j, i))), graph.distance(i, j) - g, basis,
+                                 "of capacity at hub", units, currency))
 
-    def labels(chosen: np.ndarray) -> np.ndarray:
-        return np.array([f"{o} -> {d} ({m})" if m else f"{o} -> {d}" for o, d, m in
-                         zip(*(lanes[column].iloc[chosen].astype(str).tolist()
-                               for column in ("origin", "destination", "mode")))],
-                        dtype=object)
     at_cap = ~shut & (high > 0) & _at_bound(flow, high)
+    labels = np.array([f"{o} -> {d} ({m})" if m else f"{o} -> {d}" for o, d, m in
+                       zip(*(lanes[name].iloc[position[at_cap]].astype(str).tolist()
+                             for name in ("origin", "destination", "mode")))], dtype=object)
     arc = lane_arc[at_cap]
     saving = np.maximum(0.0, -(graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc])))
     loss = graph.distance(graph.tail[arc], graph.head[arc]) - graph.cost[arc]
     for figure, which, what in (("lane_capacity_value", ~trip_binds[at_cap], "of capacity on lane"),
                                 ("trip_capacity_value", trip_binds[at_cap], "of room in the planned trips on lane")):
-        frames.append(_frame(figure, labels(at_cap)[which], saving[which], loss[which], basis, what, units,
-                             currency))
+        frames.append(two_sided_rows(figure, labels[which], saving[which], loss[which], basis, what, units,
+                                     currency))
 
     # Unused lanes: their cost must fall by c + d(j, i) before a plan as cheap uses them.
     unused = ~shut & (high > 0) & (flow <= TOLERANCE)
     arc = lane_arc[unused]
     reduced = np.maximum(0.0, graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc]))
-    order = np.argsort(reduced, kind="stable")  # nearest to paying first
-    chosen = np.flatnonzero(unused)[order]
-    frames.append(_reduced_frame((lanes["origin"], lanes["destination"], lanes["mode"]), chosen, reduced[order],
-                                 basis, units, currency,
-                                 bool(closed) or basis == FIXED_BASIS))
-    frames = [f for f in frames if len(f)]
-    if not frames:
-        return empty_frame(SENSITIVITY_COLUMNS)
-    out = pd.concat(frames, ignore_index=True)
-    out["unique"] = out["unique"].astype(bool)
-    for column in ("value", "value_up", "value_down"):
-        out[column] = out[column].astype(float)
-    return out
+    more = UnusedLanes(reduced, position[unused], (lanes["origin"], lanes["destination"], lanes["mode"]), basis,
+                       units, currency, bool(closed) or basis == FIXED_BASIS)
+    frames.append(more.show(unused_rows))
+    out = figure_frame(frames)
+    if not len(more):
+        return out, None
+    more.frame = out
+    return out, more
 
 
-def _none_row(basis: str, why: str) -> pd.DataFrame:
-    return pd.DataFrame([{"figure": "none", "item": "", "value": math.nan, "value_up": math.nan,
-                          "value_down": math.nan, "unique": False, "basis": basis,
-                          "text": f"No sensitivity figures: {why}."}], columns=SENSITIVITY_COLUMNS)
+def _lane_flows(network: Network, result, where, node_ids: pd.Series, at_origin: np.ndarray,
+                at_destination: np.ndarray) -> np.ndarray:
+    """The plan's flow per active lane: ``result.lane_flow`` when the solve left it, else ``result.flows``
+    matched to the lanes on (origin, destination, mode) as integer keys."""
+    lanes, flows = network.lanes, result.flows
+    given = getattr(result, "lane_flow", None)
+    if given is not None and len(given) == len(lanes):
+        return np.asarray(given, dtype=float)[where]
+    modes_seen = pd.Series(pd.unique(pd.concat([lanes["mode"], flows["mode"]], ignore_index=True).astype(str)))
+    width = len(node_ids) + 1
 
+    def key(at_o, at_d, mode):
+        return (at_o.astype(np.int64) * width + at_d) * max(1, len(modes_seen)) + mode
 
-def _frame(figure: str, items: np.ndarray, up: np.ndarray, down: np.ndarray, basis: str, what: str, units: str,
-           currency: str) -> pd.DataFrame:
-    """Rows of a two-sided figure, with the sentence: one number when both sides agree, else both."""
-    up, down = np.asarray(up, dtype=float) + 0.0, np.asarray(down, dtype=float) + 0.0
-    up = np.where(np.abs(up) < SAME, 0.0, up)
-    down = np.where(np.abs(down) < SAME, 0.0, down)
-    with np.errstate(invalid="ignore"):
-        same = np.isfinite(up) & np.isfinite(down) & (np.abs(up - down) <= SAME * np.maximum(1.0, np.abs(up)))
-    demand = figure == "marginal_cost"
-    more, less = ("costs", "saves") if demand else ("saves", "costs")
-    texts = []
-    up_words, down_words = _amounts(up, currency).tolist(), _amounts(down, currency).tolist()
-    for item, u, d, s, u_text, d_text in zip(items.tolist(), up.tolist(), down.tolist(), same.tolist(), up_words,
-                                             down_words):
-        subject = f"unit ({units}) {what} {item}"
-        if s:
-            texts.append(f"One more or one less {subject} changes the cost by {u_text}.")
-            continue
-        if math.isinf(u):
-            first = (f"One more {subject} cannot be met: no plan delivers it" if demand
-                     else f"One more {subject} saves nothing")
-        else:
-            first = f"One more {subject} {more} {u_text}"
-        if math.isnan(d):
-            second = "it cannot fall below 0"
-        elif math.isinf(d):
-            second = "with one less there is no plan (the hard demand needs it)"
-        else:
-            second = f"one less {less} {d_text}"
-        texts.append(f"{first}; {second}.")
-    n = len(items)
-    return pd.DataFrame({"figure": pd.Series([figure] * n, dtype=object), "item": pd.Series(items, dtype=object),
-                         "value": np.where(same, up, math.nan), "value_up": up, "value_down": down, "unique": same,
-                         "basis": pd.Series([basis] * n, dtype=object), "text": pd.Series(texts, dtype=object)},
-                        columns=SENSITIVITY_COLUMNS)
-
-
-def _reduced_frame(ends: tuple, chosen: np.ndarray, reduced: np.ndarray, basis: str, units: str, currency: str,
-                   decisions: bool) -> pd.DataFrame:
-    """Rows of the unused lanes (a 100k-lane plan has about 100k of them, so their labels and sentences are most of
-    the figures' time): built column-wise by Arrow's string kernels where pyarrow is installed (pandas uses it for
-    its text columns), else row by row; both give the same text. Text columns are plain object arrays, as
-    :func:`~lanesolve.model.result.empty_frame` makes them."""
-    reduced = np.where(np.abs(reduced) < SAME, 0.0, reduced) + 0.0
-    finite = np.isfinite(reduced)
-    never = (" is unused and no plan can use it while the plan's yes/no and trip decisions stand." if decisions
-             else " is unused and no plan can use it (nothing can flow over it to where it is needed).")
-    middle = f" is unused; its cost per unit ({units}) would have to fall by "
-    end = f" {currency} before a plan as cheap used it." if currency else " before a plan as cheap used it."
-    free = " is unused, but a plan using it would cost no more (an equally cheap alternative)."
-    # ends: the lanes' origin, destination and mode columns; chosen: the unused lanes' positions, nearest first.
-    try:
-        import pyarrow as pa
-
-        columns = [_arrow_column(pa, column).take(pa.array(chosen)) for column in ends]
-        items, texts = _reduced_words_arrow(*columns, reduced, middle, end, free, never)
-    except ImportError:
-        columns = [column.to_numpy(dtype=object)[chosen] for column in ends]
-        items, texts = _reduced_words_rows(*columns, reduced, middle, end, free, never)
-    n = len(items)
-    return pd.DataFrame({"figure": pd.Series(["reduced_cost"] * n, dtype=object),
-                         "item": pd.Series(items, dtype=object), "value": np.where(finite, reduced, math.nan),
-                         "value_up": reduced, "value_down": np.full(n, math.nan), "unique": finite,
-                         "basis": pd.Series([basis] * n, dtype=object), "text": pd.Series(texts, dtype=object)},
-                        columns=SENSITIVITY_COLUMNS)
+    planned = pd.Index(key(_positions(node_ids, flows["origin"]), _positions(node_ids, flows["destination"]),
+                           _positions(modes_seen, flows["mode"])))
+    where_planned = (planned.get_indexer(key(at_origin, at_destination, _positions(modes_seen, lanes["mode"])[where]))
+                     if len(planned) else np.full(len(at_origin), -1))
+    if not len(flows):
+        return np.zeros(len(at_origin))
+    return np.where(where_planned >= 0, flows["flow"].to_numpy(dtype=float)[np.maximum(where_planned, 0)], 0.0)
 
 
 def _positions(values: pd.Series, wanted: pd.Series) -> np.ndarray:
@@ -484,59 +431,14 @@ def _positions(values: pd.Series, wanted: pd.Series) -> np.ndarray:
         import pyarrow.compute as pc
     except ImportError:
         return pd.Index(values.to_numpy(dtype=object)).get_indexer(wanted.to_numpy(dtype=object)).astype(np.int64)
-    found = pc.index_in(_arrow_column(pa, wanted), value_set=_arrow_column(pa, values))
+    found = pc.index_in(arrow_column(pa, wanted), value_set=arrow_column(pa, values))
     return pc.fill_null(found, -1).to_numpy(zero_copy_only=False).astype(np.int64)
 
 
-def _arrow_column(pa, column: pd.Series):
-    """A text column as an Arrow array: zero-copy when pandas already keeps it in Arrow, else converted."""
-    try:
-        return pa.array(column.array, type=pa.string())
-    except (TypeError, ValueError, pa.ArrowException):
-        return pa.array(column.to_numpy(dtype=object), type=pa.string())
-
-
-def _reduced_words_rows(origins, destinations, modes, reduced, middle, end, free, never):
-    """Labels and sentences of unused lanes, row by row (no pyarrow)."""
-    amounts = _amounts(reduced).tolist()
-    items, texts = [], []
-    for o, d, m, value, amount in zip(origins.tolist(), destinations.tolist(), modes.tolist(), reduced.tolist(),
-                                      amounts):
-        item = f"{o} -> {d} ({m})" if m else f"{o} -> {d}"
-        items.append(item)
-        texts.append(f"Lane {item}{free}" if value == 0 else f"Lane {item}{never}" if value == math.inf
-                     else f"Lane {item}{middle}{amount}{end}")
-    return np.array(items, dtype=object), np.array(texts, dtype=object)
-
-
-def _reduced_words_arrow(origins, destinations, modes, reduced, middle, end, free, never):
-    """Labels and sentences of unused lanes with Arrow's string kernels; amounts as :func:`money_words` writes them
-    (four significant digits, at least two decimals). Raises ImportError without pyarrow."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    join = pc.binary_join_element_wise
-    origin, destination, mode = (pa.array(a, type=pa.string()) if not isinstance(a, (pa.Array, pa.ChunkedArray))
-                                 else a.cast(pa.string()) for a in (origins, destinations, modes))
-    item = join(origin, destination, " -> ")
-    item = pc.if_else(pc.equal(mode, ""), item, join(item, " (", mode, ")", ""))
-    size = np.where(np.isfinite(reduced), reduced, 0.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        magnitude = np.floor(np.log10(size))
-    decimals = np.where(np.isfinite(magnitude), np.clip(3 - magnitude, 2, 15), 2)
-    rounded = np.round(size * 10.0 ** decimals) / 10.0 ** decimals
-    amount = pc.cast(pa.array(rounded), pa.string())  # shortest text of the rounded value
-    amount = pc.replace_substring_regex(amount, r"^(\d+)$", r"\1.00")
-    amount = pc.replace_substring_regex(amount, r"^(\d+\.\d)$", r"\1" + "0")
-    odd = np.flatnonzero((size >= 1000) | ((size > 0) & (size < 1e-4)))  # thousands separators, tiny values
-    if len(odd):
-        fixed = amount.to_numpy(zero_copy_only=False).astype(object)
-        fixed[odd] = _amounts(size[odd])
-        amount = pa.array(fixed, type=pa.string())
-    text = join("Lane ", item, middle, amount, end, "")
-    text = pc.if_else(pa.array(reduced == 0), join("Lane ", item, free, ""), text)
-    text = pc.if_else(pa.array(np.isinf(reduced)), join("Lane ", item, never, ""), text)
-    return item.to_numpy(zero_copy_only=False), text.to_numpy(zero_copy_only=False)
+def _none_row(basis: str, why: str) -> pd.DataFrame:
+    return pd.DataFrame([{"figure": "none", "item": "", "value": math.nan, "value_up": math.nan,
+                          "value_down": math.nan, "unique": False, "basis": basis,
+                          "text": f"No sensitivity figures: {why}."}], columns=SENSITIVITY_COLUMNS)
 
 
 def top_few(sensitivity: pd.DataFrame, figure: str, count: int = TOP_FEW) -> pd.DataFrame:

@@ -82,7 +82,11 @@ def _figures(result: Result, figures, smallest: int | None = None) -> list[tuple
     frame = result.sensitivity
     if frame is None or frame.empty or "figure" not in frame:
         return []
-    rows = frame[frame["figure"].isin(list(figures))]
+    return _figure_rows(frame[frame["figure"].isin(list(figures))], smallest)
+
+
+def _figure_rows(rows: pd.DataFrame, smallest: int | None = None) -> list[tuple[str, str, float]]:
+    """:func:`_figures` of the rows given."""
     values = _figure_values(rows)
     keep = np.isfinite(values)
     if smallest is not None:
@@ -148,6 +152,9 @@ def _short(network: Network, result: Result, units: str, currency: str) -> list[
 def _near_misses(result: Result, units: str, currency: str) -> list[str]:
     one = singular(units or "units")
     lanes = [f for f in _figures(result, ("reduced_cost",), smallest=TOP) if f[2] > MONEY_EPSILON]
+    more = result.figures_beyond()
+    if more is not None:  # unused lanes without a row yet: those that could be among the nearest above round-off
+        lanes += [f for f in _figure_rows(more.nearest_above(MONEY_EPSILON, TOP), smallest=TOP) if f[2] > MONEY_EPSILON]
     lanes.sort(key=lambda f: (f[2], f[1]))
     return [f"Nearest to paying: lane {_lane(item)} would be used if it cost {_money(value, currency)} per {one} "
             "less." for _figure, item, value in lanes[:TOP]]

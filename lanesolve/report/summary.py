@@ -300,7 +300,7 @@ def _sensitivity_context(result: Result, units: str, currency: str) -> dict:
             rows = top_few(frame, figure, TOP_FEW)
             if rows.empty:
                 continue
-            total = int((frame["figure"] == figure).sum())
+            total = result.figure_count(figure)
             groups.append({"heading": heading, "more": max(total - len(rows), 0), "sentences": [
                 sensitivity_sentence(figure, str(r.item), float(r.value), bool(r.unique), units, currency,
                                      float(getattr(r, "value_up", r.value)), float(getattr(r, "value_down", r.value)))

@@ -379,12 +379,14 @@ def sensitivity_sheet(result) -> ResultSheet:
              "one unit less": "number", "unique": "text", "basis": "text", "in plain words": "text"}
     frame = result.sensitivity
     reduced = frame["figure"] == "reduced_cost" if len(frame) else None
-    left_out = 0
+    # Unused lanes the figures keep as numbers only (Result.more_figures) follow the rows here: counted, not listed.
+    more = result.figures_beyond()
+    left_out = 0 if more is None else len(more)
     if reduced is not None and int(reduced.sum()) > MAX_REDUCED_COST_ROWS:
         lanes = frame[reduced]
         # Nearest to paying first; a lane no plan can use (inf) last; a stable sort keeps the model's order.
         order = lanes.sort_values("value_up" if "value_up" in lanes else "value", kind="stable", na_position="last")
-        left_out = len(lanes) - MAX_REDUCED_COST_ROWS
+        left_out += len(lanes) - MAX_REDUCED_COST_ROWS
         frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS]])
 
     def finite(value):
