@@ -175,11 +175,49 @@ class UnusedLanes:
     """
 
     def __init__(self, values: np.ndarray, lanes: np.ndarray, ends: tuple, basis: str, units: str, currency: str,
-                 decisions: bool):
+                 decisions: bool, exact: np.ndarray | None = None, resolve=None):
         self.values, self.lanes, self.ends = np.asarray(values, dtype=float), np.asarray(lanes), ends
         self.basis, self.units, self.currency, self.decisions = basis, units, currency, decisions
         self.shown = np.zeros(len(self.values), dtype=bool)
         self.frame: pd.DataFrame | None = None
+        # Where a figure is not yet known exactly, values holds a lower bound and resolve(positions, cap) finds it:
+        # (figures, known) with known False where the figure is above cap (then the figure is a new lower bound).
+        self.exact = np.ones(len(self.values), dtype=bool) if exact is None else np.asarray(exact, dtype=bool)
+        self.resolve = resolve if not self.exact.all() else None
+        self.capped = np.zeros(len(self.values), dtype=bool)  # searched up to a cap once, not found within it
+
+    def _settle(self, positions: np.ndarray, cap: float | None = None) -> None:
+        """Find the exact figures of the lanes at ``positions`` not known yet, or (with ``cap``) learn that they lie
+        above ``cap``; values only rise, from a lower bound to the figure."""
+        positions = positions[~self.exact[positions]]
+        if not len(positions):
+            return
+        if cap is not None:  # a lane already searched up to a cap is searched to the end now: each lane twice at most
+            again = self.capped[positions]
+            if again.any():
+                self._settle(positions[again])
+                positions = positions[~again]
+                if not len(positions):
+                    return
+            self.capped[positions] = True
+        found, known = self.resolve(positions, cap)
+        # Above the cap: the smallest float above it is a lower bound.
+        beyond = np.nextafter(np.float64(cap if cap is not None else np.inf), np.inf)
+        self.values[positions] = np.where(known, found, np.maximum(self.values[positions], beyond))
+        self.exact[positions] = known
+        if self.exact.all():
+            self.resolve = None  # nothing left to find: the plan's graph is released
+
+    def _settle_up_to(self, count: int, among: np.ndarray) -> float:
+        """Settle the lanes in ``among`` (positions) until the ``count`` smallest figures there are exact and no
+        other lane there could be smaller or tied: returns the count-th smallest figure (inf when fewer)."""
+        while True:
+            values = self.values[among]
+            kth = np.inf if len(values) <= count else float(np.partition(values, count - 1)[count - 1])
+            pending = among[(values <= kth) & ~self.exact[among]]
+            if not len(pending):
+                return kth
+            self._settle(pending, None if np.isinf(kth) else kth)
 
     def __len__(self) -> int:
         """How many unused lanes are beyond those shown."""
@@ -202,12 +240,22 @@ class UnusedLanes:
     def rows(self) -> pd.DataFrame:
         """Rows of every lane beyond those shown, nearest to paying first (they follow the shown rows)."""
         rest = np.flatnonzero(~self.shown)
+        self._settle(rest)
         return figure_frame([self._columns(rest[np.argsort(self.values[rest], kind="stable")])])
 
     def nearest_above(self, threshold: float, count: int) -> pd.DataFrame:
         """Rows of the lanes beyond those shown whose figure, above ``threshold`` and finite, is among the
         ``count`` smallest such figures (every lane tied with the last included), in no particular order."""
         rest = np.flatnonzero(~self.shown)
+        if self.resolve is not None:  # settle the lanes above the threshold until the nearest few are exact
+            while True:
+                values = snapped(self.values[rest])
+                above = (values > threshold) & np.isfinite(values)
+                bound = np.inf if above.sum() <= count else float(np.partition(values[above], count - 1)[count - 1])
+                pending = rest[(snapped(self.values[rest]) <= bound) & ~self.exact[rest]]
+                if not len(pending):
+                    break
+                self._settle(pending, None if np.isinf(bound) else bound)
         values = snapped(self.values[rest])
         candidate = (values > threshold) & np.isfinite(values)
         if candidate.sum() > count:
@@ -219,7 +267,10 @@ class UnusedLanes:
         """Indices of the ``count`` nearest lanes in row order; the others are not sorted."""
         values = self.values
         if count is None or count >= len(values):
+            self._settle(np.arange(len(values)))
             return np.argsort(values, kind="stable")
+        if count > 0 and self.resolve is not None:
+            self._settle_up_to(count, np.arange(len(values)))
         if count <= 0:
             return np.zeros(0, dtype=np.int64)
         kth = np.partition(values, count - 1)[count - 1]
