@@ -184,7 +184,6 @@ class UnusedLanes:
         # (figures, known) with known False where the figure is above cap (then the figure is a new lower bound).
         self.exact = np.ones(len(self.values), dtype=bool) if exact is None else np.asarray(exact, dtype=bool)
         self.resolve = resolve if not self.exact.all() else None
-        self.capped = np.zeros(len(self.values), dtype=bool)  # searched up to a cap once, not found within it
 
     def _settle(self, positions: np.ndarray, cap: float | None = None) -> None:
         """Find the exact figures of the lanes at ``positions`` not known yet, or (with ``cap``) learn that they lie
@@ -192,14 +191,6 @@ class UnusedLanes:
         positions = positions[~self.exact[positions]]
         if not len(positions):
             return
-        if cap is not None:  # a lane already searched up to a cap is searched to the end now: each lane twice at most
-            again = self.capped[positions]
-            if again.any():
-                self._settle(positions[again])
-                positions = positions[~again]
-                if not len(positions):
-                    return
-            self.capped[positions] = True
         found, known = self.resolve(positions, cap)
         # Above the cap: the smallest float above it is a lower bound.
         beyond = np.nextafter(np.float64(cap if cap is not None else np.inf), np.inf)
@@ -208,16 +199,32 @@ class UnusedLanes:
         if self.exact.all():
             self.resolve = None  # nothing left to find: the plan's graph is released
 
-    def _settle_up_to(self, count: int, among: np.ndarray) -> float:
-        """Settle the lanes in ``among`` (positions) until the ``count`` smallest figures there are exact and no
-        other lane there could be smaller or tied: returns the count-th smallest figure (inf when fewer)."""
-        while True:
-            values = self.values[among]
-            kth = np.inf if len(values) <= count else float(np.partition(values, count - 1)[count - 1])
-            pending = among[(values <= kth) & ~self.exact[among]]
-            if not len(pending):
-                return kth
-            self._settle(pending, None if np.isinf(kth) else kth)
+    def _settle_below(self, among: np.ndarray, count: int, threshold: float | None = None) -> None:
+        """Settle lanes of ``among`` until the ``count`` smallest figures there (only finite ones above
+        ``threshold`` when given) are exact and no other lane there could be smaller or tied.
+
+        Each round searches the open lanes whose lower bound lies within a radius, each search stopped at it: the
+        radius is at least the count-th smallest value and a thousandth of the largest figure, and grows fourfold
+        from round to round, so a lane is searched a few times at most however its lower bound creeps up (a search
+        costs about the same whatever it finds: most of it is per search, not per node reached)."""
+        radius = None
+        finite = np.abs(self.values[np.isfinite(self.values)])
+        step = 1e-3 * max(1.0, float(finite.max()) if len(finite) else 1.0)  # the least radius worth a round
+        while self.resolve is not None:
+            values = snapped(self.values[among])
+            candidate = (np.ones(len(values), dtype=bool) if threshold is None
+                         else (values > threshold) & np.isfinite(values))
+            bound = (np.inf if candidate.sum() <= count
+                     else float(np.partition(values[candidate], count - 1)[count - 1]))
+            if not ((values <= bound) & ~self.exact[among]).any():
+                return
+            if not np.isfinite(bound):
+                self._settle(among)
+                continue
+            # Every open lane whose lower bound lies within the radius is searched: a search costs about the same
+            # whatever it finds, and fewer rounds mean fewer searches of the same lane.
+            radius = max(bound, step) if radius is None else max(bound, 4.0 * radius)
+            self._settle(among[values <= radius], radius)
 
     def __len__(self) -> int:
         """How many unused lanes are beyond those shown."""
@@ -247,15 +254,7 @@ class UnusedLanes:
         """Rows of the lanes beyond those shown whose figure, above ``threshold`` and finite, is among the
         ``count`` smallest such figures (every lane tied with the last included), in no particular order."""
         rest = np.flatnonzero(~self.shown)
-        if self.resolve is not None:  # settle the lanes above the threshold until the nearest few are exact
-            while True:
-                values = snapped(self.values[rest])
-                above = (values > threshold) & np.isfinite(values)
-                bound = np.inf if above.sum() <= count else float(np.partition(values[above], count - 1)[count - 1])
-                pending = rest[(snapped(self.values[rest]) <= bound) & ~self.exact[rest]]
-                if not len(pending):
-                    break
-                self._settle(pending, None if np.isinf(bound) else bound)
+        self._settle_below(rest, count, threshold)
         values = snapped(self.values[rest])
         candidate = (values > threshold) & np.isfinite(values)
         if candidate.sum() > count:
@@ -269,8 +268,8 @@ class UnusedLanes:
         if count is None or count >= len(values):
             self._settle(np.arange(len(values)))
             return np.argsort(values, kind="stable")
-        if count > 0 and self.resolve is not None:
-            self._settle_up_to(count, np.arange(len(values)))
+        if count > 0:
+            self._settle_below(np.arange(len(values)), count)
         if count <= 0:
             return np.zeros(0, dtype=np.int64)
         kth = np.partition(values, count - 1)[count - 1]
