@@ -7,8 +7,9 @@ charge 50-200. Those ranges follow the style of the random FCTP test sets in the
 Roberti, Bartolini & Mingozzi, Management Science 61(6), 2015), recalled from memory rather than copied; the exact
 instances here are our own, drawn from the seed.
 
-Each instance is solved through ``lanesolve.model.solve.solve`` (the product's own model and solver wrapper) with CBC and
-with HiGHS at the same limit, and the table shows objective, best bound, gap and the gap to the best known value in
+Each instance is solved through ``lanesolve.model.solve.solve`` (the product's own model and solver wrapper) with
+``auto`` (what a planner gets by default: HiGHS, then the lane search of ``lanesolve.model.lane_search``), CBC and
+HiGHS at the same limit, and the table shows objective, best bound, gap and the gap to the best known value in
 ``best_known.json`` (recorded by ``--record``: a long run, see the JSON for solver and seconds).
 
 Usage::
@@ -112,7 +113,7 @@ def fmt(value, spec: str) -> str:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--time-limit", type=float, default=60.0)
-    parser.add_argument("--solvers", default="cbc,highs")
+    parser.add_argument("--solvers", default="auto,cbc,highs")
     parser.add_argument("--instances", default=",".join(FAMILY))
     parser.add_argument("--record", action="store_true", help="update best_known.json with these runs")
     args = parser.parse_args(argv)

@@ -18,12 +18,14 @@ Usage::
 
     python benchmarks/pure_flow.py                         # 131k lanes, solver auto
     python benchmarks/pure_flow.py --lanes 1m --solvers auto,cbc
+    python benchmarks/pure_flow.py --netgen 16384 --solvers auto,cbc  # a NETGEN network of 131,072 arcs (netgen.py)
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import pickle
 import resource
 import subprocess
@@ -87,15 +89,25 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--lanes", default="131072", help="lane count (131072, 1m, ...)")
     parser.add_argument("--solvers", default="auto", help="lanesolve solvers, comma separated (default auto)")
     parser.add_argument("--time-limit", type=float, default=600.0)
+    parser.add_argument("--netgen", type=int, metavar="NODES",
+                        help="use a NETGEN network of this many nodes and 8 arcs per node (netgen.py) instead of "
+                             "generate.py's network; 16384 gives 131,072 arcs")
     parser.add_argument("--alone", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.alone:
         print(json.dumps(ortools_alone(args.alone)))
         return 0
-    book, pickled = generate.ensure_instance(generate.parse_size(args.lanes))
+    if args.netgen:
+        import netgen
+
+        book, pickled, arcs = netgen.ensure_instance(args.netgen)
+        described = f"NETGEN, {args.netgen:,} nodes, {arcs:,} arcs (netgen.py)"
+    else:
+        book, pickled = generate.ensure_instance(generate.parse_size(args.lanes))
+        described = f"{generate.parse_size(args.lanes):,} lanes"
     wall, cpu, done = run_process([sys.executable, __file__, "--alone", str(pickled)])
     alone = json.loads(done.stdout.strip().splitlines()[-1])
-    print(f"network: {book.name} ({generate.parse_size(args.lanes):,} lanes)")
+    print(f"network: {book.name} ({described}); load average at the start {os.getloadavg()[0]:.2f}")
     print("| run | wall s | CPU s | engine | cost | stages (s) |")
     print("|---|---|---|---|---|---|")
     print(f"| OR-Tools alone (process) | {wall:.2f} | {cpu:.2f} | SimpleMinCostFlow: {alone['ortools_seconds']:.2f} s "

@@ -107,14 +107,58 @@ def decimal_scale(values: np.ndarray) -> int | None:
     return None
 
 
+@dataclass
+class FlowGraph:
+    """The graph of the module docstring as integer arrays, built once so that it can be solved many times with other
+    lane costs or capacities (:mod:`lanesolve.model.lane_search`).
+
+    Attributes
+    ----------
+    tails, heads, capacities, unit_costs : numpy.ndarray of int64
+        One entry per arc, in the order of the module docstring's table.
+    supplies : numpy.ndarray of int64
+        Per node: the total demand at the source, its negative at the sink.
+    lane_index : numpy.ndarray
+        Index in ``network.lanes`` of the lane of each lane arc (the active lanes, in order).
+    lane_arcs : slice
+        Positions of the lane arcs.
+    n_lanes, n_customers : int
+        Rows of ``network.lanes`` and ``network.customers``.
+    soft : numpy.ndarray of bool
+        Per customer: it has an unmet penalty (an arc from the source).
+    quantity_scale, cost_scale : int
+        The powers of ten applied to quantities and to costs.
+    """
+
+    tails: np.ndarray
+    heads: np.ndarray
+    capacities: np.ndarray
+    unit_costs: np.ndarray
+    supplies: np.ndarray
+    lane_index: np.ndarray
+    lane_arcs: slice
+    n_lanes: int
+    n_customers: int
+    soft: np.ndarray
+    quantity_scale: int
+    cost_scale: int
+
+
 def solve_flow(network: Network) -> FlowAnswer | None:
     """Solve the pure min-cost flow of ``network`` with OR-Tools; ``None`` when it cannot be done exactly.
 
     ``None`` means: OR-Tools is not installed, the data cannot be scaled to exact integers, or the scaled totals
     could overflow. The caller then solves the same network with the LP engine.
     """
+    graph = flow_graph(network)
+    return None if graph is None else run_graph(graph)
+
+
+def flow_graph(network: Network) -> FlowGraph | None:
+    """The integer graph of ``network`` (fixed charges and design decisions ignored); ``None`` when OR-Tools is
+    missing, the data cannot be scaled to exact integers, or the scaled totals could overflow."""
     try:
-        from ortools.graph.python import min_cost_flow
+        from ortools.graph.python import min_cost_flow  # noqa: F401  (only to know it is there)
     except ImportError:  # optional at run time: the LP engines solve the same model
         return None
     depots, customers, hubs = network.depots, network.customers, network.hubs
@@ -177,20 +221,37 @@ def solve_flow(network: Network) -> FlowAnswer | None:
     if total * largest * max(len(capacities), 1) >= INT_LIMIT:
         return None
 
-    solver = min_cost_flow.SimpleMinCostFlow()
-    solver.add_arcs_with_capacity_and_unit_cost(tails, heads, capacities, unit_costs)
     supplies = np.zeros(2 + n_d + n_c + 2 * n_h, dtype=np.int64)
     supplies[0], supplies[1] = int(total), -int(total)
-    solver.set_nodes_supplies(np.arange(len(supplies), dtype=np.int64), supplies)
+    return FlowGraph(tails, heads, capacities, unit_costs, supplies, lane_index,
+                     slice(n_d, n_d + len(lane_index)), len(lanes), n_c, soft, q_scale, c_scale)
+
+
+def run_graph(graph: FlowGraph, unit_costs: np.ndarray | None = None,
+              capacities: np.ndarray | None = None) -> FlowAnswer:
+    """Solve ``graph`` with OR-Tools, optionally with other arc ``unit_costs`` or ``capacities`` (scaled integers,
+    one per arc); the objective is then in those costs."""
+    from ortools.graph.python import min_cost_flow
+
+    capacities = graph.capacities if capacities is None else capacities
+    unit_costs = graph.unit_costs if unit_costs is None else unit_costs
+    # Arcs that can carry nothing are left out: a search that closes most lanes solves a much smaller graph.
+    keep = np.flatnonzero(capacities > 0)
+    solver = min_cost_flow.SimpleMinCostFlow()
+    solver.add_arcs_with_capacity_and_unit_cost(graph.tails[keep], graph.heads[keep], capacities[keep],
+                                                unit_costs[keep])
+    solver.set_nodes_supplies(np.arange(len(graph.supplies), dtype=np.int64), graph.supplies)
     status = solver.solve()
-    lane_flow = np.zeros(len(lanes))
-    unmet = np.zeros(n_c)
+    lane_flow = np.zeros(graph.n_lanes)
+    unmet = np.zeros(graph.n_customers)
+    q_scale, c_scale = graph.quantity_scale, graph.cost_scale
     if status != solver.OPTIMAL:
         return FlowAnswer(False, lane_flow, unmet, math.nan, q_scale, c_scale,
                           infeasible=status == solver.INFEASIBLE)
-    flows = solver.flows(np.arange(len(capacities), dtype=np.int64)).astype(float) / q_scale
-    n_lanes = len(lane_index)
-    lane_flow[lane_index] = flows[n_d:n_d + n_lanes]
-    unmet[soft] = flows[len(capacities) - int(soft.sum()):]
+    flows = np.zeros(len(capacities))
+    flows[keep] = solver.flows(np.arange(len(keep), dtype=np.int64)).astype(float) / q_scale
+    n_soft = int(graph.soft.sum())
+    lane_flow[graph.lane_index] = flows[graph.lane_arcs]
+    unmet[graph.soft] = flows[len(capacities) - n_soft:]
     objective = solver.optimal_cost() / (q_scale * c_scale)
     return FlowAnswer(True, lane_flow, unmet, objective, q_scale, c_scale)

@@ -12,6 +12,11 @@ read the same :class:`~lanesolve.model.arrays.SparseModel` built by
   stopped itself (:mod:`lanesolve.model.cbc`);
 - ``"highs"``: HiGHS in memory through ``highspy`` (:mod:`lanesolve.model.highs`).
 
+A large model of capacitated facility location with split deliveries (depots to open or close and nothing else
+to decide, :func:`lanesolve.model.lagrangian.recognise`; at least :data:`LARGE_MIP` columns) with a time limit goes
+under ``auto`` to :mod:`lanesolve.model.lagrangian` instead (Lagrangian relaxation, min-cost flows and a local
+search over the open depots); when that finds no plan, the engines above take the time left.
+
 Every answer, the network algorithm's too, becomes a Result through the same code (:func:`plan_values`, the cost
 breakdown from the model's per-component costs).
 
@@ -38,8 +43,8 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.errors import SolverError
-from lanesolve.model import network_flow
-from lanesolve.model import carrier_results
+from lanesolve.model import lane_search, network_flow
+from lanesolve.model import carrier_results, lagrangian
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
 from lanesolve.model.formulation import build_sparse_model
@@ -166,6 +171,12 @@ def engine_deadline(end: float, limit: float, is_mip: bool, engine: str) -> floa
 #: seconds (cap131 … cap134: 2,500 columns).
 LARGE_MIP = 20_000
 FIRST_SHARE = 0.5
+
+#: Share of the time limit that ``auto`` keeps, on a network whose only decisions are lane charges, for the lane
+#: search of :mod:`lanesolve.model.lane_search` after the engine stopped on its limit with a plan (our choice, by
+#: benchmarks/mip_family.py: the engine finds few better plans late in its run, the search many; 0.4 kept a
+#: cheaper 15 x 50 plan than 0.25 at 60 s).
+SEARCH_SHARE = 0.4
 
 
 def _flow_answer(model: SparseModel, network: Network, flow) -> Answer:
@@ -372,12 +383,28 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     constructed = False
+    facility = None
+    if flow is None and solver == "auto" and end is not None and model.n_columns >= LARGE_MIP:
+        # Large facility location with split deliveries: the MIP engines do not finish its first LP in minutes
+        # (benchmarks/README.md, *Engines and time limits*), the Lagrangian method plans it in seconds. It stops
+        # by itself when its search ends, at the latest at the limit (no construction follows it); without a plan
+        # the engines below take what time is left.
+        facility = lagrangian.recognise(model)
+        answer = None if facility is None else lagrangian.solve_facility(model, facility, end - time.monotonic(), gap)
+        facility = None if answer is None else facility
     if flow is not None:
         answer = _flow_answer(model, network, flow)
         solver_seconds = flow_seconds
+    elif facility is not None:
+        solver_seconds = time.perf_counter() - tick
     else:
         engine = pick_engine(model) if solver == "auto" else solver
         engine_end = None if end is None else engine_deadline(end, limit_or(limit, end), model.is_mip, engine)
+        # Under auto, a network whose only decisions are lane charges keeps a share of its time for the lane search
+        # (below LARGE_MIP, where it was measured; a larger one searches in the construction's reserve if unused).
+        searching = solver == "auto" and end is not None and model.is_mip and lane_search.applies(network)
+        if searching and model.n_columns < LARGE_MIP:
+            engine_end = min(engine_end, end - SEARCH_SHARE * limit_or(limit, end))
         first = None
         if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
             from lanesolve.model.construct import construct
@@ -395,6 +422,11 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
             built = _build_plan(network, model, answer, end)
             if built is not None:
                 answer, constructed = built, True
+        if searching and answer.status is SolveStatus.FEASIBLE:
+            better = lane_search.improve(network, model, plan_values(network, model, answer.value), end)
+            if better is not None:
+                answer.value, answer.gap = better, None
+                answer.solver = f"{answer.solver}; plan improved by lane search"
         # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
         solver_seconds = time.perf_counter() - tick
 
@@ -431,7 +463,12 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     if constructed:
         result.messages.append("The solver found no plan in its time limit; this plan was built by a quick "
                                "construction (LP rounding) and is not proven optimal.")
-    if status is SolveStatus.FEASIBLE:
+    if status is SolveStatus.FEASIBLE and facility is not None:
+        gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
+        result.messages.append(f"This plan comes from a Lagrangian relaxation and a local search over the depots to "
+                               f"open, which do not prove a plan optimal; the best possible plan may cost up to "
+                               f"{gap_text} less than this one (the relaxation's lower bound).")
+    elif status is SolveStatus.FEASIBLE:
         gap_text = "unknown" if result.mip_gap is None else f"{result.mip_gap:.2%}"
         result.messages.append(f"The solver stopped on its time limit ({limit:g} s) before proving the plan "
                                f"optimal; the best possible plan may cost up to {gap_text} less than this one "
