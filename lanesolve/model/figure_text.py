@@ -175,11 +175,56 @@ class UnusedLanes:
     """
 
     def __init__(self, values: np.ndarray, lanes: np.ndarray, ends: tuple, basis: str, units: str, currency: str,
-                 decisions: bool):
+                 decisions: bool, exact: np.ndarray | None = None, resolve=None):
         self.values, self.lanes, self.ends = np.asarray(values, dtype=float), np.asarray(lanes), ends
         self.basis, self.units, self.currency, self.decisions = basis, units, currency, decisions
         self.shown = np.zeros(len(self.values), dtype=bool)
         self.frame: pd.DataFrame | None = None
+        # Where a figure is not yet known exactly, values holds a lower bound and resolve(positions, cap) finds it:
+        # (figures, known) with known False where the figure is above cap (then the figure is a new lower bound).
+        self.exact = np.ones(len(self.values), dtype=bool) if exact is None else np.asarray(exact, dtype=bool)
+        self.resolve = resolve if not self.exact.all() else None
+
+    def _settle(self, positions: np.ndarray, cap: float | None = None) -> None:
+        """Find the exact figures of the lanes at ``positions`` not known yet, or (with ``cap``) learn that they lie
+        above ``cap``; values only rise, from a lower bound to the figure."""
+        positions = positions[~self.exact[positions]]
+        if not len(positions):
+            return
+        found, known = self.resolve(positions, cap)
+        # Above the cap: the smallest float above it is a lower bound.
+        beyond = np.nextafter(np.float64(cap if cap is not None else np.inf), np.inf)
+        self.values[positions] = np.where(known, found, np.maximum(self.values[positions], beyond))
+        self.exact[positions] = known
+        if self.exact.all():
+            self.resolve = None  # nothing left to find: the plan's graph is released
+
+    def _settle_below(self, among: np.ndarray, count: int, threshold: float | None = None) -> None:
+        """Settle lanes of ``among`` until the ``count`` smallest figures there (only finite ones above
+        ``threshold`` when given) are exact and no other lane there could be smaller or tied.
+
+        Each round searches the open lanes whose lower bound lies within a radius, each search stopped at it: the
+        radius is at least the count-th smallest value and a thousandth of the largest figure, and grows fourfold
+        from round to round, so a lane is searched a few times at most however its lower bound creeps up (a search
+        costs about the same whatever it finds: most of it is per search, not per node reached)."""
+        radius = None
+        finite = np.abs(self.values[np.isfinite(self.values)])
+        step = 1e-3 * max(1.0, float(finite.max()) if len(finite) else 1.0)  # the least radius worth a round
+        while self.resolve is not None:
+            values = snapped(self.values[among])
+            candidate = (np.ones(len(values), dtype=bool) if threshold is None
+                         else (values > threshold) & np.isfinite(values))
+            bound = (np.inf if candidate.sum() <= count
+                     else float(np.partition(values[candidate], count - 1)[count - 1]))
+            if not ((values <= bound) & ~self.exact[among]).any():
+                return
+            if not np.isfinite(bound):
+                self._settle(among)
+                continue
+            # Every open lane whose lower bound lies within the radius is searched: a search costs about the same
+            # whatever it finds, and fewer rounds mean fewer searches of the same lane.
+            radius = max(bound, step) if radius is None else max(bound, 4.0 * radius)
+            self._settle(among[values <= radius], radius)
 
     def __len__(self) -> int:
         """How many unused lanes are beyond those shown."""
@@ -202,12 +247,14 @@ class UnusedLanes:
     def rows(self) -> pd.DataFrame:
         """Rows of every lane beyond those shown, nearest to paying first (they follow the shown rows)."""
         rest = np.flatnonzero(~self.shown)
+        self._settle(rest)
         return figure_frame([self._columns(rest[np.argsort(self.values[rest], kind="stable")])])
 
     def nearest_above(self, threshold: float, count: int) -> pd.DataFrame:
         """Rows of the lanes beyond those shown whose figure, above ``threshold`` and finite, is among the
         ``count`` smallest such figures (every lane tied with the last included), in no particular order."""
         rest = np.flatnonzero(~self.shown)
+        self._settle_below(rest, count, threshold)
         values = snapped(self.values[rest])
         candidate = (values > threshold) & np.isfinite(values)
         if candidate.sum() > count:
@@ -219,7 +266,10 @@ class UnusedLanes:
         """Indices of the ``count`` nearest lanes in row order; the others are not sorted."""
         values = self.values
         if count is None or count >= len(values):
+            self._settle(np.arange(len(values)))
             return np.argsort(values, kind="stable")
+        if count > 0:
+            self._settle_below(np.arange(len(values)), count)
         if count <= 0:
             return np.zeros(0, dtype=np.int64)
         kth = np.partition(values, count - 1)[count - 1]

@@ -115,8 +115,23 @@ class _Graph:
         self.from_root = dijkstra(self.forward, indices=root) - phi[root] + phi
         self.to_root = dijkstra(self.backward, indices=root) - phi + phi[root]
 
-    def distance(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        """Exact residual distances d(a[k], b[k]) (inf where b cannot be reached from a); see the module docstring."""
+    def distance(self, a: np.ndarray, b: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
+        """Exact residual distances d(a[k], b[k]) (inf where b cannot be reached from a); see the module docstring.
+
+        With ``cap``, a distance above ``cap[k]`` may come back as inf instead: enough where only distances up to
+        a cap matter (one more unit of a capacity saves only while the way round costs less than the lane)."""
+        lower, upper, exact = self.bounds(a, b)
+        out = np.where(exact, upper, np.nan)
+        todo = np.flatnonzero(~exact)
+        if len(todo):
+            out[todo] = self.searched(np.asarray(a)[todo], np.asarray(b)[todo], upper[todo],
+                                      None if cap is None else np.asarray(cap, dtype=float)[todo])
+        return out
+
+    def bounds(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the root's two trees: the upper bound
+        d(a, R) + d(R, b) is a path through the root; the lower bounds are phi_b - phi_a, d(R, b) - d(R, a) and
+        d(a, R) - d(b, R); where they meet, the distance is exact."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
         phi, up_r, down_r = self.potentials, self.from_root, self.to_root
         with np.errstate(invalid="ignore"):
@@ -125,20 +140,64 @@ class _Graph:
             for low in (up_r[b] - up_r[a], down_r[a] - down_r[b]):
                 lower = np.where(np.isfinite(low) & (low > lower), low, lower)
             exact = np.isfinite(upper) & (upper - lower <= SAME * np.maximum(1.0, np.abs(upper)))
-        out = np.where(exact, upper, np.nan)
-        todo = np.flatnonzero(~exact)
-        if len(todo):
-            sources, targets, graph = a[todo], b[todo], self.forward
-            if len(np.unique(targets)) < len(np.unique(sources)):  # search from the fewer distinct ends
-                sources, targets, graph = targets, sources, self.backward
-            unique, which = np.unique(sources, return_inverse=True)
-            for chunk in range(0, len(unique), 64):  # bounded memory: 64 rows of n_nodes at a time
-                rows = dijkstra(graph, indices=unique[chunk:chunk + 64])
-                pick = (which >= chunk) & (which < chunk + 64)
-                reduced = rows[which[pick] - chunk, targets[pick]]
-                out[todo[pick]] = reduced
-            out[todo] = out[todo] - phi[a[todo]] + phi[b[todo]]
+        return lower, upper, exact
+
+    def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
+        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct nodes, each
+        search stopped at the largest bound of its pairs (``upper``, and ``cap`` where given; in reduced costs):
+        a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
+        come back inf."""
+        a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
+        phi = self.potentials
+        out = np.full(len(a), np.inf)
+        bound = np.asarray(upper, dtype=float) if cap is None else np.fmin(upper, cap)
+        with np.errstate(invalid="ignore"):
+            reach = bound + phi[a] - phi[b]  # the bound in reduced costs (inf stays inf)
+        wanted = ~(reach < 0)  # a negative reduced bound: the pair is beyond its cap (reduced distances are >= 0)
+        a_, b_, reach = a[wanted], b[wanted], reach[wanted]
+        sources, targets, graph = a_, b_, self.forward
+        if len(np.unique(targets)) < len(np.unique(sources)):  # search from the fewer distinct ends
+            sources, targets, graph = b_, a_, self.backward
+        unique, which = np.unique(sources, return_inverse=True)
+        limit = np.full(len(unique), -np.inf)
+        np.maximum.at(limit, which, reach)
+        by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
+        rank = np.empty(len(unique), dtype=np.int64)
+        rank[by_limit] = np.arange(len(unique))
+        found = np.empty(len(a_))
+        for chunk in range(0, len(unique), 64):  # bounded memory: 64 rows of n_nodes at a time
+            group = by_limit[chunk:chunk + 64]
+            stop = float(limit[group].max())
+            stop = np.inf if not np.isfinite(stop) else stop + SAME * max(1.0, abs(stop)) + 1e-9
+            rows = dijkstra(graph, indices=unique[group], limit=stop)
+            pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
+            found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
+        out[wanted] = found - phi[a_] + phi[b_]
+        if cap is not None:
+            out = np.where(out <= cap, out, np.inf)
         return out
+
+
+class _LaneFigures:
+    """The figures c + d(j, i) of unused lanes i -> j on the plan's graph: what the trees settle at once, the rest
+    by search on demand (:class:`~lanesolve.model.figure_text.UnusedLanes` calls it)."""
+
+    def __init__(self, graph: _Graph, heads: np.ndarray, tails: np.ndarray, cost: np.ndarray):
+        self.graph, self.heads, self.tails, self.cost = graph, heads, tails, cost
+
+    def known(self) -> tuple[np.ndarray, np.ndarray]:
+        """(figure where the trees settle it, else a lower bound; settled)."""
+        lower, upper, exact = self.graph.bounds(self.heads, self.tails)
+        return np.maximum(0.0, self.cost + np.where(exact, upper, lower)), exact
+
+    def __call__(self, positions: np.ndarray, cap: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """(figures of the lanes at ``positions``, found): with ``cap``, a figure above it is not found."""
+        a, b, cost = self.heads[positions], self.tails[positions], self.cost[positions]
+        _, upper, _ = self.graph.bounds(a, b)
+        distance = self.graph.searched(a, b, upper, None if cap is None else cap - cost)
+        figures = np.maximum(0.0, cost + distance)
+        found = np.isfinite(figures) if cap is not None else np.ones(len(positions), dtype=bool)
+        return figures, found
 
 
 def _grouped(nodes: np.ndarray, n: int) -> np.ndarray:
@@ -369,7 +428,7 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
     i, j = (first_hub + np.arange(n_h))[binding], (first_hub + n_h + np.arange(n_h))[binding]
     g = hubs["handling_cost"].to_numpy(float)[binding]
     frames.append(two_sided_rows("hub_capacity_value", hub_ids[binding],
-                                 np.maximum(0.0, -(g + graph.distance(j, i))), graph.distance(i, j) - g, basis,
+                                 np.maximum(0.0, -(g + graph.distance(j, i, -g))), graph.distance(i, j) - g, basis,
                                  "of capacity at hub", units, currency))
 
     at_cap = ~shut & (high > 0) & _at_bound(flow, high)
@@ -377,7 +436,8 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
                        zip(*(lanes[name].iloc[position[at_cap]].astype(str).tolist()
                              for name in ("origin", "destination", "mode")))], dtype=object)
     arc = lane_arc[at_cap]
-    saving = np.maximum(0.0, -(graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc])))
+    # One more unit saves only while the way back costs less than -c: distances above that need not be found.
+    saving = np.maximum(0.0, -(graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc], -graph.cost[arc])))
     loss = graph.distance(graph.tail[arc], graph.head[arc]) - graph.cost[arc]
     for figure, which, what in (("lane_capacity_value", ~trip_binds[at_cap], "of capacity on lane"),
                                 ("trip_capacity_value", trip_binds[at_cap], "of room in the planned trips on lane")):
@@ -386,10 +446,13 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
 
     # Unused lanes: their cost must fall by c + d(j, i) before a plan as cheap uses them.
     unused = ~shut & (high > 0) & (flow <= TOLERANCE)
+    # Only the figures of the lanes shown are searched for now where the trees leave them open (the others keep a
+    # lower bound until someone asks: on a meshed network each needs a search of its own).
     arc = lane_arc[unused]
-    reduced = np.maximum(0.0, graph.cost[arc] + graph.distance(graph.head[arc], graph.tail[arc]))
-    more = UnusedLanes(reduced, position[unused], (lanes["origin"], lanes["destination"], lanes["mode"]), basis,
-                       units, currency, bool(closed) or basis == FIXED_BASIS)
+    distances = _LaneFigures(graph, graph.head[arc], graph.tail[arc], graph.cost[arc])
+    lower, exact = distances.known()
+    more = UnusedLanes(lower, position[unused], (lanes["origin"], lanes["destination"], lanes["mode"]), basis,
+                       units, currency, bool(closed) or basis == FIXED_BASIS, exact=exact, resolve=distances)
     frames.append(more.show(unused_rows))
     out = figure_frame(frames)
     if not len(more):
