@@ -164,13 +164,19 @@ def scipy_design_milp(net):
     return res
 
 
-@pytest.mark.parametrize("seed", range(6))
-def test_design_agrees_with_scipy_milp(seed):
-    rng = random.Random(100 + seed)
-    depots, customers, lanes, hubs = random_design(100 + seed)
+def design_with_minimum_volumes(seed: int):
+    """:func:`random_design` with a minimum volume on about a fifth of the lanes, drawn from the same seed."""
+    rng = random.Random(seed)
+    depots, customers, lanes, hubs = random_design(seed)
     for lane in lanes:
         if rng.random() < 0.2:
             lane["min_volume"] = rng.randint(3, 8)
+    return depots, customers, lanes, hubs
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_design_agrees_with_scipy_milp(seed):
+    depots, customers, lanes, hubs = design_with_minimum_volumes(100 + seed)
     customers[0]["single_source"] = True
     net = make_network(depots, customers, lanes, hubs, settings=Settings(max_open_depots=2))
     reference = scipy_design_milp(make_network(depots, customers, lanes, hubs))  # source: SciPy milp (HiGHS)
@@ -203,7 +209,7 @@ def test_closed_node_carries_no_flow_and_open_node_pays_its_charge():
     assert set(result.flows["origin"]) == {"Dear"}
 
 
-def test_v1_network_builds_no_design_rows_and_keeps_v1_breakdown():
+def test_network_without_design_builds_no_design_rows_and_keeps_the_plain_breakdown():
     net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 4}],
                        [{"origin": "D", "destination": "C", "cost_per_unit": 2.5}])
     assert not net.has_design
@@ -216,11 +222,7 @@ def test_v1_network_builds_no_design_rows_and_keeps_v1_breakdown():
 def test_every_customer_single_sourced_agrees_with_scipy_milp(seed):
     # Every customer single-sourced: the lanes into them carry nothing or the whole demand, so their link rows are
     # equalities (formulation docstring, single_source_); the optimum must not move.
-    rng = random.Random(500 + seed)
-    depots, customers, lanes, hubs = random_design(500 + seed)
-    for lane in lanes:
-        if rng.random() < 0.2:
-            lane["min_volume"] = rng.randint(3, 8)
+    depots, customers, lanes, hubs = design_with_minimum_volumes(500 + seed)
     for customer in customers:
         customer["single_source"] = True
     net = make_network(depots, customers, lanes, hubs)
