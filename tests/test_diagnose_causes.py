@@ -259,3 +259,18 @@ def test_min_volume_is_named_with_the_lane(variant):
     assert diagnosis.total_short == pytest.approx(least_shortfall_milp(net), abs=TOL) == pytest.approx(need)
     rules = {name: (ok, text) for name, ok, text in diagnosis.rules}
     assert rules["min_volume"][0] and "D -> C to carry less than its min_volume" in rules["min_volume"][1]
+
+
+def test_a_network_whose_only_lane_is_inactive_gets_its_reasons_without_a_limit_to_raise():
+    # Found by the workbook fuzz (hypothesis): no active lane, no supply, one unit of hard demand. The pre-solve
+    # checks name both causes; the least-raises LP has no column at all and must say nothing rather than fail.
+    from lanesolve.model.remedies import least_raises
+
+    net = make_network([{"id": "D0", "supply": 0}], [{"id": "C0", "demand": 1}],
+                       [lane("D0", "C0", 0.0, active=False)])
+    assert least_raises(net) is None
+    reasons = presolve_checks(net)
+    assert any("short" in r for r in reasons) and any("no active lane ends there" in r for r in reasons)
+    result = explain_no_plan(net, reasons)
+    assert result.status is SolveStatus.INFEASIBLE
+    assert all(reason in result.messages for reason in reasons)

@@ -126,6 +126,8 @@ def least_raises(network: Network) -> pd.DataFrame | None:
     for kind, node, demand, column in raises:
         if kind == "short":
             bounds[column] = (0.0, demand)
+    if n_cols == 0:  # no active lane and no limit at all: nothing to raise, and no LP to solve
+        return None
     objective = np.zeros(n_cols)
     for kind, _, _, column in raises:
         if kind != "short":
