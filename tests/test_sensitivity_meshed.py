@@ -78,3 +78,27 @@ def test_capacity_figures_on_a_mesh_equal_the_uncapped_search(monkeypatch):
         full = capped["figure"].isin(["lane_capacity_value", "hub_capacity_value"])
         compared += int((full & (capped["value_up"] > 0)).sum())
     assert compared >= 5, "too few full lanes that save money in these meshes: the test would prove little"
+
+
+def test_near_miss_advice_needs_no_search_beyond_the_rows_when_they_settle_it(monkeypatch):
+    # The advice names the three unused lanes nearest to paying; when the rows shown already hold three figures
+    # strictly below their last one, no lane beyond can enter, so the lanes beyond are not searched. The advice
+    # must still equal the one made from the full computation.
+    import dataclasses
+
+    from lanesolve.model.figure_text import UnusedLanes
+    from lanesolve.report import advice
+
+    net = meshed(3)
+    result = solve(net)
+    full = analyse_plan(net, result)
+    expected = advice._near_misses(dataclasses.replace(result, sensitivity=full, more_figures=None), "units", "")
+    frame, more = plan_figures(net, result, unused_rows=40)
+    shown = dataclasses.replace(result, sensitivity=frame, more_figures=more)
+
+    def refuse(self, *args):
+        raise AssertionError("searched beyond the rows although they settle the advice")
+
+    monkeypatch.setattr(UnusedLanes, "nearest_above", refuse)
+    assert len(expected) == advice.TOP
+    assert advice._near_misses(shown, "units", "") == expected

@@ -153,11 +153,24 @@ def _near_misses(result: Result, units: str, currency: str) -> list[str]:
     one = singular(units or "units")
     lanes = [f for f in _figures(result, ("reduced_cost",), smallest=TOP) if f[2] > MONEY_EPSILON]
     more = result.figures_beyond()
-    if more is not None:  # unused lanes without a row yet: those that could be among the nearest above round-off
+    if more is not None and not _beyond_cannot_enter(result, lanes):
+        # Unused lanes without a row yet: those that could be among the nearest above round-off.
         lanes += [f for f in _figure_rows(more.nearest_above(MONEY_EPSILON, TOP), smallest=TOP) if f[2] > MONEY_EPSILON]
     lanes.sort(key=lambda f: (f[2], f[1]))
     return [f"Nearest to paying: lane {_lane(item)} would be used if it cost {_money(value, currency)} per {one} "
             "less." for _figure, item, value in lanes[:TOP]]
+
+
+def _beyond_cannot_enter(result: Result, lanes: list[tuple[str, str, float]]) -> bool:
+    """True when no unused lane beyond the rows can be among the nearest few: the rows are the lanes nearest to
+    paying, so every lane beyond them is at least the last row's figure; when the few found lie strictly below it,
+    none beyond can be smaller or tied (asking the lanes beyond could mean searches on a meshed network)."""
+    if len(lanes) < TOP:
+        return False
+    frame = result.sensitivity
+    shown = _figure_values(frame[frame["figure"] == "reduced_cost"])
+    shown = shown[np.isfinite(shown)]
+    return bool(len(shown)) and sorted(f[2] for f in lanes)[TOP - 1] < float(shown.max())
 
 
 def _scenarios(comparison: pd.DataFrame | None, currency: str) -> list[str]:
