@@ -20,6 +20,7 @@ Usage (from the repository root, with the project installed)::
     python benchmarks/data/check_orlib.py --all-cap                    # the 37 cap instances, scipy only
     python benchmarks/data/check_orlib.py cap41 --lanesolve cbc,highs
     python benchmarks/data/check_orlib.py capa:8000                    # capa/capb/capc need name:capacity
+    python benchmarks/data/check_orlib.py capa:u                       # or :u, every capacity = the total demand
     python benchmarks/data/check_orlib.py p1 p25                       # Holmberg, single source
 
 Exit status 1 if any objective misses its published optimum by a relative 1e-6 or more.
@@ -52,7 +53,8 @@ def load(spec: str) -> tuple[dict, float | None, bool]:
     optima = orlib_cap.load_optima()
     name, _, capacity = spec.partition(":")
     if name.startswith("cap"):
-        instance = orlib_cap.read_cap(orlib_cap.instance_path(name), float(capacity) if capacity else None)
+        capacity = capacity if capacity.lower() == "u" else float(capacity) if capacity else None  # capa:u, capa:8000
+        instance = orlib_cap.read_cap(orlib_cap.instance_path(name), capacity)
         return instance, optima["cap"].get(instance["name"]), False
     instance = orlib_cap.read_holmberg(orlib_cap.instance_path(name))
     return instance, optima.get("holmberg", {}).get(name), True

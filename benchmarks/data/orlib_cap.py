@@ -71,7 +71,7 @@ def _sizes(tokens: list[str], path: Path) -> tuple[int, int]:
     return int(m), int(n)
 
 
-def read_cap(path: str | Path, capacity: float | None = None) -> dict:
+def read_cap(path: str | Path, capacity: float | str | None = None) -> dict:
     """Read an OR-Library capacitated warehouse location file (``cap41.txt`` … ``capc.txt``, optionally ``.gz``).
 
     Parameters
@@ -80,7 +80,8 @@ def read_cap(path: str | Path, capacity: float | None = None) -> dict:
         The instance file.
     capacity : float, optional
         Capacity of every warehouse, required for capa/capb/capc whose capacities are the word ``capacity``;
-        ignored (must be None) for files with numeric capacities.
+        ignored (must be None) for files with numeric capacities. ``"u"`` gives every warehouse the total demand:
+        the uncapacitated variant (no capacity can bind), named ``capa-u`` and so on.
 
     Returns
     -------
@@ -109,8 +110,9 @@ def read_cap(path: str | Path, capacity: float | None = None) -> dict:
                                   f"(the values of the four instances are in capopt.txt)")
     if capacity is not None and placeholders != m:
         raise InstanceFormatError(f"{path.name}: has numeric capacities; capacity= applies only to capa/capb/capc")
-    caps = [float(capacity) if placeholders else _number(t, path, f"capacity of warehouse {i + 1}")
-            for i, t in enumerate(head[0::2])]
+    uncapacitated = isinstance(capacity, str) and capacity.lower() == "u"
+    caps = [0.0 if uncapacitated else float(capacity) if placeholders else
+            _number(t, path, f"capacity of warehouse {i + 1}") for i, t in enumerate(head[0::2])]
     fixed = [_number(t, path, f"fixed cost of warehouse {i + 1}") for i, t in enumerate(head[1::2])]
     body = tokens[2 + 2 * m:]
     demand, cost = [], []
@@ -118,7 +120,9 @@ def read_cap(path: str | Path, capacity: float | None = None) -> dict:
         row = body[j * (m + 1):(j + 1) * (m + 1)]
         demand.append(_number(row[0], path, f"demand of customer {j + 1}"))
         cost.append([_number(t, path, f"cost of customer {j + 1} at warehouse {i + 1}") for i, t in enumerate(row[1:])])
-    name = path.name.split(".")[0] + (f"-{capacity:g}" if placeholders else "")
+    if uncapacitated:
+        caps = [float(sum(demand))] * m
+    name = path.name.split(".")[0] + ("-u" if uncapacitated else f"-{float(capacity):g}" if placeholders else "")
     return {"name": name, "capacity": caps, "fixed_cost": fixed, "demand": demand, "cost": cost}
 
 
