@@ -290,3 +290,67 @@ def test_two_renders_reuse_one_compiled_template(network, result, monkeypatch):
     # The reused template still renders each run's own facts, not the first run's.
     assert "first-week.xlsx" in first and "second-week.xlsx" not in first
     assert "second-week.xlsx" in second and "first-week.xlsx" not in second
+
+
+@pytest.fixture
+def fresh_environment(monkeypatch):
+    """A new Jinja2 environment for the test (the process keeps one), the suite's own again afterwards."""
+    report._environment.cache_clear()
+    yield lambda: report._environment.cache_clear()
+    monkeypatch.undo()
+    report._environment.cache_clear()
+
+
+def _compiles(monkeypatch) -> list:
+    import jinja2
+
+    calls = []
+    compile_ = jinja2.Environment.compile
+
+    def counting(self, *args, **kwargs):
+        calls.append(args[1] if len(args) > 1 else kwargs.get("name"))
+        return compile_(self, *args, **kwargs)
+
+    monkeypatch.setattr(jinja2.Environment, "compile", counting)
+    return calls
+
+
+def test_a_later_process_reuses_the_compiled_template(tmp_path, network, result, monkeypatch, fresh_environment):
+    # Jinja2's documentation (API, "Bytecode Cache"): with a bytecode cache a template's compiled code is loaded
+    # from the cache instead of being compiled again. A later process is a new environment on the same folder.
+    info = make_info()
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", "off")
+    plain = report.render_html(network, result, info, [])  # reference: Jinja2 compiling the template itself
+    fresh_environment()
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", str(tmp_path))
+    calls = _compiles(monkeypatch)
+    first = report.render_html(network, result, info, [])
+    assert calls == [report.TEMPLATE_NAME] and len(list(tmp_path.iterdir())) == 1
+    fresh_environment()
+    second = report.render_html(network, result, info, [])
+    assert calls == [report.TEMPLATE_NAME]  # no second compile: the code came from the cache
+    assert first == plain and second == plain
+
+
+def test_a_cache_that_cannot_be_written_or_read_is_passed_over(tmp_path, network, result, monkeypatch,
+                                                               fresh_environment):
+    info = make_info()
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", "off")
+    plain = report.render_html(network, result, info, [])  # reference: Jinja2 compiling the template itself
+    blocked = tmp_path / "not-a-folder"
+    blocked.write_text("a file where the cache folder would be")
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", str(blocked))
+    fresh_environment()
+    assert report.render_html(network, result, info, []) == plain
+    # A damaged entry (here: every entry in the folder overwritten) is compiled afresh, not trusted.
+    folder = tmp_path / "cache"
+    folder.mkdir()
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", str(folder))
+    fresh_environment()
+    report.render_html(network, result, info, [])
+    for entry in folder.iterdir():
+        entry.write_bytes(b"j2\x00damaged")
+    fresh_environment()
+    calls = _compiles(monkeypatch)
+    assert report.render_html(network, result, info, []) == plain
+    assert calls == [report.TEMPLATE_NAME]

@@ -480,14 +480,48 @@ def template_folder() -> Path:
         return Path(__file__).resolve().parents[2] / "templates"  # lanesolve/report/ -> repository root
 
 
+def _bytecode_cache() -> "jinja2.BytecodeCache | None":
+    """Where compiled templates are kept between processes, or None.
+
+    Compiling the summary template costs about a tenth of a second of CPU, as much as a small run's solve; Jinja2's
+    file-system bytecode cache keeps the compiled code keyed by template name and source checksum (an edited
+    template is compiled afresh), by default in a folder of the user's own under the temporary folder that Jinja2
+    creates with owner-only access. ``LANESOLVE_TEMPLATE_CACHE`` names another folder, or ``off`` for none. A
+    cache that cannot be read or written is passed over: the template is then compiled as before."""
+    import jinja2
+
+    class QuietCache(jinja2.FileSystemBytecodeCache):
+        def load_bytecode(self, bucket) -> None:
+            try:
+                super().load_bytecode(bucket)
+            except Exception:  # unreadable or damaged entry: compile afresh
+                bucket.reset()
+
+        def dump_bytecode(self, bucket) -> None:
+            try:
+                super().dump_bytecode(bucket)
+            except OSError:
+                pass
+
+    folder = os.environ.get("LANESOLVE_TEMPLATE_CACHE", "").strip()
+    if folder.lower() in ("off", "no", "0"):
+        return None
+    try:
+        return QuietCache(folder or None)
+    except (OSError, RuntimeError):  # Jinja2 found no safe folder of the user's own
+        return None
+
+
 @functools.lru_cache(maxsize=None)
 def _environment() -> "jinja2.Environment":
     """The one Jinja2 environment of this process: it keeps each template it compiles, so later renders reuse it
-    (``auto_reload`` off: the installed templates do not change while lanesolve runs). Jinja2 is imported here, so
-    a run that writes no HTML (``lanesolve check``, the library without a summary) does not load it."""
+    (``auto_reload`` off: the installed templates do not change while lanesolve runs), and later processes reuse the
+    compiled code through :func:`_bytecode_cache`. Jinja2 is imported here, so a run that writes no HTML
+    (``lanesolve check``, the library without a summary) does not load it."""
     import jinja2
 
     return jinja2.Environment(
+        bytecode_cache=_bytecode_cache(),
         loader=jinja2.FileSystemLoader(str(template_folder())),
         autoescape=True,  # on for every template, whatever its extension: workbook names are untrusted text
         undefined=jinja2.StrictUndefined,  # a misspelt field fails loudly in tests instead of printing nothing
