@@ -168,9 +168,13 @@ def customer_penalties(network: Network) -> np.ndarray:
 
 
 def closed_nodes(network: Network) -> set[str]:
-    """Ids of depots and hubs with status ``closed``: they carry no flow."""
-    return set(network.depots.loc[network.depots["status"] == "closed", "id"]) | set(
-        network.hubs.loc[network.hubs["status"] == "closed", "id"])
+    """Ids of depots and hubs with status ``closed``: they carry no flow. (Compared as arrays: a run asks this a
+    few dozen times, and a pandas row selection costs more than the comparison on a small network.)"""
+    closed: set[str] = set()
+    for frame in (network.depots, network.hubs):
+        status = frame["status"].to_numpy(dtype=object)
+        closed.update(frame["id"].to_numpy(dtype=object)[status == "closed"].tolist())
+    return closed
 
 
 def effective_capacity(network: Network) -> np.ndarray:
