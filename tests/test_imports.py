@@ -59,3 +59,29 @@ def test_a_run_without_a_plan_still_loads_the_diagnosis_stack():
             "                   [{'origin': 'D', 'destination': 'C', 'cost_per_unit': 1}])\n"
             "assert solve_and_analyse(net).diagnosis is not None")
     assert "scipy.optimize" in modules_after(code, ON_DEMAND)
+
+
+#: SciPy, loaded only once a model is built or a plan's figures are computed: scipy.sparse for the matrix, csgraph
+#: (which loads scipy.linalg) for the shortest paths behind the figures.
+SCIPY_PARTS = ("scipy", "scipy.sparse", "scipy.sparse.csgraph", "scipy.linalg")
+
+
+def test_the_pipeline_and_the_commands_load_no_scipy_before_a_model_is_built():
+    assert modules_after("import lanesolve.pipeline, lanesolve.cli, lanesolve.batch", SCIPY_PARTS) == set()
+
+
+def test_a_workbook_with_errors_is_answered_without_scipy(tmp_path):
+    # A workbook whose customer has text for its demand stops at validation: the planner's fix-and-rerun loop.
+    from conftest import valid_sheets, write_workbook
+
+    sheets = valid_sheets()
+    sheets["Customers"][1][1] = "lots"
+    bad = write_workbook(tmp_path / "bad.xlsx", sheets)
+    good = write_workbook(tmp_path / "good.xlsx", valid_sheets())
+    code = ("from lanesolve import pipeline\nfrom lanesolve.errors import WorkbookError\n"
+            f"try:\n    pipeline.run({str(bad)!r}, write=False)\nexcept WorkbookError:\n    pass\n"
+            "else:\n    raise SystemExit('the bad workbook was accepted')")
+    assert modules_after(code, SCIPY_PARTS) == set()
+    # Guards the probe: the same run on the valid workbook builds a model and computes figures, and loads them.
+    assert modules_after(f"from lanesolve import pipeline\npipeline.run({str(good)!r}, write=False)",
+                         SCIPY_PARTS) == set(SCIPY_PARTS)

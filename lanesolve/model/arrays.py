@@ -9,11 +9,14 @@ who wants to export or inspect the model with PuLP. What a solver says back is a
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.sparse as sp
 
 from lanesolve.model.result import SolveStatus
+
+if TYPE_CHECKING:  # scipy.sparse is imported where the matrix is built: a run that stops at the workbook's errors
+    import scipy.sparse as sp  # (or `lanesolve check`) does not load SciPy
 
 
 @dataclass
@@ -241,6 +244,8 @@ class Assembly:
         rows = join([e[0] for e in self._entries], 0).astype(np.int64)
         columns = join([e[1] for e in self._entries], 0).astype(np.int64)
         values = join([e[2] for e in self._entries])
+        import scipy.sparse as sp
+
         # COO -> CSR sums duplicate entries; a zero (the bound of a lane at a closed node) is no entry at all.
         matrix = sp.coo_matrix((values, (rows, columns)), shape=(self.n_rows, self.n_columns)).tocsr()
         matrix.sum_duplicates()

@@ -31,7 +31,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-import scipy.sparse as sp
 
 from lanesolve.model.arrays import Block, SparseModel
 from lanesolve.model.network import Network
@@ -101,6 +100,8 @@ def with_emissions(model: SparseModel, network: Network, cap: float | None = Non
         model.costs["carbon"] = float(settings.carbon_price) * model.emission
     cap = settings.emissions_cap if cap is None else cap
     if cap is not None:
+        import scipy.sparse as sp  # here, not at the top: see lanesolve.model.arrays
+
         row = sp.csr_matrix(model.emission.reshape(1, -1))
         model.row_blocks["emissions_cap"] = Block("emissions_cap", model.n_rows, np.array([""], dtype=object))
         model.matrix = sp.vstack([model.matrix, row], format="csr")

@@ -28,7 +28,6 @@ import math
 
 import numpy as np
 import pandas as pd
-from scipy.sparse import coo_matrix
 
 from lanesolve.model.formulation import closed_nodes, customer_penalties
 from lanesolve.model.network import Network
@@ -132,6 +131,8 @@ def least_raises(network: Network) -> pd.DataFrame | None:
     for kind, _, _, column in raises:
         if kind != "short":
             objective[column] = 1.0
+    from scipy.sparse import coo_matrix  # late import, as linprog's below
+
     a_ub = coo_matrix((vals, (rows, cols)), shape=(len(b_ub), n_cols)).tocsr() if b_ub else None
     a_eq = coo_matrix((eq_vals, (eq_rows, eq_cols)), shape=(len(b_eq), n_cols)).tocsr() if b_eq else None
     from scipy.optimize import linprog  # late import: scipy.optimize (a tenth of a second) only when no plan exists

@@ -54,8 +54,6 @@ import math
 
 import numpy as np
 import pandas as pd
-from scipy.sparse import csr_matrix
-from scipy.sparse.csgraph import dijkstra
 
 from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow, _reduced_words_rows,  # noqa: F401
                                          arrow_column, figure_frame, money_words, two_sided_rows)
@@ -112,6 +110,7 @@ class _Graph:
         self.forward = _csr(self.n_nodes, self.r_tail, self.r_head, weight, _grouped(self.r_tail, self.n_nodes))
         self.backward = _csr(self.n_nodes, self.r_head, self.r_tail, weight, by_head)
         phi, root = self.potentials, self.root
+        from scipy.sparse.csgraph import dijkstra  # late imports: csgraph loads scipy.linalg; only plans need it
         self.from_root = dijkstra(self.forward, indices=root) - phi[root] + phi
         self.to_root = dijkstra(self.backward, indices=root) - phi + phi[root]
 
@@ -169,6 +168,7 @@ class _Graph:
             group = by_limit[chunk:chunk + 64]
             stop = float(limit[group].max())
             stop = np.inf if not np.isfinite(stop) else stop + SAME * max(1.0, abs(stop)) + 1e-9
+            from scipy.sparse.csgraph import dijkstra
             rows = dijkstra(graph, indices=unique[group], limit=stop)
             pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
             found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
@@ -216,6 +216,7 @@ def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray, order: 
     """A CSR graph keeping explicit zero weights (csgraph treats them as arcs) and parallel arcs (csgraph's
     shortest-path routines take the cheapest of repeated entries, as its documentation says); ``order`` is
     :func:`_grouped` of ``tail``."""
+    from scipy.sparse import csr_matrix
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(np.bincount(tail, minlength=n), out=indptr[1:])
     return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
