@@ -15,7 +15,10 @@ where ``PYTHONDONTWRITEBYTECODE`` is set (as on the shared build machine) compil
 every process, about 0.2 CPU-s. By default the child processes get a bytecode cache of their own
 (``PYTHONPYCACHEPREFIX`` in a temporary folder, ``PYTHONDONTWRITEBYTECODE`` unset) and one uncounted warm-up run per
 workbook fills it, so the figures are those of an installed lanesolve; ``--no-bytecode-cache`` runs the processes
-in the environment as it is.
+in the environment as it is. The compiled HTML template is kept the same way: with the bytecode cache, each source
+gets a template cache of its own in the temporary folder (``LANESOLVE_TEMPLATE_CACHE``), filled by the warm-up run
+as the first run on a planner's machine fills Jinja2's; without it, the environment's (by default Jinja2's folder
+under the temporary folder) is used as it is.
 
 Before and after: ``--sources A,B`` runs the lanesolve of each source folder (a checkout or a ``git archive`` of a
 commit, put first on the processes' ``PYTHONPATH``) in turn, one run of each per round, so that a change of load on
@@ -109,6 +112,8 @@ def main(argv: list[str] | None = None) -> int:
                 env["PYTHONPATH"] = os.pathsep.join(filter(None, [source, env.get("PYTHONPATH")]))
             if not args.no_bytecode_cache:  # one cache per source: the same module paths would mix otherwise
                 env["PYTHONPYCACHEPREFIX"] = str(Path(folder) / f"bytecode-{number}")
+                env["LANESOLVE_TEMPLATE_CACHE"] = str(Path(folder) / f"templates-{number}")
+                Path(env["LANESOLVE_TEMPLATE_CACHE"]).mkdir()
             envs.append(env)
         for name, book in books.items():
             if not args.no_bytecode_cache:

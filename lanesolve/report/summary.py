@@ -507,8 +507,10 @@ def _bytecode_cache() -> "jinja2.BytecodeCache | None":
     if folder.lower() in ("off", "no", "0"):
         return None
     try:
+        if folder:
+            os.makedirs(folder, exist_ok=True)
         return QuietCache(folder or None)
-    except (OSError, RuntimeError):  # Jinja2 found no safe folder of the user's own
+    except (OSError, RuntimeError):  # no folder to be made there, or Jinja2 found no safe folder of the user's own
         return None
 
 
