@@ -51,6 +51,7 @@ distinct nodes.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
@@ -60,6 +61,9 @@ from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow
 from lanesolve.model.formulation import closed_nodes, customer_penalties
 from lanesolve.model.network import Network
 from lanesolve.model.result import SENSITIVITY_COLUMNS
+
+if TYPE_CHECKING:
+    from scipy.sparse import csr_matrix
 
 #: Flows within this of a bound count as at the bound (relative to max(1, |bound|)).
 TOLERANCE = 1e-7

@@ -487,8 +487,8 @@ def _bytecode_cache() -> "jinja2.BytecodeCache | None":
     file-system bytecode cache keeps the compiled code keyed by template name and source checksum (an edited
     template is compiled afresh), by default in a folder of the user's own under the temporary folder that Jinja2
     creates with owner-only access. ``LANESOLVE_TEMPLATE_CACHE`` names another folder (one only the user can write:
-    it holds code that runs), or ``off`` for none. A
-    cache that cannot be read or written is passed over: the template is then compiled as before."""
+    it holds code that runs), or ``off`` for none. A cache that cannot be read or written is passed over: the
+    template is then compiled as before."""
     import jinja2
 
     class QuietCache(jinja2.FileSystemBytecodeCache):
