@@ -128,26 +128,63 @@ class FacilityProblem:
         return value
 
 
-def _one_entry_per_column(model: SparseModel, prefix: str, n_flow: int) -> np.ndarray | None:
-    """Row number (within family ``prefix``) of each flow column's single +1 entry there, or None when any flow
-    column has another pattern (a lane leaving a customer, say)."""
-    block = model.row_blocks.get(prefix)
-    if block is None:
-        return None
-    part = model.matrix[block.start:block.stop, :n_flow].tocoo()
+def _one_entry_per_column(model: SparseModel, prefixes: tuple[str, ...], n_flow: int) -> tuple[np.ndarray, list]:
+    """Row number (within the rows of families ``prefixes``, taken in that order) of each flow column's single +1
+    entry there, and the rows' (prefix, position) pairs; None for the first when any flow column has another
+    pattern (a lane leaving a customer, say)."""
+    rows = [(prefix, position) for prefix in prefixes if prefix in model.row_blocks
+            for position in range(model.row_blocks[prefix].start, model.row_blocks[prefix].stop)]
+    if not rows:
+        return None, rows
+    part = model.matrix[[position for _, position in rows], :n_flow].tocoo()
     if len(part.col) != n_flow or not np.array_equal(np.sort(part.col), np.arange(n_flow)) \
             or not np.all(part.data == 1.0):
-        return None
+        return None, rows
     row = np.empty(n_flow, dtype=np.int64)
     row[part.col] = part.row
-    return row
+    return row, rows
+
+
+def _depots(model: SparseModel, n_flow: int):
+    """Each flow column's depot, and per depot its supply and open/close column (-1 for a depot marked open), or
+    None when the lanes do not each leave one depot.
+
+    A depot marked open has a ``supply_`` row (net outflow <= supply); a depot to decide has none, its
+    ``open_out_depot_`` row (net outflow <= supply * open) states both, and its supply is minus its open column's
+    coefficient there. A depot to decide with no lane stays closed: it is left out.
+    """
+    lane_row, rows = _one_entry_per_column(model, ("supply_", "open_out_depot_"), n_flow)
+    if lane_row is None:
+        return None
+    opened = model.columns("open_depot_")
+    column_of = dict(zip(model.ids("open_depot_").tolist(), range(opened.start, opened.stop)))
+    links = model.matrix[[position for _, position in rows], opened.start:opened.stop].tocoo()
+    link_value = np.zeros(len(rows))
+    link_column = np.full(len(rows), -1, dtype=np.int64)
+    link_value[links.row] = -links.data
+    link_column[links.row] = links.col + opened.start
+    supply = np.empty(len(rows))
+    open_column = np.full(len(rows), -1, dtype=np.int64)
+    for k, (prefix, position) in enumerate(rows):
+        if prefix == "supply_":
+            supply[k] = model.row_upper[position]
+        else:
+            column = column_of.get(int(model.row_blocks[prefix].ids[position - model.row_blocks[prefix].start]), -2)
+            if column < 0 or model.row_upper[position] != 0 or link_column[k] not in (column, -1):
+                return None  # not the row the formulation writes: leave the model to the engines
+            supply[k], open_column[k] = link_value[k], column  # no entry: a supply of 0 (zeros are not stored)
+    kept = np.bincount(lane_row, minlength=len(rows)) > 0
+    kept |= open_column < 0  # a depot marked open keeps its (lane-less) row as it did
+    renumber = np.cumsum(kept) - 1
+    return renumber[lane_row], supply[kept].astype(float), open_column[kept]
 
 
 def recognise(model: SparseModel) -> FacilityProblem | None:
     """The model as a :class:`FacilityProblem`, or None when it is not one (module docstring, *Which models*).
 
     Judged from the model alone: its column and row families, the whole-number columns (the open/close columns and
-    nothing else), and each lane's entries (one +1 in a depot's supply row, one +1 in a customer's balance row).
+    nothing else), and each lane's entries (one +1 in a depot's ``supply_`` or ``open_out_depot_`` row, one +1 in a
+    customer's balance row).
     """
     if model.product_columns is not None or len(getattr(model.lane_cost_terms, "columns", ())):
         return None
@@ -164,15 +201,15 @@ def recognise(model: SparseModel) -> FacilityProblem | None:
     n_flow = flows.stop
     if flows.start != 0 or n_flow == 0:
         return None
-    depot_row = _one_entry_per_column(model, "supply_", n_flow)
-    customer_row = _one_entry_per_column(model, "balance_", n_flow)
-    if depot_row is None or customer_row is None:
+    depots = _depots(model, n_flow)
+    customer_row, _ = _one_entry_per_column(model, ("balance_",), n_flow)
+    if depots is None or customer_row is None:
         return None
-    supply_rows, balance_rows = model.row_blocks["supply_"], model.row_blocks["balance_"]
+    depot_row, supply, open_column = depots
+    balance_rows = model.row_blocks["balance_"]
     demand = model.row_upper[balance_rows.start:balance_rows.stop]
     if not np.array_equal(model.row_lower[balance_rows.start:balance_rows.stop], demand):
         return None
-    supply = model.row_upper[supply_rows.start:supply_rows.stop].astype(float)
     cost = model.cost
     n_customers = len(demand)
 
@@ -184,14 +221,7 @@ def recognise(model: SparseModel) -> FacilityProblem | None:
         at = np.array([customer_of[int(c)] for c in model.ids("unmet_").tolist()], dtype=np.int64)
         unmet_column[at] = np.arange(short.start, short.stop)
         penalty[at] = cost[short]
-
-    depot_of = {int(d): k for k, d in enumerate(supply_rows.ids.tolist())}
-    open_column = np.full(len(supply), -1, dtype=np.int64)
-    fixed = np.zeros(len(supply))
-    for column, depot in zip(range(opened.start, opened.stop), model.ids("open_depot_").tolist()):
-        if int(depot) in depot_of:  # a depot to decide with no lane stays closed
-            open_column[depot_of[int(depot)]] = column
-            fixed[depot_of[int(depot)]] = cost[column]
+    fixed = np.where(open_column >= 0, cost[np.maximum(open_column, 0)], 0.0)
 
     upper = np.minimum(model.upper[:n_flow], demand[customer_row])
     usable = upper > 0
