@@ -25,7 +25,9 @@ Time limit
 The engine gets the whole limit (or the time to a ``deadline``; CBC less the seconds it may take to stop,
 :func:`engine_deadline`). Only when a MIP engine stops without a plan does :mod:`lanesolve.model.construct` build one,
 in at most :func:`construction_seconds` past the limit (status ``feasible``, its gap against the best bound known); a
-pure flow an LP engine could not finish goes to the network algorithm.
+pure flow an LP engine could not finish goes to the network algorithm. Under ``auto``, a single-source facility
+plan the engine stopped on without proving it (:mod:`lanesolve.model.assign_search`) gets those seconds instead for
+a search that keeps only a cheaper plan: the engine keeps its whole limit, so every proof it would find stands.
 
 Each maps its own words to one :class:`~lanesolve.model.result.SolveStatus` (tables in those modules): a MIP stopped
 by the time limit with a plan in hand is ``feasible`` with its gap, never ``optimal``; an LP stopped early is
@@ -44,7 +46,7 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.errors import SolverError
-from lanesolve.model import lane_search, network_flow
+from lanesolve.model import assign_search, lane_search, network_flow
 from lanesolve.model import carrier_results, lagrangian
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
@@ -435,6 +437,14 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
             if better is not None:
                 answer.value, answer.gap = better, None
                 answer.solver = f"{answer.solver}; plan improved by lane search"
+        elif solver == "auto" and end is not None and answer.status is SolveStatus.FEASIBLE and not constructed:
+            # A single-source facility plan the engine did not prove: the assignment search may take the
+            # construction's seconds past the limit (module docstring, *Time limit*).
+            better = assign_search.improve(model, plan_values(network, model, answer.value),
+                                           end + construction_seconds(allowed))
+            if better is not None:
+                answer.value, answer.gap = better, None
+                answer.solver = f"{answer.solver}; plan improved by assignment search"
         # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
         solver_seconds = time.perf_counter() - tick
 
