@@ -118,6 +118,15 @@ def read_assignment(model, inst: dict, values: np.ndarray) -> np.ndarray:
     return depot_of
 
 
+def search_from_greedy(inst: dict, seconds: float):
+    """The model of ``inst``, the cost of the greedy start (from the instance's arrays) and what the search makes
+    of that start in at most ``seconds``."""
+    model = build_sparse_model(network(inst))
+    start = greedy_start(inst)
+    better = assign_search.improve(model, model_values(model, inst, start), time.monotonic() + seconds)
+    return model, assignment_cost(inst, start), better
+
+
 def test_recognise_takes_the_single_source_model_only_when_asked():
     inst = instance(1, 4, 10)
     model = build_sparse_model(network(inst))
@@ -143,12 +152,9 @@ def test_split_deliveries_are_not_searched():
 
 @pytest.mark.parametrize("seed", range(4))
 def test_small_instances_reach_the_milp_optimum_from_a_poor_start(seed):
-    # 6 depots: the first neighbourhood frees all of them, so the search ends at a proven optimum by itself.
+    # 6 depots: a neighbourhood of 8 depots frees all of them, so the search ends at a proven optimum by itself.
     inst = instance(10 + seed, 6, 18)
-    model = build_sparse_model(network(inst))
-    start = greedy_start(inst)
-    start_cost = assignment_cost(inst, start)
-    better = assign_search.improve(model, model_values(model, inst, start), time.monotonic() + 60)
+    model, start_cost, better = search_from_greedy(inst, 60)
     optimum = milp_optimum(inst)  # source: SciPy milp (HiGHS), proven optimum of the textbook formulation
     assert optimum < start_cost - TOL  # the start is poor, so the search has something to find
     assert better is not None
@@ -162,10 +168,7 @@ def test_local_moves_alone_never_worsen_the_start_nor_pass_the_optimum(monkeypat
     # Without the neighbourhood MIPs only the shift, swap, close and open moves run.
     monkeypatch.setattr(assign_search, "_rebuild", lambda *args: False)
     inst = instance(20 + seed, 8, 30)
-    model = build_sparse_model(network(inst))
-    start = greedy_start(inst)
-    start_cost = assignment_cost(inst, start)
-    better = assign_search.improve(model, model_values(model, inst, start), time.monotonic() + 30)
+    model, start_cost, better = search_from_greedy(inst, 30)
     optimum = milp_optimum(inst)  # source: SciPy milp (HiGHS)
     cost = start_cost if better is None else assignment_cost(inst, read_assignment(model, inst, better))
     assert optimum - TOL <= cost <= start_cost + TOL
@@ -176,10 +179,7 @@ def test_larger_instances_end_between_the_optimum_and_the_start(seed):
     # 11 depots: neighbourhoods free 8 of them, so the search is a heuristic here; it stops on its own once every
     # open depot has centred a neighbourhood of every size in vain, or at the deadline (5 s here).
     inst = instance(30 + seed, 11, 30)
-    model = build_sparse_model(network(inst))
-    start = greedy_start(inst)
-    start_cost = assignment_cost(inst, start)
-    better = assign_search.improve(model, model_values(model, inst, start), time.monotonic() + 5)
+    model, start_cost, better = search_from_greedy(inst, 5)
     optimum = milp_optimum(inst)  # source: SciPy milp (HiGHS)
     assert better is not None
     cost = assignment_cost(inst, read_assignment(model, inst, better))
