@@ -209,6 +209,13 @@ class Assignment:
                 self._move(int(s[k]), depot)
 
 
+def applies(model: SparseModel) -> bool:
+    """Whether :func:`improve` searches plans of ``model``: a single-source facility model small enough for its
+    tables."""
+    problem = recognise(model, single_source=True)
+    return problem is not None and problem.n_depots * len(problem.demand) <= MOST_PAIRS
+
+
 def improve(model: SparseModel, values: np.ndarray, end: float, seed: int = KICK_SEED) -> np.ndarray | None:
     """A cheaper plan than ``values`` (the model's column values of a feasible plan) by the search of the module
     docstring before :func:`time.monotonic` reaches ``end``; None when it found none or does not apply.
