@@ -102,3 +102,59 @@ def test_near_miss_advice_needs_no_search_beyond_the_rows_when_they_settle_it(mo
     monkeypatch.setattr(UnusedLanes, "nearest_above", refuse)
     assert len(expected) == advice.TOP
     assert advice._near_misses(shown, "units", "") == expected
+
+
+def _plan_graph(monkeypatch, net):
+    """The plan's graph that :func:`analyse_plan` builds for ``net``'s plan."""
+    from lanesolve.model import sensitivity
+
+    kept = []
+    finish = sensitivity._Graph.finish
+
+    def keep(self):
+        finish(self)
+        kept.append(self)
+
+    monkeypatch.setattr(sensitivity._Graph, "finish", keep)
+    analyse_plan(net, solve(net))
+    return kept[-1]
+
+
+def _networkx_distances(graph, sources):
+    """Residual distances from each of ``sources`` by networkx's Bellman-Ford on the residual arcs and their own
+    costs (no potentials, no reduced costs): the reference, independent of lanesolve's searches."""
+    import networkx as nx
+
+    residual = nx.DiGraph()
+    residual.add_nodes_from(range(graph.n_nodes))
+    for t, h, c in zip(graph.r_tail.tolist(), graph.r_head.tolist(), graph.r_cost.tolist()):
+        if not residual.has_edge(t, h) or residual[t][h]["weight"] > c:  # parallel arcs: the cheapest counts
+            residual.add_edge(t, h, weight=c)
+    return {s: nx.single_source_bellman_ford_path_length(residual, s) for s in sources}
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_searches_shared_by_a_class_of_zero_reduced_cost_equal_networkx(monkeypatch, seed):
+    # Ends joined both ways by zero reduced cost share one search from their class's delegate; every distance
+    # found so must equal the residual distance networkx's Bellman-Ford finds from the end itself.
+    graph = _plan_graph(monkeypatch, meshed(seed))
+    rng = np.random.default_rng(seed)
+    delegate = graph.delegate
+    joined = np.flatnonzero(np.bincount(delegate, minlength=graph.n_nodes)[delegate] > 1)
+    # Pairs from nodes of classes of several nodes (the rule at work) and from any node, to any node.
+    a = np.concatenate([rng.choice(joined, 30), rng.integers(0, graph.n_nodes, 10)])
+    b = rng.integers(0, graph.n_nodes, len(a))
+    assert (delegate[a] != a).sum() >= 5, "too few ends with another delegate: the test would prove little"
+    inside = joined[delegate[joined] != joined][:20]
+    reference = _networkx_distances(graph, np.unique(np.concatenate([a, b, inside])).tolist())
+    for s, t in ((a, b), (b, a)):  # searched forward from a and backward from b, whichever has fewer classes
+        want = np.array([reference[u].get(v, np.inf) for u, v in zip(s.tolist(), t.tolist())])
+        found = graph.searched(s, t, np.full(len(s), np.inf))
+        reached = np.isfinite(want)
+        assert reached.sum() >= 10, "too few pairs joined by a residual path: the test would prove little"
+        assert (np.isfinite(found) == reached).all()
+        np.testing.assert_allclose(found[reached], want[reached], rtol=0, atol=1e-9)
+    # Within a class the residual distance to the delegate is the difference of potentials (zero reduced cost).
+    for u in inside.tolist():
+        v = int(delegate[u])
+        assert reference[u][v] == pytest.approx(graph.potentials[v] - graph.potentials[u], abs=1e-9)

@@ -55,7 +55,7 @@ import math
 import numpy as np
 import pandas as pd
 from scipy.sparse import csr_matrix
-from scipy.sparse.csgraph import dijkstra
+from scipy.sparse.csgraph import connected_components, dijkstra
 
 from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow, _reduced_words_rows,  # noqa: F401
                                          arrow_column, figure_frame, money_words, two_sided_rows)
@@ -111,6 +111,7 @@ class _Graph:
         weight = np.maximum(self.r_cost + self.potentials[self.r_tail] - self.potentials[self.r_head], 0.0)
         self.forward = _csr(self.n_nodes, self.r_tail, self.r_head, weight, _grouped(self.r_tail, self.n_nodes))
         self.backward = _csr(self.n_nodes, self.r_head, self.r_tail, weight, by_head)
+        self.delegate = _zero_components(self.n_nodes, self.r_tail, self.r_head, weight)
         phi, root = self.potentials, self.root
         self.from_root = dijkstra(self.forward, indices=root) - phi[root] + phi
         self.to_root = dijkstra(self.backward, indices=root) - phi + phi[root]
@@ -146,7 +147,10 @@ class _Graph:
         """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct nodes, each
         search stopped at the largest bound of its pairs (``upper``, and ``cap`` where given; in reduced costs):
         a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
-        come back inf."""
+        come back inf.
+
+        Ends joined both ways by paths of zero reduced cost share one search (:func:`_zero_components`): their
+        reduced distances to (and from) every node are the same, so the search starts from their delegate."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
         phi = self.potentials
         out = np.full(len(a), np.inf)
@@ -156,9 +160,10 @@ class _Graph:
         wanted = ~(reach < 0)  # a negative reduced bound: the pair is beyond its cap (reduced distances are >= 0)
         a_, b_, reach = a[wanted], b[wanted], reach[wanted]
         sources, targets, graph = a_, b_, self.forward
-        if len(np.unique(targets)) < len(np.unique(sources)):  # search from the fewer distinct ends
+        delegate = self.delegate
+        if len(np.unique(delegate[targets])) < len(np.unique(delegate[sources])):  # from the fewer distinct ends
             sources, targets, graph = b_, a_, self.backward
-        unique, which = np.unique(sources, return_inverse=True)
+        unique, which = np.unique(delegate[sources], return_inverse=True)
         limit = np.full(len(unique), -np.inf)
         np.maximum.at(limit, which, reach)
         by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
@@ -219,6 +224,22 @@ def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray, order: 
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(np.bincount(tail, minlength=n), out=indptr[1:])
     return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
+
+
+def _zero_components(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> np.ndarray:
+    """Per node, the delegate of its class: nodes joined both ways by paths of residual arcs of zero reduced cost
+    (the strongly connected components of those arcs) share one delegate, the lowest node of the class.
+
+    Within a class every reduced distance is 0 both ways, so d'(u, v) = d'(delegate(u), v) and d'(v, u) =
+    d'(v, delegate(u)) for every node v (reduced distances d', non-negative: u -> delegate -> v costs no more
+    than delegate -> v, and delegate -> u -> v no more than u -> v). Between optimal potentials every arc with flow
+    strictly between its bounds has zero reduced cost both ways, so the classes gather the nodes the plan's flow
+    joins: on a meshed network the lanes at capacity end in a few dozen classes instead of hundreds of nodes."""
+    zero = weight == 0.0
+    graph = csr_matrix((np.ones(int(zero.sum()), dtype=np.int8), (tail[zero], head[zero])), shape=(n, n))
+    _, label = connected_components(graph, directed=True, connection="strong")
+    _, lowest = np.unique(label, return_index=True)  # the first node of each class, as labels are numbered
+    return lowest[label].astype(np.int64)
 
 
 def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray, order: np.ndarray) -> np.ndarray:
