@@ -68,6 +68,11 @@ TOLERANCE = 1e-7
 #: How many rows of each figure the HTML summary should show (the sheet and JSON carry all).
 TOP_FEW = 5
 
+#: Landmarks beside the root whose trees bound the distances on a meshed network, and how many pairs the root's
+#: trees must leave open before they are made (two searches each: worth it only where many searches would follow).
+LANDMARKS = 4
+LANDMARKS_AFTER = 64
+
 LP_BASIS = "LP"
 FIXED_BASIS = "LP with the plan's yes/no and trip decisions fixed"
 
@@ -109,12 +114,36 @@ class _Graph:
         by_head = _grouped(self.r_head, self.n_nodes)
         self.potentials = _bellman_ford(self.n_nodes, self.r_tail, self.r_head, self.r_cost, by_head)
         weight = np.maximum(self.r_cost + self.potentials[self.r_tail] - self.potentials[self.r_head], 0.0)
-        self.forward = _csr(self.n_nodes, self.r_tail, self.r_head, weight, _grouped(self.r_tail, self.n_nodes))
-        self.backward = _csr(self.n_nodes, self.r_head, self.r_tail, weight, by_head)
-        self.delegate = _zero_components(self.n_nodes, self.r_tail, self.r_head, weight)
+        # Searches run on the classes of nodes joined both ways at zero reduced cost, one graph node per class.
+        label, n_classes = _zero_classes(self.n_nodes, self.r_tail, self.r_head, weight)
+        between = label[self.r_tail] != label[self.r_head]
+        tail_c, head_c, weight = label[self.r_tail][between], label[self.r_head][between], weight[between]
+        self.forward = _csr(n_classes, tail_c, head_c, weight, _grouped(tail_c, n_classes))
+        self.backward = _csr(n_classes, head_c, tail_c, weight, _grouped(head_c, n_classes))
+        self.label = label
         phi, root = self.potentials, self.root
-        self.from_root = dijkstra(self.forward, indices=root) - phi[root] + phi
-        self.to_root = dijkstra(self.backward, indices=root) - phi + phi[root]
+        self.from_root = dijkstra(self.forward, indices=label[root])[label] - phi[root] + phi
+        self.to_root = dijkstra(self.backward, indices=label[root])[label] - phi + phi[root]
+        # (d(L, .), d(., L)) of each landmark L, the root first; more when the root's leave many pairs open.
+        self.trees = [(self.from_root, self.to_root)]
+        self.landmarked = False
+
+    def _add_landmarks(self) -> None:
+        """The two trees of a node in each of the :data:`LANDMARKS` largest classes (beside the root's): the classes
+        the plan's flow joins, in the middle of the mesh, from and to which many paths run (the landmark bounds of
+        A. V. Goldberg and C. Harrelson, "Computing the shortest path: A* search meets graph theory", SODA 2005)."""
+        self.landmarked = True
+        label, phi = self.label, self.potentials
+        size = np.bincount(label)
+        size[label[self.root]] = 0
+        chosen = np.argsort(-size, kind="stable")[:LANDMARKS]
+        chosen = chosen[size[chosen] > 0]
+        if not len(chosen):
+            return
+        node = np.unique(label, return_index=True)[1][chosen]  # the first node of each chosen class
+        away, back = dijkstra(self.forward, indices=chosen), dijkstra(self.backward, indices=chosen)
+        for k, at in enumerate(node):
+            self.trees.append((away[k][label] - phi[at] + phi, back[k][label] - phi + phi[at]))
 
     def distance(self, a: np.ndarray, b: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
         """Exact residual distances d(a[k], b[k]) (inf where b cannot be reached from a); see the module docstring.
@@ -130,17 +159,22 @@ class _Graph:
         return out
 
     def bounds(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the root's two trees: the upper bound
-        d(a, R) + d(R, b) is a path through the root; the lower bounds are phi_b - phi_a, d(R, b) - d(R, a) and
-        d(a, R) - d(b, R); where they meet, the distance is exact."""
+        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the trees of the root (and of the
+        landmarks, added once the root's leave more than :data:`LANDMARKS_AFTER` pairs open): for each landmark L
+        the upper bound d(a, L) + d(L, b) is a path through L; the lower bounds are phi_b - phi_a,
+        d(L, b) - d(L, a) and d(a, L) - d(b, L) (triangle inequalities); where they meet, the distance is exact."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
-        phi, up_r, down_r = self.potentials, self.from_root, self.to_root
         with np.errstate(invalid="ignore"):
-            upper = down_r[a] + up_r[b]
-            lower = phi[b] - phi[a]
-            for low in (up_r[b] - up_r[a], down_r[a] - down_r[b]):
-                lower = np.where(np.isfinite(low) & (low > lower), low, lower)
+            upper = np.full(len(a), math.inf)
+            lower = self.potentials[b] - self.potentials[a]
+            for away, back in self.trees:
+                upper = np.fmin(upper, back[a] + away[b])
+                for low in (away[b] - away[a], back[a] - back[b]):
+                    lower = np.where(np.isfinite(low) & (low > lower), low, lower)
             exact = np.isfinite(upper) & (upper - lower <= SAME * np.maximum(1.0, np.abs(upper)))
+        if not self.landmarked and (~exact).sum() > LANDMARKS_AFTER:
+            self._add_landmarks()
+            return self.bounds(a, b)
         return lower, upper, exact
 
     def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
@@ -149,8 +183,8 @@ class _Graph:
         a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
         come back inf.
 
-        Ends joined both ways by paths of zero reduced cost share one search (:func:`_zero_components`): their
-        reduced distances to (and from) every node are the same, so the search starts from their delegate."""
+        The searches run between classes of nodes joined both ways by paths of zero reduced cost
+        (:func:`_zero_classes`): ends in one class share one search, and a class is reached as one node."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
         phi = self.potentials
         out = np.full(len(a), np.inf)
@@ -160,10 +194,11 @@ class _Graph:
         wanted = ~(reach < 0)  # a negative reduced bound: the pair is beyond its cap (reduced distances are >= 0)
         a_, b_, reach = a[wanted], b[wanted], reach[wanted]
         sources, targets, graph = a_, b_, self.forward
-        delegate = self.delegate
-        if len(np.unique(delegate[targets])) < len(np.unique(delegate[sources])):  # from the fewer distinct ends
+        label = self.label
+        if len(np.unique(label[targets])) < len(np.unique(label[sources])):  # from the fewer distinct classes
             sources, targets, graph = b_, a_, self.backward
-        unique, which = np.unique(delegate[sources], return_inverse=True)
+        unique, which = np.unique(label[sources], return_inverse=True)
+        targets = label[targets]
         limit = np.full(len(unique), -np.inf)
         np.maximum.at(limit, which, reach)
         by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
@@ -226,20 +261,21 @@ def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray, order: 
     return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
 
 
-def _zero_components(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> np.ndarray:
-    """Per node, the delegate of its class: nodes joined both ways by paths of residual arcs of zero reduced cost
-    (the strongly connected components of those arcs) share one delegate, the lowest node of the class.
+def _zero_classes(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> tuple[np.ndarray, int]:
+    """(class of each node, number of classes): nodes joined both ways by paths of residual arcs of zero reduced
+    cost share a class (the strongly connected components of those arcs).
 
-    Within a class every reduced distance is 0 both ways, so d'(u, v) = d'(delegate(u), v) and d'(v, u) =
-    d'(v, delegate(u)) for every node v (reduced distances d', non-negative: u -> delegate -> v costs no more
-    than delegate -> v, and delegate -> u -> v no more than u -> v). Between optimal potentials every arc with flow
+    Within a class every reduced distance is 0 both ways, so the reduced distance d'(u, v) depends only on the
+    classes of u and v, and equals the distance between the classes in the graph with one node per class and the
+    arcs between classes (reduced costs are non-negative: entering a class at one node and leaving at another costs
+    nothing more, and arcs inside a class never shorten a path). Between optimal potentials every arc with flow
     strictly between its bounds has zero reduced cost both ways, so the classes gather the nodes the plan's flow
-    joins: on a meshed network the lanes at capacity end in a few dozen classes instead of hundreds of nodes."""
+    joins: on a meshed network the lanes at capacity end in a few dozen classes instead of hundreds of nodes, and a
+    search reaches a class of thousands of nodes as one node."""
     zero = weight == 0.0
     graph = csr_matrix((np.ones(int(zero.sum()), dtype=np.int8), (tail[zero], head[zero])), shape=(n, n))
-    _, label = connected_components(graph, directed=True, connection="strong")
-    _, lowest = np.unique(label, return_index=True)  # the first node of each class, as labels are numbered
-    return lowest[label].astype(np.int64)
+    count, label = connected_components(graph, directed=True, connection="strong")
+    return label.astype(np.int64), int(count)
 
 
 def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray, order: np.ndarray) -> np.ndarray:
