@@ -159,22 +159,21 @@ class _Graph:
         return out
 
     def bounds(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the trees of the root (and of the
-        landmarks, added once the root's leave more than :data:`LANDMARKS_AFTER` pairs open): for each landmark L
-        the upper bound d(a, L) + d(L, b) is a path through L; the lower bounds are phi_b - phi_a,
-        d(L, b) - d(L, a) and d(a, L) - d(b, L) (triangle inequalities); where they meet, the distance is exact."""
+        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the trees of the root, then of the
+        landmarks for the pairs the root's leave open (the landmarks are made once the root's trees leave more than
+        :data:`LANDMARKS_AFTER` pairs open): for each tree's node L the upper bound d(a, L) + d(L, b) is a path
+        through L; the lower bounds are phi_b - phi_a, d(L, b) - d(L, a) and d(a, L) - d(b, L) (triangle
+        inequalities); where they meet, the distance is exact."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
-        with np.errstate(invalid="ignore"):
-            upper = np.full(len(a), math.inf)
-            lower = self.potentials[b] - self.potentials[a]
-            for away, back in self.trees:
-                upper = np.fmin(upper, back[a] + away[b])
-                for low in (away[b] - away[a], back[a] - back[b]):
-                    lower = np.where(np.isfinite(low) & (low > lower), low, lower)
-            exact = np.isfinite(upper) & (upper - lower <= SAME * np.maximum(1.0, np.abs(upper)))
-        if not self.landmarked and (~exact).sum() > LANDMARKS_AFTER:
+        lower, upper = _tightened(self.trees[:1], a, b, self.potentials[b] - self.potentials[a],
+                                  np.full(len(a), math.inf))
+        exact = _met(lower, upper)
+        todo = np.flatnonzero(~exact)
+        if not self.landmarked and len(todo) > LANDMARKS_AFTER:
             self._add_landmarks()
-            return self.bounds(a, b)
+        if len(todo) and len(self.trees) > 1:
+            lower[todo], upper[todo] = _tightened(self.trees[1:], a[todo], b[todo], lower[todo], upper[todo])
+            exact[todo] = _met(lower[todo], upper[todo])
         return lower, upper, exact
 
     def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
@@ -259,6 +258,23 @@ def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray, order: 
     indptr = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(np.bincount(tail, minlength=n), out=indptr[1:])
     return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
+
+
+def _tightened(trees: list, a: np.ndarray, b: np.ndarray, lower: np.ndarray,
+               upper: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``lower`` and ``upper`` bounds of d(a, b) tightened by the ``trees`` (d(L, .), d(., L)) of nodes L."""
+    with np.errstate(invalid="ignore"):
+        for away, back in trees:
+            upper = np.fmin(upper, back[a] + away[b])
+            for low in (away[b] - away[a], back[a] - back[b]):
+                lower = np.where(np.isfinite(low) & (low > lower), low, lower)
+    return lower, upper
+
+
+def _met(lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    """Where a finite upper bound meets the lower bound (within :data:`SAME`): the distance is exact."""
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(upper) & (upper - lower <= SAME * np.maximum(1.0, np.abs(upper)))
 
 
 def _zero_classes(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> tuple[np.ndarray, int]:
