@@ -190,3 +190,21 @@ def test_landmark_bounds_hold_against_networkx(monkeypatch, seed):
     np.testing.assert_allclose(upper[exact], want[exact], rtol=0, atol=1e-9)
     # The landmarks must settle or tighten pairs the root's trees left open, else the test would prove little.
     assert (exact & ~root_exact).sum() >= 5 and (lower > root_lower + 1e-9).any()
+
+
+@pytest.mark.parametrize("seed,tight", [(0, False), (1, True), (2, True), (5, False)])
+def test_potentials_equal_networkx_distances_from_a_virtual_source(monkeypatch, seed, tight):
+    # Bellman-Ford relaxes, after its first round, only arcs whose tail moved; the potentials must still be the
+    # shortest distances from a virtual source joined to every node at cost 0, as networkx's Bellman-Ford finds.
+    import networkx as nx
+
+    graph = _plan_graph(monkeypatch, meshed(seed, tight=tight))
+    residual = nx.DiGraph()
+    residual.add_edges_from((-1, v, {"weight": 0.0}) for v in range(graph.n_nodes))
+    for t, h, c in zip(graph.r_tail.tolist(), graph.r_head.tolist(), graph.r_cost.tolist()):
+        if not residual.has_edge(t, h) or residual[t][h]["weight"] > c:
+            residual.add_edge(t, h, weight=c)
+    reference = nx.single_source_bellman_ford_path_length(residual, -1)
+    want = np.array([reference[v] for v in range(graph.n_nodes)])
+    assert (want < -1).sum() >= 10, "too few nodes below the virtual source's 0: the test would prove little"
+    np.testing.assert_allclose(graph.potentials, want, rtol=0, atol=1e-9)
