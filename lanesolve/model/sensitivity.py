@@ -293,7 +293,8 @@ def _zero_classes(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray
     joins: on a meshed network the lanes at capacity end in a few dozen classes instead of hundreds of nodes, and a
     search reaches a class of thousands of nodes as one node."""
     zero = weight == 0.0
-    graph = csr_matrix((np.ones(int(zero.sum()), dtype=np.int8), (tail[zero], head[zero])), shape=(n, n))
+    # bool entries: repeated arcs add up to True (small integers could wrap to an explicit 0)
+    graph = csr_matrix((np.ones(int(zero.sum()), dtype=bool), (tail[zero], head[zero])), shape=(n, n))
     count, label = connected_components(graph, directed=True, connection="strong")
     return label.astype(np.int64), int(count)
 
