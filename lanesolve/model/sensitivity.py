@@ -181,7 +181,7 @@ class _Graph:
         return lower, upper, exact
 
     def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
-        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct nodes, each
+        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct classes, each
         search stopped at the largest bound of its pairs (``upper``, and ``cap`` where given; in reduced costs):
         a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
         come back inf.
