@@ -146,6 +146,13 @@ class Network:
             kept[1] = self.lanes[self.lanes["active"]]
         return kept[1].copy(deep=False)  # copy-on-write: a caller's edit never reaches the kept frame
 
+    def lanes_at(self, index) -> pd.DataFrame:
+        """``lanes.loc[index]``; inside :meth:`lanes_settled`, the kept active lanes when they are exactly those."""
+        kept = self.__dict__.get("_kept_active")
+        if kept is not None and kept[0] is self.lanes and kept[1] is not None and kept[1].index.equals(pd.Index(index)):
+            return kept[1].copy(deep=False)
+        return self.lanes.loc[index]
+
     @contextlib.contextmanager
     def lanes_settled(self) -> Iterator[Network]:
         """A block in which :attr:`active_lanes` filters the lanes once instead of on every call.

@@ -237,7 +237,7 @@ def _fill_plan(network: Network, lane_index: np.ndarray, flow: np.ndarray, unmet
     ``flow`` is per lane of ``lane_index``, ``unmet_values`` per customer of ``unmet_index`` (both noise-cleaned),
     ``penalty`` per customer row, ``breakdown`` the cost per component before noise rounding.
     """
-    lanes = network.lanes.loc[lane_index]
+    lanes = network.lanes_at(lane_index)
     for name, value in breakdown.items():
         breakdown[name] = 0.0 if abs(value) < NOISE else value
     result.cost_breakdown = breakdown
@@ -256,9 +256,11 @@ def _fill_plan(network: Network, lane_index: np.ndarray, flow: np.ndarray, unmet
         result.lane_flow = np.zeros(len(network.lanes))
         result.lane_flow[network.lanes.index.get_indexer(lane_index)] = np.where(used, flow, 0.0)
 
-    # Grouped by the id arrays themselves: grouping an id index by level looks each id up again (seconds at 1M lanes).
-    outflow = pd.Series(flow).groupby(lanes["origin"].to_numpy()).sum().to_dict() if len(flow) else {}
-    inflow = pd.Series(flow).groupby(lanes["destination"].to_numpy()).sum().to_dict() if len(flow) else {}
+    # Grouped by the id columns themselves: grouping an id index by level looks each id up again (seconds at 1M
+    # lanes), and the columns group without turning each id into a Python object first.
+    per_lane = pd.Series(flow, index=lanes.index)
+    outflow = per_lane.groupby(lanes["origin"]).sum().to_dict() if len(flow) else {}
+    inflow = per_lane.groupby(lanes["destination"]).sum().to_dict() if len(flow) else {}
     customers = network.customers
     short = dict(zip(customers.loc[unmet_index, "id"], unmet_values))
     result.nodes = node_balance(network, outflow, inflow, short)
