@@ -42,11 +42,11 @@ from lanesolve.model.network import Network
 MAX_CELLS = 40_000_000
 #: Tabu tenure: a lane that left the tree may not enter again for this many iterations, drawn anew at each pivot
 #: (our choice; Sun et al. 1998 tie their tenure to the network's size, recalled from memory).
-TENURE = (5, 12)
+TENURE = (10, 20)
 #: Iterations without a new best plan before the search goes back to the best plan and kicks it.
 PATIENCE = 60
 #: Random pivots in a kick (drawn among the pivots that move flow).
-KICK_PIVOTS = (2, 5)
+KICK_PIVOTS = (6, 12)
 SEED = 20261202
 
 
@@ -224,11 +224,11 @@ class _Tree:
             v = came[v]
         # Walking the cycle i -> j -> ... -> i, lane (i, j) gains; a tree lane walked customer -> depot loses.
         cycle = [((i, j), 1.0)]
-        for a, b in reversed(path):  # from j back to i
-            if b < m:  # customer a -> depot b: lane (b, a) loses
-                cycle.append(((b, a - m), -1.0))
-            else:  # depot a -> customer b: lane (a, b) gains
-                cycle.append(((a, b - m), 1.0))
+        for v, before in reversed(path):  # from j back to i, one step before -> v at a time
+            if before >= m:  # customer -> depot: lane (v, customer) loses
+                cycle.append(((v, before - m), -1.0))
+            else:  # depot -> customer: lane (depot, v) gains
+                cycle.append(((before, v - m), 1.0))
         rates = sum(sign * table.rate[lane] for lane, sign in cycle)
         direction = -1.0 if rates > 0 else 1.0
         step = min(forest[lane] for lane, sign in cycle if sign * direction < 0)
@@ -241,33 +241,53 @@ class _Tree:
     # --- the tree's arrays -----------------------------------------------------------------------------------------
 
     def _layout(self) -> None:
-        """Root the tree at depot 0: path matrix ``A``, signs ``s``, potentials ``u`` (depots) and ``v`` (customers)
-        with ``u_i + v_j = rate_ij`` on every tree lane."""
-        m, n = self.m, self.n
-        size = m + n
-        neighbours: list[list[tuple[int, int]]] = [[] for _ in range(size)]
-        for e, (i, j) in enumerate(zip(self.rows.tolist(), self.cols.tolist())):
-            neighbours[i].append((m + j, e))
-            neighbours[m + j].append((i, e))
-        on_path = np.zeros((size, len(self.rows)), dtype=np.int8)
-        sign = np.zeros(len(self.rows), dtype=np.int8)
-        potential = np.zeros(size)
-        seen = np.zeros(size, dtype=bool)
-        seen[0] = True
-        order = [0]
-        rate = self.table.rate
-        for v in order:
-            for w, e in neighbours[v]:
-                if not seen[w]:
-                    seen[w] = True
-                    order.append(w)
-                    on_path[w] = on_path[v]
-                    on_path[w, e] = 1
-                    sign[e] = -1 if w >= m else 1
-                    i, j = int(self.rows[e]), int(self.cols[e])
-                    potential[w] = rate[i, j] - potential[v]
-        self.on_path, self.sign = on_path, sign
-        self.reduced = rate - potential[:m, None] - potential[None, m:]
+        """Root the tree at depot 0: path matrix ``on_path``, signs ``sign``, and the reduced rates from the
+        potentials ``u`` (depots) and ``v`` (customers) with ``u_i + v_j = rate_ij`` on every tree lane.
+
+        A depth-first order puts every subtree in one run of positions, so lane ``e`` lies on the path from ``v`` up
+        to the root exactly when ``v``'s position falls in the run of ``e``'s lower end."""
+        m, size = self.m, self.m + self.n
+        lanes = len(self.rows)
+        neighbours: list[list[int]] = [[] for _ in range(size)]
+        for i, j in zip(self.rows.tolist(), self.cols.tolist()):
+            neighbours[i].append(m + j)
+            neighbours[m + j].append(i)
+        parent = [-1] * size
+        visit, stack = [], [0]
+        while stack:  # depth first: each subtree is one run of ``visit``
+            v = stack.pop()
+            visit.append(v)
+            for w in neighbours[v]:
+                if w != parent[v]:
+                    parent[w] = v
+                    stack.append(w)
+        order, pred = np.array(visit), np.array(parent)
+        lower = order[1:]
+        upper = pred[lower]
+        depot = np.where(lower < m, lower, upper)
+        customer = np.where(lower < m, upper, lower) - m
+        slot = np.zeros((m, self.n), dtype=np.int64)
+        slot[self.rows, self.cols] = np.arange(lanes)
+        edge = slot[depot, customer]  # the tree lane between each node and its parent
+        self.sign = np.zeros(lanes, dtype=np.int8)
+        self.sign[edge] = np.where(lower >= m, -1, 1)
+        rate = self.table.rate[depot, customer].tolist()
+        potential = [0.0] * size
+        below = [1] * size
+        up, low = upper.tolist(), lower.tolist()
+        for k, w in enumerate(low):
+            potential[w] = rate[k] - potential[up[k]]
+        for k in range(len(up) - 1, -1, -1):
+            below[up[k]] += below[low[k]]
+        position = np.empty(size, dtype=np.int64)
+        position[order] = np.arange(size)
+        start = np.empty(lanes, dtype=np.int64)
+        start[edge] = position[lower]
+        stop = start.copy()
+        stop[edge] += np.array(below)[lower]
+        self.on_path = ((position[:, None] >= start[None, :]) & (position[:, None] < stop[None, :])).astype(np.int8)
+        potential = np.array(potential)
+        self.reduced = self.table.rate - potential[:m, None] - potential[None, m:]
 
     def cost(self) -> float:
         used = self.flows > self.table.tol
