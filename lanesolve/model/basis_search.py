@@ -7,25 +7,31 @@ of them may carry nothing), and two basic plans are neighbours when one pivot of
 turns one into the other (a lane enters the tree, flow moves round the cycle it closes, a lane of the cycle leaves).
 The local searches for the FCTP walk these pivots; this module follows the tabu search of Sun, Aronson, McKeown &
 Drinka, "A tabu search heuristic procedure for the fixed charge transportation problem", European Journal of
-Operational Research 106 (1998), 441-456: every iteration prices *every* pivot, takes the best one that is not tabu
+Operational Research 106 (1998) (cited from memory): every iteration prices *every* pivot, takes the best one that is not tabu
 (a lane that left the tree may not enter again for a few iterations unless it makes the best plan yet), worse or
 not, and after a run of iterations without a new best plan goes back to the best one and kicks it with a few random
 pivots. The paper's details (its tenure rule, its intensification and diversification lists) are recalled from
 memory and are not copied: the tenure, the patience and the kick here are our own choices, set on
-``benchmarks/mip_family.py``.
+``benchmarks/mip_family.py``, and so is the diversification: when a walk's kicks stop finding better plans, a new
+walk starts from the best plan of all, kicked harder, with an empty tabu list (a restart of iterated local search,
+Lourenço, Martin & Stützle, "Iterated local search", Handbook of Metaheuristics, 2003).
 
-Pricing every pivot at once (our own vectorisation, not from the paper): with the tree rooted at depot 0, ``A[v, e]``
+Pricing every pivot at once (our own vectorisation, not from the paper): with the tree rooted at depot 0, ``on_path[v, e]``
 says that tree lane ``e`` lies on the path from node ``v`` up to the root. The cycle that a lane ``i -> j`` closes
 runs back from customer ``j`` to depot ``i`` along the tree, and a tree lane on it gains flow when it is walked from
-depot to customer and loses flow otherwise, so its sign on the cycle is ``(A[j, e] - A[i, e]) * s_e`` with
+depot to customer and loses flow otherwise, so its sign on the cycle is ``(on_path[j, e] - on_path[i, e]) * s_e`` with
 ``s_e = -1`` when the lower end of ``e`` (further from the root) is a customer and ``+1`` when it is a depot. The step
 ``theta`` is the least flow on a losing lane; the pivot's change of cost is ``theta`` times the lane's reduced cost
 (rate less the depot's and the customer's potentials of the tree) plus the charges of the lanes that start or stop
 carrying flow. One pass of NumPy over a depots x customers x tree-lanes array of signs prices all of them.
 
+The flows of a basic plan follow from its tree alone (a lane carries what the subtree below it supplies less what
+it takes), so they are recomputed from the supplies and demands after each pivot: exact integers for integer data,
+no drift.
+
 Depots with more supply than the customers need ship the rest to a slack customer at no cost and no charge; a pair of
-depot and customer without a lane gets a lane in the search only that carries nothing (no pivot may move flow onto it). Flows are exact for integer data (every pivot moves a difference of
-flows); every plan returned is priced by the caller on the model's own costs.
+depot and customer without a lane gets a lane in the search only that carries nothing (no pivot may move flow onto
+it). Every plan returned is priced by the caller on the model's own costs.
 """
 
 from __future__ import annotations
@@ -37,9 +43,9 @@ import numpy as np
 
 from lanesolve.model.network import Network
 
-#: Largest depots x customers x tree lanes array priced at once (bytes of int8); larger networks use the lane
-#: search's drop moves alone (our choice: 40 MB of signs, a few hundred milliseconds an iteration).
-MAX_CELLS = 40_000_000
+#: Largest depots x customers x tree lanes array priced at once; larger networks use the lane search's drop moves
+#: (our choice: 4 million cells are 32 MB in the float passes of one pricing and some tens of milliseconds).
+MAX_CELLS = 4_000_000
 #: Tabu tenure: a lane that left the tree may not enter again for this many iterations, drawn anew at each pivot
 #: (our choice; Sun et al. 1998 tie their tenure to the network's size, recalled from memory).
 TENURE = (10, 20)
@@ -47,6 +53,11 @@ TENURE = (10, 20)
 PATIENCE = 60
 #: Random pivots in a kick (drawn among the pivots that move flow).
 KICK_PIVOTS = (6, 12)
+#: Kicks without a new best plan of the walk before a new walk starts from the best plan of all, kicked harder by
+#: this many random pivots (our choice: on the 15x50 family instance a walk found its last better plan within
+#: about 1,500 pivots and then stayed in its basin).
+WALK_KICKS = 25
+FRESH_KICK = 30
 SEED = 20261202
 
 
@@ -66,6 +77,11 @@ class _Transport:
     lane: np.ndarray  # (m, n) row in network.lanes, -1 for no lane and for the slack customer
     missing: np.ndarray  # (m, n) no lane between the depot and the customer (never the slack customer)
     tol: float  # flows below this are zero
+
+    @property
+    def balance(self) -> np.ndarray:
+        """Supply of the depots, then less the demand of the customers (one entry per node of the tree)."""
+        return np.concatenate([self.supply, -self.demand])
 
 
 def _transport(network: Network) -> _Transport | None:
@@ -144,11 +160,13 @@ def search(network: Network, lane_flow: np.ndarray, end: float, seed: int = SEED
 class _Tree:
     """A basic plan: ``m + n - 1`` tree lanes ``(row, col)`` with their flows, and the arrays that price pivots."""
 
-    def __init__(self, table: _Transport, rows: np.ndarray, cols: np.ndarray, flows: np.ndarray):
-        self.table, self.rows, self.cols, self.flows = table, rows, cols, flows
+    def __init__(self, table: _Transport, rows: np.ndarray, cols: np.ndarray):
+        self.table, self.rows, self.cols = table, rows, cols
         self.m, self.n = table.rate.shape
         self.in_tree = np.zeros((self.m, self.n), dtype=bool)
         self.in_tree[rows, cols] = True
+        self.iterations = 0  # pivots priced by :meth:`walk` (for the benchmark notes)
+        self.balance = table.balance
         self._layout()
 
     # --- building a basic plan -------------------------------------------------------------------------------------
@@ -185,7 +203,7 @@ class _Tree:
         keys = list(forest)
         rows = np.array([k[0] for k in keys], dtype=np.int64)
         cols = np.array([k[1] for k in keys], dtype=np.int64)
-        return cls(table, rows, cols, np.array([forest[k] for k in keys]))
+        return cls(table, rows, cols)
 
     @staticmethod
     def _components(m: int, n: int, forest: dict) -> list[int]:
@@ -288,6 +306,10 @@ class _Tree:
         self.on_path = ((position[:, None] >= start[None, :]) & (position[:, None] < stop[None, :])).astype(np.int8)
         potential = np.array(potential)
         self.reduced = self.table.rate - potential[:m, None] - potential[None, m:]
+        # A tree carries one plan: the flow on lane e is what the subtree below it supplies less what it takes
+        # (leaf by leaf peeling, as in any textbook's transportation method), exact in integers for integer data.
+        flows = self.sign * (self.balance @ self.on_path)
+        self.flows = np.where(np.abs(flows) <= self.table.tol, 0.0, flows)
 
     def cost(self) -> float:
         used = self.flows > self.table.tol
@@ -320,13 +342,10 @@ class _Tree:
         candidates = np.flatnonzero((cycle < 0) & (flows <= self.table.tol))
         leave = int(candidates[np.argmax(self.table.charge[self.rows[candidates], self.cols[candidates]])])
         left = (int(self.rows[leave]), int(self.cols[leave]))
-        flows[leave] = step
-        flows[np.abs(flows) <= self.table.tol] = 0.0
         self.in_tree[left] = False
         self.in_tree[i, j] = True
         self.rows[leave], self.cols[leave] = i, j
-        self.flows = flows
-        self._layout()
+        self._layout()  # the flows too
         return left
 
     # --- the search -----------------------------------------------------------------------------------------------
@@ -335,19 +354,22 @@ class _Tree:
         return self.rows.copy(), self.cols.copy(), self.flows.copy()
 
     def walk(self, end: float, rng: np.random.Generator):
-        """The tabu search of the module docstring until ``end``; returns the best plan's (rows, cols, flows)."""
+        """The tabu search of the module docstring until ``end``; returns the best plan's (rows, cols, flows).
+
+        A walk kicks its own best plan; after :data:`WALK_KICKS` kicks without a new best plan of its own a new walk
+        starts from the start plan, kicked by :data:`FRESH_KICK` pivots, with a fresh tabu list."""
         cost = best_cost = self.cost()
-        best = self.snapshot()
+        best = local = first = self.snapshot()
+        local_cost = cost
         tabu_until = np.zeros((self.m, self.n), dtype=np.int64)
-        it = since_best = 0
+        it = since_best = failed = 0
         while time.monotonic() < end:
             it += 1
             self.iterations = it
             step, delta, signs, blocked = self.price()
             allowed = (step > self.table.tol) & ~self.in_tree & ~blocked
-            tabu = tabu_until > it
-            aspire = cost + delta < best_cost - 1e-9 * max(abs(best_cost), 1.0)
-            allowed &= ~tabu | aspire
+            aspire = cost + delta < local_cost - _noise(local_cost)
+            allowed &= (tabu_until <= it) | aspire
             if not allowed.any():
                 break
             k = int(np.argmin(np.where(allowed, delta, np.inf)))
@@ -355,26 +377,40 @@ class _Tree:
             left = self.pivot(i, j, float(step[i, j]), signs)
             tabu_until[left] = it + int(rng.integers(TENURE[0], TENURE[1] + 1))
             cost += float(delta[i, j])
-            if cost < best_cost - 1e-9 * max(abs(best_cost), 1.0):
+            if cost < local_cost - _noise(local_cost):
                 cost = self.cost()  # exact again (sums of steps drift in floats)
-                best_cost, best, since_best = cost, self.snapshot(), 0
+                local, local_cost, since_best, failed = self.snapshot(), cost, 0, 0
+                if cost < best_cost - _noise(best_cost):
+                    best, best_cost = local, cost
             else:
                 since_best += 1
-            if since_best >= PATIENCE:
-                self._restart(best, rng)
-                cost, since_best = self.cost(), 0
+            if since_best < PATIENCE:
+                continue
+            if failed >= WALK_KICKS:
+                self._kick(first, rng, FRESH_KICK)
+                tabu_until[:] = 0
+                local, local_cost, failed = self.snapshot(), self.cost(), 0
+            else:
+                self._kick(local, rng, int(rng.integers(KICK_PIVOTS[0], KICK_PIVOTS[1] + 1)))
+                failed += 1
+            cost, since_best = self.cost(), 0
         return best
 
-    def _restart(self, best, rng: np.random.Generator) -> None:
-        """Back to the best plan, then a few random pivots that move flow (the kick)."""
-        self.rows, self.cols, self.flows = (a.copy() for a in best)
+    def _kick(self, plan, rng: np.random.Generator, pivots: int) -> None:
+        """Back to ``plan`` (rows, cols, flows), then ``pivots`` random pivots that move flow."""
+        self.rows, self.cols = plan[0].copy(), plan[1].copy()
         self.in_tree[:] = False
         self.in_tree[self.rows, self.cols] = True
         self._layout()
-        for _ in range(int(rng.integers(KICK_PIVOTS[0], KICK_PIVOTS[1] + 1))):
+        for _ in range(pivots):
             step, _, signs, blocked = self.price()
             moving = np.flatnonzero(((step > self.table.tol) & ~self.in_tree & ~blocked).ravel())
             if len(moving) == 0:
                 return
             i, j = divmod(int(rng.choice(moving)), self.n)
             self.pivot(i, j, float(step[i, j]), signs)
+
+
+def _noise(cost: float) -> float:
+    """Less than this is no change of cost (float sums)."""
+    return 1e-9 * max(abs(cost), 1.0)
