@@ -7,23 +7,24 @@ of them may carry nothing), and two basic plans are neighbours when one pivot of
 turns one into the other (a lane enters the tree, flow moves round the cycle it closes, a lane of the cycle leaves).
 The local searches for the FCTP walk these pivots; this module follows the tabu search of Sun, Aronson, McKeown &
 Drinka, "A tabu search heuristic procedure for the fixed charge transportation problem", European Journal of
-Operational Research 106 (1998) (cited from memory): every iteration prices *every* pivot, takes the best one that is not tabu
-(a lane that left the tree may not enter again for a few iterations unless it makes the best plan yet), worse or
-not, and after a run of iterations without a new best plan goes back to the best one and kicks it with a few random
-pivots. The paper's details (its tenure rule, its intensification and diversification lists) are recalled from
-memory and are not copied: the tenure, the patience and the kick here are our own choices, set on
+Operational Research 106 (1998) (cited from memory): every iteration prices *every* pivot, takes the best one that
+is not tabu (a lane that left the tree may not enter again for a few iterations unless it makes the best plan yet),
+worse or not, and after a run of iterations without a new best plan goes back to the best one and kicks it with a
+few random pivots. The paper's details (its tenure rule, its intensification and diversification lists) are
+recalled from memory and are not copied: the tenure, the patience and the kick here are our own choices, set on
 ``benchmarks/mip_family.py``, and so is the diversification: when a walk's kicks stop finding better plans, a new
-walk starts from the best plan of all, kicked harder, with an empty tabu list (a restart of iterated local search,
-Lourenço, Martin & Stützle, "Iterated local search", Handbook of Metaheuristics, 2003).
+walk starts from the start plan, kicked, with an empty tabu list (a restart of iterated local search, Lourenço,
+Martin & Stützle, "Iterated local search", Handbook of Metaheuristics, 2003), and the best plan of all walks is kept.
 
-Pricing every pivot at once (our own vectorisation, not from the paper): with the tree rooted at depot 0, ``on_path[v, e]``
-says that tree lane ``e`` lies on the path from node ``v`` up to the root. The cycle that a lane ``i -> j`` closes
-runs back from customer ``j`` to depot ``i`` along the tree, and a tree lane on it gains flow when it is walked from
-depot to customer and loses flow otherwise, so its sign on the cycle is ``(on_path[j, e] - on_path[i, e]) * s_e`` with
-``s_e = -1`` when the lower end of ``e`` (further from the root) is a customer and ``+1`` when it is a depot. The step
-``theta`` is the least flow on a losing lane; the pivot's change of cost is ``theta`` times the lane's reduced cost
-(rate less the depot's and the customer's potentials of the tree) plus the charges of the lanes that start or stop
-carrying flow. One pass of NumPy over a depots x customers x tree-lanes array of signs prices all of them.
+Pricing every pivot at once (our own vectorisation, not from the paper): with the tree rooted at depot 0,
+``on_path[v, e]`` says that tree lane ``e`` lies on the path from node ``v`` up to the root. The cycle that a lane
+``i -> j`` closes runs back from customer ``j`` to depot ``i`` along the tree, and a tree lane on it gains flow when
+it is walked from depot to customer and loses flow otherwise, so its sign on the cycle is
+``(on_path[j, e] - on_path[i, e]) * s_e`` with ``s_e = -1`` when the lower end of ``e`` (further from the root) is a
+customer and ``+1`` when it is a depot. The step ``theta`` is the least flow on a losing lane; the pivot's change of
+cost is ``theta`` times the lane's reduced cost (rate less the depot's and the customer's potentials of the tree)
+plus the charges of the lanes that start or stop carrying flow. One pass of NumPy over a depots x customers x
+tree-lanes array of signs prices all of them.
 
 The flows of a basic plan follow from its tree alone (a lane carries what the subtree below it supplies less what
 it takes), so they are recomputed from the supplies and demands after each pivot: exact integers for integer data,
@@ -195,7 +196,8 @@ class _Tree:
             else:
                 cls._cancel(table, forest, i, j)
                 parent = cls._components(m, n, forest)  # cancelling may split a component
-        for i, j in sorted(((i, j) for i in range(m) for j in range(n)), key=lambda p: (bool(table.missing[p]), table.rate[p])):
+        pairs = ((i, j) for i in range(m) for j in range(n))
+        for i, j in sorted(pairs, key=lambda p: (bool(table.missing[p]), table.rate[p])):
             a, b = root(i), root(m + j)
             if a != b:
                 parent[a] = b

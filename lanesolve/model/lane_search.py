@@ -49,6 +49,10 @@ BETTER = 1e-9
 #: lanes forbidden at once by a kick, the seed of its choices, and how much worse a new local optimum may be and
 #: still be searched from (our choices, set by benchmarks/mip_family.py).
 KICK_SIZE = (2, 4)
+#: Share of the time limit that ``auto`` keeps for the search when the basis search applies (instead of
+#: ``solve.SEARCH_SHARE``): it finds better plans faster than the drops, and HiGHS's bound on the family instances
+#: barely moves after its first seconds (our choice, by benchmarks/mip_family.py at 60 s).
+BASIS_SHARE = 0.6
 KICK_SEED = 20261202
 ACCEPT_WORSE = 0.002
 
@@ -57,6 +61,12 @@ def applies(network: Network) -> bool:
     """True when the only decisions of ``network`` are fixed charges on lanes (the search's setting)."""
     return (network.has_fixed_charges and not network.has_design and not network.has_carrier_terms
             and network.products is None and network.emissions is None)
+
+
+def share(network: Network, default: float) -> float:
+    """Share of the time limit to keep for :func:`improve` on ``network``: :data:`BASIS_SHARE` when the basis search
+    takes it, else ``default``."""
+    return BASIS_SHARE if basis_search.applies(network) else default
 
 
 def plan_cost(model: SparseModel, lane_flow: np.ndarray, unmet: np.ndarray) -> tuple[float, np.ndarray]:
