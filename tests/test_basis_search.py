@@ -56,12 +56,13 @@ def searched(net, start_flow: np.ndarray, seed: int = basis_search.SEED) -> np.n
     return found
 
 
-def test_search_from_every_lane_paid_reaches_the_scipy_optimum_on_small_networks():
+@pytest.mark.parametrize("engine", ["highs", "cbc"])
+def test_search_from_every_lane_paid_reaches_the_scipy_optimum_on_small_networks(engine):
     reached = 0
     for seed in range(6):
         net = transportation_network(3, 6, seed)
         model = build_sparse_model(net)
-        start = lane_flows(net, model, worst_plan(net, model))
+        start = lane_flows(net, model, worst_plan(net, model, engine))
         found = searched(net, start)
         assert_meets_supply_and_demand(net, found)
         optimum = scipy_optimum(net)  # SciPy milp (HiGHS) on the independent reference model
@@ -86,12 +87,13 @@ def sparse_surplus_network(seed: int):
     return make_network(depots, [{"id": f"C{j}", "demand": int(d)} for j, d in enumerate(demand)], lanes)
 
 
+@pytest.mark.parametrize("engine", ["highs", "cbc"])
 @pytest.mark.parametrize("seed", range(5))
-def test_surplus_supply_and_missing_lanes_stay_feasible_and_above_the_scipy_optimum(seed):
+def test_surplus_supply_and_missing_lanes_stay_feasible_and_above_the_scipy_optimum(seed, engine):
     net = sparse_surplus_network(seed)
     assert basis_search.applies(net)
     model = build_sparse_model(net)
-    start = lane_flows(net, model, worst_plan(net, model))
+    start = lane_flows(net, model, worst_plan(net, model, engine))
     found = searched(net, start, seed=seed)
     assert_meets_supply_and_demand(net, found)
     optimum = scipy_optimum(net)  # SciPy milp (HiGHS) on the independent reference model
