@@ -149,6 +149,9 @@ def test_recognise_takes_facility_location_with_split_deliveries():
     assert problem.n_depots == 8 and len(problem.demand) == 20
     assert (problem.open_column[:2] == -1).all() and (problem.open_column[2:] >= 0).all()
     assert np.isfinite(problem.penalty).all()
+    # The supplies and fixed charges are the instance's own (its arrays, not lanesolve's model), though a depot to
+    # decide states its supply only in its open_out_depot_ row.
+    assert problem.supply == pytest.approx(inst["supply"]) and problem.fixed[2:] == pytest.approx(inst["fixed"][2:])
 
 
 @pytest.mark.parametrize("change", ["single_source", "hub", "lane_fixed_cost", "max_open", "min_volume",

@@ -13,12 +13,15 @@ from lanesolve.model.sensitivity import analyse_plan, plan_figures
 from lanesolve.model.solve import solve
 
 
-def meshed(seed: int):
-    """Depots and customers joined through a mesh of hubs with random lanes between hubs (invented network)."""
+def meshed(seed: int, tight: bool = False):
+    """Depots and customers joined through a mesh of hubs with random lanes between hubs (invented network).
+    ``tight``: the depots' supplies add up to the demand, so every depot sends all it has (as in a NETGEN network)
+    and no path leaves the root: its trees then settle no distance between two nodes of the mesh."""
     rng = np.random.default_rng(seed)
     hubs = [f"H{i:02d}" for i in range(40)]
-    depots = [{"id": f"D{i}", "supply": 60} for i in range(3)]
     customers = [{"id": f"C{i}", "demand": int(rng.integers(5, 25))} for i in range(6)]
+    total = sum(c["demand"] for c in customers)
+    depots = [{"id": f"D{i}", "supply": (total // 3 + (i < total % 3)) if tight else 60} for i in range(3)]
     lanes = [{"origin": d["id"], "destination": h, "cost_per_unit": int(rng.integers(1, 30))}
              for d in depots for h in rng.choice(hubs, 4, replace=False)]
     lanes += [{"origin": h, "destination": c["id"], "cost_per_unit": int(rng.integers(1, 30))}
@@ -102,3 +105,106 @@ def test_near_miss_advice_needs_no_search_beyond_the_rows_when_they_settle_it(mo
     monkeypatch.setattr(UnusedLanes, "nearest_above", refuse)
     assert len(expected) == advice.TOP
     assert advice._near_misses(shown, "units", "") == expected
+
+
+def _plan_graph(monkeypatch, net):
+    """The plan's graph that :func:`analyse_plan` builds for ``net``'s plan."""
+    from lanesolve.model import sensitivity
+
+    kept = []
+    finish = sensitivity._Graph.finish
+
+    def keep(self):
+        finish(self)
+        kept.append(self)
+
+    monkeypatch.setattr(sensitivity._Graph, "finish", keep)
+    analyse_plan(net, solve(net))
+    return kept[-1]
+
+
+def _networkx_distances(graph, sources):
+    """Residual distances from each of ``sources`` by networkx's Bellman-Ford on the residual arcs and their own
+    costs (no potentials, no reduced costs): the reference, independent of lanesolve's searches."""
+    import networkx as nx
+
+    residual = nx.DiGraph()
+    residual.add_nodes_from(range(graph.n_nodes))
+    for t, h, c in zip(graph.r_tail.tolist(), graph.r_head.tolist(), graph.r_cost.tolist()):
+        if not residual.has_edge(t, h) or residual[t][h]["weight"] > c:  # parallel arcs: the cheapest counts
+            residual.add_edge(t, h, weight=c)
+    return {s: nx.single_source_bellman_ford_path_length(residual, s) for s in sources}
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_searches_shared_by_a_class_of_zero_reduced_cost_equal_networkx(monkeypatch, seed):
+    # Searches run between classes of nodes joined both ways by zero reduced cost; every distance found so
+    # must equal the residual distance networkx's Bellman-Ford finds from the end itself.
+    graph = _plan_graph(monkeypatch, meshed(seed))
+    rng = np.random.default_rng(seed)
+    label = graph.label
+    size = np.bincount(label)
+    joined = np.flatnonzero(size[label] > 1)
+    # Pairs from nodes of classes of several nodes (the rule at work) and from any node, to any node.
+    a = np.concatenate([rng.choice(joined, 30), rng.integers(0, graph.n_nodes, 10)])
+    b = rng.integers(0, graph.n_nodes, len(a))
+    assert len(joined) >= 10, "too few nodes in classes of several nodes: the test would prove little"
+    first = np.unique(label, return_index=True)[1]  # one node of each class
+    inside = joined[first[label[joined]] != joined][:20]
+    reference = _networkx_distances(graph, np.unique(np.concatenate([a, b, inside])).tolist())
+    for s, t in ((a, b), (b, a)):  # searched forward from a and backward from b, whichever has fewer classes
+        want = np.array([reference[u].get(v, np.inf) for u, v in zip(s.tolist(), t.tolist())])
+        found = graph.searched(s, t, np.full(len(s), np.inf))
+        reached = np.isfinite(want)
+        assert reached.sum() >= 10, "too few pairs joined by a residual path: the test would prove little"
+        assert (np.isfinite(found) == reached).all()
+        np.testing.assert_allclose(found[reached], want[reached], rtol=0, atol=1e-9)
+        # With a cap (the searches stop at it): found at a cap equal to the distance, beyond a cap one unit less.
+        capped = graph.searched(s[reached], t[reached], np.full(reached.sum(), np.inf), want[reached])
+        np.testing.assert_allclose(capped, want[reached], rtol=0, atol=1e-9)
+        assert np.isinf(graph.searched(s[reached], t[reached], np.full(reached.sum(), np.inf), want[reached] - 1)).all()
+    assert len(inside) >= 5, "too few nodes beside another of their class: the test would prove little"
+    # Within a class the residual distance between two nodes is the difference of potentials (zero reduced cost).
+    for u in inside.tolist():
+        v = int(first[label[u]])
+        assert reference[u][v] == pytest.approx(graph.potentials[v] - graph.potentials[u], abs=1e-9)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_landmark_bounds_hold_against_networkx(monkeypatch, seed):
+    # The trees of landmarks in the mesh bound every distance from both sides (triangle inequalities); a pair
+    # they call exact must equal the residual distance networkx's Bellman-Ford finds.
+    graph = _plan_graph(monkeypatch, meshed(seed, tight=True))
+    rng = np.random.default_rng(100 + seed)
+    a, b = rng.integers(0, graph.n_nodes, 60), rng.integers(0, graph.n_nodes, 60)
+    graph.trees, graph.landmarked = graph.trees[:1], True  # the root's trees alone first
+    root_lower, root_upper, root_exact = graph.bounds(a, b)
+    graph._add_landmarks()
+    assert len(graph.trees) > 1
+    lower, upper, exact = graph.bounds(a, b)
+    reference = _networkx_distances(graph, np.unique(a).tolist())
+    want = np.array([reference[u].get(v, np.inf) for u, v in zip(a.tolist(), b.tolist())])
+    reached = np.isfinite(want)
+    assert (lower[reached] <= want[reached] + 1e-9).all()
+    assert (upper >= want - 1e-9).all()  # inf where no path: an upper bound can only be a path
+    np.testing.assert_allclose(upper[exact], want[exact], rtol=0, atol=1e-9)
+    # The landmarks must settle or tighten pairs the root's trees left open, else the test would prove little.
+    assert (exact & ~root_exact).sum() >= 5 and (lower > root_lower + 1e-9).any()
+
+
+@pytest.mark.parametrize("seed,tight", [(0, False), (1, True), (2, True), (5, False)])
+def test_potentials_equal_networkx_distances_from_a_virtual_source(monkeypatch, seed, tight):
+    # Bellman-Ford relaxes, after its first round, only arcs whose tail moved; the potentials must still be the
+    # shortest distances from a virtual source joined to every node at cost 0, as networkx's Bellman-Ford finds.
+    import networkx as nx
+
+    graph = _plan_graph(monkeypatch, meshed(seed, tight=tight))
+    residual = nx.DiGraph()
+    residual.add_edges_from((-1, v, {"weight": 0.0}) for v in range(graph.n_nodes))
+    for t, h, c in zip(graph.r_tail.tolist(), graph.r_head.tolist(), graph.r_cost.tolist()):
+        if not residual.has_edge(t, h) or residual[t][h]["weight"] > c:
+            residual.add_edge(t, h, weight=c)
+    reference = nx.single_source_bellman_ford_path_length(residual, -1)
+    want = np.array([reference[v] for v in range(graph.n_nodes)])
+    assert (want < -1).sum() >= 10, "too few nodes below the virtual source's 0: the test would prove little"
+    np.testing.assert_allclose(graph.potentials, want, rtol=0, atol=1e-9)

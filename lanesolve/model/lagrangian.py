@@ -59,6 +59,8 @@ from lanesolve.model.result import SolveStatus
 #: Column and row families a facility-location model may have (prefixes of :mod:`lanesolve.model.formulation`).
 COLUMN_FAMILIES = frozenset({"flow_", "unmet_", "open_depot_"})
 ROW_FAMILIES = frozenset({"supply_", "balance_", "open_out_depot_", "open_link_depot_"})
+#: What single sourcing adds: a yes/no per lane (``use_``), its ``link_`` row and the customer's ``single_source_`` row.
+SINGLE_SOURCE_COLUMNS, SINGLE_SOURCE_ROWS = frozenset({"use_"}), frozenset({"link_", "single_source_"})
 #: Subgradient steps without progress (:data:`PROGRESS`) before the step factor is halved, the factor it starts at
 #: and the factor below which the bound is taken as converged (common practice for this method, values our choice
 #: after trials on capa/capb/capc: the bound then settles in 650-1,000 steps).
@@ -91,6 +93,8 @@ class FacilityProblem:
         Per customer: its units-short column, -1 for a hard demand.
     n_columns : int
         Columns of the model.
+    use_column : numpy.ndarray of int or None
+        Per lane, its yes/no column in a single-source model (``recognise(model, single_source=True)``), else None.
     """
 
     lane_column: np.ndarray
@@ -106,6 +110,7 @@ class FacilityProblem:
     penalty: np.ndarray
     unmet_column: np.ndarray
     n_columns: int
+    use_column: np.ndarray | None = None
 
     @property
     def n_depots(self) -> int:
@@ -125,54 +130,128 @@ class FacilityProblem:
         ships = np.bincount(self.lane_depot, lane_flow, minlength=self.n_depots) > 0
         decided = self.open_column >= 0
         value[self.open_column[decided]] = ships[decided].astype(float)
+        if self.use_column is not None:
+            value[self.use_column] = (lane_flow > 0).astype(float)
         return value
 
 
-def _one_entry_per_column(model: SparseModel, prefix: str, n_flow: int) -> np.ndarray | None:
-    """Row number (within family ``prefix``) of each flow column's single +1 entry there, or None when any flow
-    column has another pattern (a lane leaving a customer, say)."""
-    block = model.row_blocks.get(prefix)
-    if block is None:
-        return None
-    part = model.matrix[block.start:block.stop, :n_flow].tocoo()
+def _one_entry_per_column(model: SparseModel, prefixes: tuple[str, ...], n_flow: int) -> tuple[np.ndarray, list]:
+    """Row number (within the rows of families ``prefixes``, taken in that order) of each flow column's single +1
+    entry there, and the rows' (prefix, position) pairs; None for the first when any flow column has another
+    pattern (a lane leaving a customer, say)."""
+    rows = [(prefix, position) for prefix in prefixes if prefix in model.row_blocks
+            for position in range(model.row_blocks[prefix].start, model.row_blocks[prefix].stop)]
+    if not rows:
+        return None, rows
+    part = model.matrix[[position for _, position in rows], :n_flow].tocoo()
     if len(part.col) != n_flow or not np.array_equal(np.sort(part.col), np.arange(n_flow)) \
             or not np.all(part.data == 1.0):
-        return None
+        return None, rows
     row = np.empty(n_flow, dtype=np.int64)
     row[part.col] = part.row
-    return row
+    return row, rows
 
 
-def recognise(model: SparseModel) -> FacilityProblem | None:
+def _depots(model: SparseModel, n_flow: int):
+    """Each flow column's depot, and per depot its supply and open/close column (-1 for a depot marked open), or
+    None when the lanes do not each leave one depot.
+
+    A depot marked open has a ``supply_`` row (net outflow <= supply); a depot to decide has none, its
+    ``open_out_depot_`` row (net outflow <= supply * open) states both, and its supply is minus its open column's
+    coefficient there. A depot to decide with no lane stays closed: it is left out.
+    """
+    lane_row, rows = _one_entry_per_column(model, ("supply_", "open_out_depot_"), n_flow)
+    if lane_row is None:
+        return None
+    opened = model.columns("open_depot_")
+    column_of = dict(zip(model.ids("open_depot_").tolist(), range(opened.start, opened.stop)))
+    links = model.matrix[[position for _, position in rows], opened.start:opened.stop].tocoo()
+    link_value = np.zeros(len(rows))
+    link_column = np.full(len(rows), -1, dtype=np.int64)
+    link_value[links.row] = -links.data
+    link_column[links.row] = links.col + opened.start
+    supply = np.empty(len(rows))
+    open_column = np.full(len(rows), -1, dtype=np.int64)
+    for k, (prefix, position) in enumerate(rows):
+        if prefix == "supply_":
+            supply[k] = model.row_upper[position]
+        else:
+            column = column_of.get(int(model.row_blocks[prefix].ids[position - model.row_blocks[prefix].start]), -2)
+            if column < 0 or model.row_upper[position] != 0 or link_column[k] not in (column, -1):
+                return None  # not the row the formulation writes: leave the model to the engines
+            supply[k], open_column[k] = link_value[k], column  # no entry: a supply of 0 (zeros are not stored)
+    kept = np.bincount(lane_row, minlength=len(rows)) > 0
+    kept |= open_column < 0  # a depot marked open keeps its (lane-less) row as it did
+    renumber = np.cumsum(kept) - 1
+    return renumber[lane_row], supply[kept].astype(float), open_column[kept]
+
+
+def _whole_deliveries(model: SparseModel, n_flow: int, lane_demand: np.ndarray) -> np.ndarray | None:
+    """Per flow column its ``use_`` column, -1 where its ``link_`` row is not ``x = q y`` with ``q`` the customer's
+    demand (the lane then never serves the customer alone); None when a flow column has no ``use_`` column."""
+    block = model.row_blocks.get("link_")
+    if block is None or block.stop - block.start != n_flow:
+        return None
+    part = model.matrix[block.start:block.stop].tocoo()
+    flow, used = part.col < n_flow, model.columns("use_")
+    lane = np.full(n_flow, -1, dtype=np.int64)
+    lane[part.row[flow]] = part.col[flow]
+    if (lane < 0).any() or len(np.unique(lane)) != n_flow:
+        return None
+    column = np.full(n_flow, -1, dtype=np.int64)
+    coefficient = np.zeros(n_flow)
+    of_use = (part.col >= used.start) & (part.col < used.stop)
+    column[lane[part.row[of_use]]] = part.col[of_use]
+    coefficient[lane[part.row[of_use]]] = -part.data[of_use]
+    if (column < 0).any():
+        return None
+    equal = (model.row_lower[block.start:block.stop] == 0) & (model.row_upper[block.start:block.stop] == 0)
+    whole = np.zeros(n_flow, dtype=bool)
+    whole[lane] = equal
+    return np.where(whole & (coefficient == lane_demand), column, -1)
+
+
+def recognise(model: SparseModel, single_source: bool = False) -> FacilityProblem | None:
     """The model as a :class:`FacilityProblem`, or None when it is not one (module docstring, *Which models*).
 
+    With ``single_source`` it recognises instead the single-source model: every lane has a yes/no (``use_``) and
+    every customer a hard demand served whole by one lane (a lane whose ``link_`` row cannot deliver the whole
+    demand is left out of the problem), no unmet penalty; the problem's ``use_column`` holds the yes/no columns.
+    This is the local search's model (:mod:`lanesolve.model.assign_search`), not the Lagrangian method's.
+
     Judged from the model alone: its column and row families, the whole-number columns (the open/close columns and
-    nothing else), and each lane's entries (one +1 in a depot's supply row, one +1 in a customer's balance row).
+    nothing else), and each lane's entries (one +1 in a depot's ``supply_`` or ``open_out_depot_`` row, one +1 in a
+    customer's balance row).
     """
     if model.product_columns is not None or len(getattr(model.lane_cost_terms, "columns", ())):
         return None
-    if not set(model.column_blocks) <= COLUMN_FAMILIES or "open_depot_" not in model.column_blocks:
+    columns = COLUMN_FAMILIES | SINGLE_SOURCE_COLUMNS if single_source else COLUMN_FAMILIES
+    if not set(model.column_blocks) <= columns or "open_depot_" not in model.column_blocks:
         return None
-    if not set(model.row_blocks) <= ROW_FAMILIES:
+    if not set(model.row_blocks) <= (ROW_FAMILIES | SINGLE_SOURCE_ROWS if single_source else ROW_FAMILIES):
+        return None
+    if single_source and (model.columns("unmet_").stop > model.columns("unmet_").start or "use_" not in
+                          model.column_blocks):
         return None
     opened = model.columns("open_depot_")
     integer = np.zeros(model.n_columns, dtype=bool)
     integer[opened] = True
+    integer[model.columns("use_")] = True
     if not np.array_equal(model.integer, integer):
         return None
     flows = model.columns("flow_")
     n_flow = flows.stop
     if flows.start != 0 or n_flow == 0:
         return None
-    depot_row = _one_entry_per_column(model, "supply_", n_flow)
-    customer_row = _one_entry_per_column(model, "balance_", n_flow)
-    if depot_row is None or customer_row is None:
+    depots = _depots(model, n_flow)
+    customer_row, _ = _one_entry_per_column(model, ("balance_",), n_flow)
+    if depots is None or customer_row is None:
         return None
-    supply_rows, balance_rows = model.row_blocks["supply_"], model.row_blocks["balance_"]
+    depot_row, supply, open_column = depots
+    balance_rows = model.row_blocks["balance_"]
     demand = model.row_upper[balance_rows.start:balance_rows.stop]
     if not np.array_equal(model.row_lower[balance_rows.start:balance_rows.stop], demand):
         return None
-    supply = model.row_upper[supply_rows.start:supply_rows.stop].astype(float)
     cost = model.cost
     n_customers = len(demand)
 
@@ -184,16 +263,15 @@ def recognise(model: SparseModel) -> FacilityProblem | None:
         at = np.array([customer_of[int(c)] for c in model.ids("unmet_").tolist()], dtype=np.int64)
         unmet_column[at] = np.arange(short.start, short.stop)
         penalty[at] = cost[short]
-
-    depot_of = {int(d): k for k, d in enumerate(supply_rows.ids.tolist())}
-    open_column = np.full(len(supply), -1, dtype=np.int64)
-    fixed = np.zeros(len(supply))
-    for column, depot in zip(range(opened.start, opened.stop), model.ids("open_depot_").tolist()):
-        if int(depot) in depot_of:  # a depot to decide with no lane stays closed
-            open_column[depot_of[int(depot)]] = column
-            fixed[depot_of[int(depot)]] = cost[column]
+    fixed = np.where(open_column >= 0, cost[np.maximum(open_column, 0)], 0.0)
 
     upper = np.minimum(model.upper[:n_flow], demand[customer_row])
+    use_column = None
+    if single_source:
+        use_column = _whole_deliveries(model, n_flow, demand[customer_row])
+        if use_column is None:
+            return None
+        upper = np.where(use_column >= 0, upper, 0.0)
     usable = upper > 0
     lane_depot = depot_row[usable]
     reach = np.minimum(supply, np.bincount(lane_depot, upper[usable], minlength=len(supply)))
@@ -201,7 +279,7 @@ def recognise(model: SparseModel) -> FacilityProblem | None:
                            lane_customer=customer_row[usable], lane_cost=cost[:n_flow][usable],
                            lane_upper=upper[usable], supply=supply, reach=reach, fixed=fixed, open_column=open_column,
                            demand=demand.astype(float), penalty=penalty, unmet_column=unmet_column,
-                           n_columns=model.n_columns)
+                           n_columns=model.n_columns, use_column=None if use_column is None else use_column[usable])
 
 
 def cover_knapsack(value: np.ndarray, weight: np.ndarray, need: float,

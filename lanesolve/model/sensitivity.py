@@ -44,8 +44,12 @@ stopping when nothing changes: the iterations follow the path depth) make every 
 within a tolerance are solver round-off), then Dijkstra (``scipy.sparse.csgraph``) gives the two trees
 :math:`d(R, \\cdot)` and :math:`d(\\cdot, R)`. A pair distance :math:`d(a, b)` is exact from the trees when its upper
 bound :math:`d(a, R) + d(R, b)` meets a lower bound (:math:`d(R, b) - d(R, a)`, :math:`d(a, R) - d(b, R)`,
-:math:`\\varphi_b - \\varphi_a`); the remaining pairs get one Dijkstra per distinct end, from whichever end has fewer
-distinct nodes.
+:math:`\\varphi_b - \\varphi_a`). Where the root's trees leave many pairs open (a meshed network whose depots all send
+their whole supply: no path leaves the root), the trees of a few landmarks in the mesh bound them the same way
+(Goldberg & Harrelson, SODA 2005). The remaining pairs get one Dijkstra per distinct end, from whichever end has
+fewer distinct classes, each stopped at its pair's upper bound or cap: the searches run on a graph with one node per
+class of nodes joined both ways by zero reduced cost (the nodes the plan's flow joins), where every reduced distance
+is the distance between the classes.
 """
 
 from __future__ import annotations
@@ -55,7 +59,7 @@ import math
 import numpy as np
 import pandas as pd
 from scipy.sparse import csr_matrix
-from scipy.sparse.csgraph import dijkstra
+from scipy.sparse.csgraph import connected_components, dijkstra
 
 from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow, _reduced_words_rows,  # noqa: F401
                                          arrow_column, figure_frame, money_words, two_sided_rows)
@@ -67,6 +71,11 @@ from lanesolve.model.result import SENSITIVITY_COLUMNS
 TOLERANCE = 1e-7
 #: How many rows of each figure the HTML summary should show (the sheet and JSON carry all).
 TOP_FEW = 5
+
+#: Landmarks beside the root whose trees bound the distances on a meshed network, and how many pairs the root's
+#: trees must leave open before they are made (two searches each: worth it only where many searches would follow).
+LANDMARKS = 4
+LANDMARKS_AFTER = 64
 
 LP_BASIS = "LP"
 FIXED_BASIS = "LP with the plan's yes/no and trip decisions fixed"
@@ -109,11 +118,36 @@ class _Graph:
         by_head = _grouped(self.r_head, self.n_nodes)
         self.potentials = _bellman_ford(self.n_nodes, self.r_tail, self.r_head, self.r_cost, by_head)
         weight = np.maximum(self.r_cost + self.potentials[self.r_tail] - self.potentials[self.r_head], 0.0)
-        self.forward = _csr(self.n_nodes, self.r_tail, self.r_head, weight, _grouped(self.r_tail, self.n_nodes))
-        self.backward = _csr(self.n_nodes, self.r_head, self.r_tail, weight, by_head)
+        # Searches run on the classes of nodes joined both ways at zero reduced cost, one graph node per class.
+        label, n_classes = _zero_classes(self.n_nodes, self.r_tail, self.r_head, weight)
+        between = label[self.r_tail] != label[self.r_head]
+        tail_c, head_c, weight = label[self.r_tail][between], label[self.r_head][between], weight[between]
+        self.forward = _csr(n_classes, tail_c, head_c, weight, _grouped(tail_c, n_classes))
+        self.backward = _csr(n_classes, head_c, tail_c, weight, _grouped(head_c, n_classes))
+        self.label = label
         phi, root = self.potentials, self.root
-        self.from_root = dijkstra(self.forward, indices=root) - phi[root] + phi
-        self.to_root = dijkstra(self.backward, indices=root) - phi + phi[root]
+        self.from_root = dijkstra(self.forward, indices=label[root])[label] - phi[root] + phi
+        self.to_root = dijkstra(self.backward, indices=label[root])[label] - phi + phi[root]
+        # (d(L, .), d(., L)) of each landmark L, the root first; more when the root's leave many pairs open.
+        self.trees = [(self.from_root, self.to_root)]
+        self.landmarked = False
+
+    def _add_landmarks(self) -> None:
+        """The two trees of a node in each of the :data:`LANDMARKS` largest classes (beside the root's): the classes
+        the plan's flow joins, in the middle of the mesh, from and to which many paths run (the landmark bounds of
+        A. V. Goldberg and C. Harrelson, "Computing the shortest path: A* search meets graph theory", SODA 2005)."""
+        self.landmarked = True
+        label, phi = self.label, self.potentials
+        size = np.bincount(label)
+        size[label[self.root]] = 0
+        chosen = np.argsort(-size, kind="stable")[:LANDMARKS]
+        chosen = chosen[size[chosen] > 0]
+        if not len(chosen):
+            return
+        node = np.unique(label, return_index=True)[1][chosen]  # the first node of each chosen class
+        away, back = dijkstra(self.forward, indices=chosen), dijkstra(self.backward, indices=chosen)
+        for k, at in enumerate(node):
+            self.trees.append((away[k][label] - phi[at] + phi, back[k][label] - phi + phi[at]))
 
     def distance(self, a: np.ndarray, b: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
         """Exact residual distances d(a[k], b[k]) (inf where b cannot be reached from a); see the module docstring.
@@ -129,24 +163,31 @@ class _Graph:
         return out
 
     def bounds(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the root's two trees: the upper bound
-        d(a, R) + d(R, b) is a path through the root; the lower bounds are phi_b - phi_a, d(R, b) - d(R, a) and
-        d(a, R) - d(b, R); where they meet, the distance is exact."""
+        """(lower bound, upper bound, exact) of d(a, b) from the potentials and the trees of the root, then of the
+        landmarks for the pairs the root's leave open (the landmarks are made once the root's trees leave more than
+        :data:`LANDMARKS_AFTER` pairs open): for each tree's node L the upper bound d(a, L) + d(L, b) is a path
+        through L; the lower bounds are phi_b - phi_a, d(L, b) - d(L, a) and d(a, L) - d(b, L) (triangle
+        inequalities); where they meet, the distance is exact."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
-        phi, up_r, down_r = self.potentials, self.from_root, self.to_root
-        with np.errstate(invalid="ignore"):
-            upper = down_r[a] + up_r[b]
-            lower = phi[b] - phi[a]
-            for low in (up_r[b] - up_r[a], down_r[a] - down_r[b]):
-                lower = np.where(np.isfinite(low) & (low > lower), low, lower)
-            exact = np.isfinite(upper) & (upper - lower <= SAME * np.maximum(1.0, np.abs(upper)))
+        lower, upper = _tightened(self.trees[:1], a, b, self.potentials[b] - self.potentials[a],
+                                  np.full(len(a), math.inf))
+        exact = _met(lower, upper)
+        todo = np.flatnonzero(~exact)
+        if not self.landmarked and len(todo) > LANDMARKS_AFTER:
+            self._add_landmarks()
+        if len(todo) and len(self.trees) > 1:
+            lower[todo], upper[todo] = _tightened(self.trees[1:], a[todo], b[todo], lower[todo], upper[todo])
+            exact[todo] = _met(lower[todo], upper[todo])
         return lower, upper, exact
 
     def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
-        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct nodes, each
+        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct classes, each
         search stopped at the largest bound of its pairs (``upper``, and ``cap`` where given; in reduced costs):
         a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
-        come back inf."""
+        come back inf.
+
+        The searches run between classes of nodes joined both ways by paths of zero reduced cost
+        (:func:`_zero_classes`): ends in one class share one search, and a class is reached as one node."""
         a, b = np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64)
         phi = self.potentials
         out = np.full(len(a), np.inf)
@@ -156,9 +197,11 @@ class _Graph:
         wanted = ~(reach < 0)  # a negative reduced bound: the pair is beyond its cap (reduced distances are >= 0)
         a_, b_, reach = a[wanted], b[wanted], reach[wanted]
         sources, targets, graph = a_, b_, self.forward
-        if len(np.unique(targets)) < len(np.unique(sources)):  # search from the fewer distinct ends
+        label = self.label
+        if len(np.unique(label[targets])) < len(np.unique(label[sources])):  # from the fewer distinct classes
             sources, targets, graph = b_, a_, self.backward
-        unique, which = np.unique(sources, return_inverse=True)
+        unique, which = np.unique(label[sources], return_inverse=True)
+        targets = label[targets]
         limit = np.full(len(unique), -np.inf)
         np.maximum.at(limit, which, reach)
         by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
@@ -221,10 +264,50 @@ def _csr(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray, order: 
     return csr_matrix((weight[order], head[order], indptr), shape=(n, n))
 
 
+def _tightened(trees: list, a: np.ndarray, b: np.ndarray, lower: np.ndarray,
+               upper: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``lower`` and ``upper`` bounds of d(a, b) tightened by the ``trees`` (d(L, .), d(., L)) of nodes L."""
+    with np.errstate(invalid="ignore"):
+        for away, back in trees:
+            upper = np.fmin(upper, back[a] + away[b])
+            for low in (away[b] - away[a], back[a] - back[b]):
+                lower = np.where(np.isfinite(low) & (low > lower), low, lower)
+    return lower, upper
+
+
+def _met(lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    """Where a finite upper bound meets the lower bound (within :data:`SAME`): the distance is exact."""
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(upper) & (upper - lower <= SAME * np.maximum(1.0, np.abs(upper)))
+
+
+def _zero_classes(n: int, tail: np.ndarray, head: np.ndarray, weight: np.ndarray) -> tuple[np.ndarray, int]:
+    """(class of each node, number of classes): nodes joined both ways by paths of residual arcs of zero reduced
+    cost share a class (the strongly connected components of those arcs).
+
+    Within a class every reduced distance is 0 both ways, so the reduced distance d'(u, v) depends only on the
+    classes of u and v, and equals the distance between the classes in the graph with one node per class and the
+    arcs between classes (reduced costs are non-negative: entering a class at one node and leaving at another costs
+    nothing more, and arcs inside a class never shorten a path). Between optimal potentials every arc with flow
+    strictly between its bounds has zero reduced cost both ways, so the classes gather the nodes the plan's flow
+    joins: on a meshed network the lanes at capacity end in a few dozen classes instead of hundreds of nodes, and a
+    search reaches a class of thousands of nodes as one node."""
+    zero = weight == 0.0
+    # bool entries: repeated arcs add up to True (small integers could wrap to an explicit 0)
+    graph = csr_matrix((np.ones(int(zero.sum()), dtype=bool), (tail[zero], head[zero])), shape=(n, n))
+    count, label = connected_components(graph, directed=True, connection="strong")
+    return label.astype(np.int64), int(count)
+
+
 def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray, order: np.ndarray) -> np.ndarray:
     """Potentials with ``cost + phi[tail] - phi[head] >= -tolerance`` on every arc, from a virtual source joined to
     every node at cost 0: all arcs are relaxed at once per iteration until nothing changes. ``order`` is
     :func:`_grouped` of ``head``.
+
+    After the first iteration only the arcs whose tail moved in the one before are relaxed: the others cannot move
+    their head (potentials only fall; such an arc was within the tolerance of its head when last relaxed), so each
+    iteration moves the same heads to the same values as relaxing every arc would, and most iterations of a deep
+    network touch a few arcs instead of all.
 
     Raises
     ------
@@ -235,16 +318,30 @@ def _bellman_ford(n: int, tail: np.ndarray, head: np.ndarray, cost: np.ndarray, 
     if not len(tail):
         return phi
     tolerance = SAME * max(1.0, float(np.abs(cost).max()))
-    tail, cost = tail[order], cost[order]
+    tail, cost, head = tail[order], cost[order], head[order]
     counts = np.bincount(head, minlength=n)  # arcs per head, in head order: the groups reduceat needs
-    heads = np.flatnonzero(counts)
-    starts = np.concatenate([[0], np.cumsum(counts[heads])[:-1]])
+    every_head = np.flatnonzero(counts)
+    every_start = np.concatenate([[0], np.cumsum(counts[every_head])[:-1]])
+    live = None  # every arc
     for _ in range(n + 1):
-        best = np.minimum.reduceat(phi[tail] + cost, starts)
+        if live is None:
+            heads, best = every_head, np.minimum.reduceat(phi[tail] + cost, every_start)
+        else:
+            to = head[live]  # grouped by head, as live keeps the order of the arcs
+            starts = np.flatnonzero(np.concatenate([[True], to[1:] != to[:-1]]))
+            heads, best = to[starts], np.minimum.reduceat(phi[tail[live]] + cost[live], starts)
         better = best < phi[heads] - tolerance
         if not better.any():
             return phi
-        phi[heads[better]] = best[better]
+        moved = heads[better]
+        phi[moved] = best[better]
+        changed = np.zeros(n, dtype=bool)
+        changed[moved] = True
+        live = np.flatnonzero(changed[tail])
+        if not len(live):
+            return phi
+        if 2 * len(live) > len(tail):  # relaxing every arc again is as right, and cheaper than picking most
+            live = None
     raise PlanNotOptimal("the plan's residual network has a negative cycle")
 
 

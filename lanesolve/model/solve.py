@@ -25,7 +25,10 @@ Time limit
 The engine gets the whole limit (or the time to a ``deadline``; CBC less the seconds it may take to stop,
 :func:`engine_deadline`). Only when a MIP engine stops without a plan does :mod:`lanesolve.model.construct` build one,
 in at most :func:`construction_seconds` past the limit (status ``feasible``, its gap against the best bound known); a
-pure flow an LP engine could not finish goes to the network algorithm.
+pure flow an LP engine could not finish goes to the network algorithm. Under ``auto``, a single-source facility
+model gives the engine the limit less :data:`ASSIGN_SHARE`, and a plan the engine stopped on without proving it gets
+the rest for the search of :mod:`lanesolve.model.assign_search`, which keeps only a cheaper plan: the search stays
+inside the limit, as the lane search does.
 
 Each maps its own words to one :class:`~lanesolve.model.result.SolveStatus` (tables in those modules): a MIP stopped
 by the time limit with a plan in hand is ``feasible`` with its gap, never ``optimal``; an LP stopped early is
@@ -44,7 +47,7 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.errors import SolverError
-from lanesolve.model import lane_search, network_flow
+from lanesolve.model import assign_search, lane_search, network_flow
 from lanesolve.model import carrier_results, lagrangian
 from lanesolve.model.arrays import Answer, SparseModel
 from lanesolve.model.build import build_model
@@ -184,6 +187,12 @@ FIRST_SHARE = 0.5
 #: benchmarks/mip_family.py: the engine finds few better plans late in its run, the search many; 0.4 kept a
 #: cheaper 15 x 50 plan than 0.25 at 60 s). Depots straight to customers keep ``lane_search.BASIS_SHARE``.
 SEARCH_SHARE = 0.4
+
+#: Share of the time limit that ``auto`` keeps, on a single-source facility model, for the assignment search of
+#: :mod:`lanesolve.model.assign_search` after the engine stopped on its limit with a plan it had not proven (our
+#: choice: 6 s at 60 s, the seconds in which that search took the Holmberg set's p57 and p58 to within 0.5 % of
+#: their published optima, benchmarks/README.md; a proof HiGHS would find only in the last tenth is given up).
+ASSIGN_SHARE = 0.1
 
 
 def _flow_answer(model: SparseModel, network: Network, flow) -> Answer:
@@ -413,6 +422,10 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         searching = solver == "auto" and end is not None and model.is_mip and lane_search.applies(network)
         if searching and model.n_columns < LARGE_MIP:
             engine_end = min(engine_end, end - lane_search.share(network, SEARCH_SHARE) * allowed)
+        assigning = (solver == "auto" and end is not None and model.is_mip and not searching
+                     and assign_search.applies(model))
+        if assigning:
+            engine_end = min(engine_end, end - ASSIGN_SHARE * allowed)
         first = None
         if solver == "auto" and engine == "highs" and model.n_columns >= LARGE_MIP and end is not None:
             from lanesolve.model.construct import construct
@@ -435,6 +448,13 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
             if better is not None:
                 answer.value, answer.gap = better, None
                 answer.solver = f"{answer.solver}; plan improved by lane search"
+        elif assigning and answer.status is SolveStatus.FEASIBLE and not constructed:
+            # A single-source facility plan the engine did not prove: the assignment search takes the rest of the
+            # limit (module docstring, *Time limit*).
+            better = assign_search.improve(model, plan_values(network, model, answer.value), end)
+            if better is not None:
+                answer.value, answer.gap = better, None
+                answer.solver = f"{answer.solver}; plan improved by assignment search"
         # The solver's stage includes handing it the model and reading its answer (CBC: the MPS and solution files).
         solver_seconds = time.perf_counter() - tick
 
