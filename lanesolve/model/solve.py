@@ -185,7 +185,7 @@ FIRST_SHARE = 0.5
 #: Share of the time limit that ``auto`` keeps, on a network whose only decisions are lane charges, for the lane
 #: search of :mod:`lanesolve.model.lane_search` after the engine stopped on its limit with a plan (our choice, by
 #: benchmarks/mip_family.py: the engine finds few better plans late in its run, the search many; 0.4 kept a
-#: cheaper 15 x 50 plan than 0.25 at 60 s).
+#: cheaper 15 x 50 plan than 0.25 at 60 s). Depots straight to customers keep ``lane_search.BASIS_SHARE``.
 SEARCH_SHARE = 0.4
 
 #: Share of the time limit that ``auto`` keeps, on a single-source facility model, for the assignment search of
@@ -423,7 +423,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         # (below LARGE_MIP, where it was measured; a larger one searches only in what time the engine leaves).
         searching = solver == "auto" and end is not None and model.is_mip and lane_search.applies(network)
         if searching and model.n_columns < LARGE_MIP:
-            engine_end = min(engine_end, end - SEARCH_SHARE * allowed)
+            engine_end = min(engine_end, end - lane_search.share(network, SEARCH_SHARE) * allowed)
         assigning = (solver == "auto" and end is not None and model.is_mip and not searching
                      and assign_search.applies(model))
         if assigning:
