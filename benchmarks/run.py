@@ -152,12 +152,14 @@ def child_ours(workbook: str, workdir: str, as_json: str = "") -> dict:
     json_mb = None
     if as_json:
         # What `lanesolve solve --json` does after the run: build the document and print it with indent=2.
+        from lanesolve.json_text import dumps_indented
+
         if SAMPLER is not None:
             SAMPLER.stage = "json"
         json_tick = time.perf_counter()
         printed = Path(workdir) / "ours-solved.json"
         with open(printed, "w", encoding="utf-8") as fh:
-            fh.write(json.dumps(outcome.to_json(), indent=2))
+            fh.write(dumps_indented(outcome.to_json()))  # json.dumps(..., indent=2)'s text, as the CLI prints it
             fh.write("\n")
         json_mb = printed.stat().st_size / 2 ** 20
         outcome.result.timings["json"] = time.perf_counter() - json_tick

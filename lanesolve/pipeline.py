@@ -147,13 +147,15 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     ``started`` (a :func:`time.monotonic` time) is when the time limit began to run: the solver gets what is left
     of it (the run's limit covers everything after reading).
     """
-    reasons = checks.presolve_checks(network) + carrier_checks.presolve_checks(network)
-    if reasons:
-        return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
-    limit = time_limit if time_limit is not None else network.settings.time_limit_s
-    progress(stage, limit)
-    deadline = started + limit if started is not None and limit else None
-    return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose, deadline=deadline)
+    with network.lanes_settled():  # nothing below edits the network: its active lanes are filtered once
+        reasons = checks.presolve_checks(network) + carrier_checks.presolve_checks(network)
+        if reasons:
+            return analyse.explain_no_plan(network, reasons, time_limit=time_limit, solver=solver)
+        limit = time_limit if time_limit is not None else network.settings.time_limit_s
+        progress(stage, limit)
+        deadline = started + limit if started is not None and limit else None
+        return analyse.solve_and_analyse(network, time_limit=time_limit, solver=solver, msg=verbose,
+                                         deadline=deadline)
 
 
 def _no_pause(outcome: RunOutcome) -> None:

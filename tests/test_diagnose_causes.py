@@ -274,3 +274,37 @@ def test_a_network_whose_only_lane_is_inactive_gets_its_reasons_without_a_limit_
     result = explain_no_plan(net, reasons)
     assert result.status is SolveStatus.INFEASIBLE
     assert all(reason in result.messages for reason in reasons)
+
+
+def test_a_remedy_edits_its_own_copy_while_the_active_lanes_are_settled():
+    # Inside lanes_settled the active lanes are filtered once; the min_volume remedy edits a copy of the network,
+    # and that copy must see its own edit. Reference: pandas' boolean filter of each network's lanes frame, and the
+    # least shortfall by SciPy's milp (as in the min_volume test above).
+    from lanesolve.model.remedies import _relaxed
+
+    net = make_network([{"id": "D", "supply": 100}], [{"id": "C", "demand": 6}],
+                       [lane("D", "C", min_volume=16, fixed_cost=1), lane("D", "C", 3.0, mode="rail", active=False)])
+    with net.lanes_settled():
+        before = net.active_lanes["min_volume"].tolist()
+        relaxed = _relaxed(net, "min_volume")
+        assert relaxed.active_lanes["min_volume"].tolist() == \
+            relaxed.lanes[relaxed.lanes["active"]]["min_volume"].tolist() == [0.0]
+        assert net.active_lanes["min_volume"].tolist() == before == [16.0]
+        _, diagnosis = diagnosed(net)
+    assert diagnosis.total_short == pytest.approx(least_shortfall_milp(net), abs=TOL) == pytest.approx(6)
+    assert {name: ok for name, ok, _ in diagnosis.rules}["min_volume"]
+
+
+def test_settled_active_lanes_follow_a_new_lanes_frame_and_never_travel_with_a_copy():
+    # Reference: pandas' boolean filter of the lanes frame the network holds at the time of the call.
+    net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
+                       [lane("D", "C"), lane("D", "C", 2.0, mode="rail", active=False)])
+    with net.lanes_settled():
+        assert net.active_lanes["mode"].tolist() == net.lanes[net.lanes["active"]]["mode"].tolist() == [""]
+        net.lanes = net.lanes.assign(active=True)
+        assert net.active_lanes["mode"].tolist() == net.lanes[net.lanes["active"]]["mode"].tolist() == ["", "rail"]
+        copied = copy.deepcopy(net)
+        assert "_kept_active" not in copied.__dict__
+        copied.lanes.loc[1, "active"] = False
+        assert copied.active_lanes["mode"].tolist() == [""]
+    assert "_kept_active" not in net.__dict__

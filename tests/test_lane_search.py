@@ -36,12 +36,13 @@ def transportation_network(depots: int, customers: int, seed: int):
                         [{"id": f"C{j}", "demand": int(d)} for j, d in enumerate(demand)], lanes)
 
 
-def worst_plan(net, model) -> np.ndarray:
-    """A feasible but poor plan: every charged lane paid for (the relaxation with every yes/no fixed at 1)."""
+def worst_plan(net, model, engine: str = "highs") -> np.ndarray:
+    """A feasible but poor plan from ``engine``: every charged lane paid for (the relaxation with every yes/no fixed
+    at 1)."""
     lower = model.lower.copy()
     lower[model.columns("use_")] = 1.0
     fixed = dataclasses.replace(model, lower=lower, integer=np.zeros(model.n_columns, dtype=bool))
-    answer = solve_model(fixed, "highs")
+    answer = solve_model(fixed, engine)
     assert answer.status is SolveStatus.OPTIMAL
     return answer.value
 

@@ -208,3 +208,15 @@ def test_cells_without_reference_are_counted(tmp_path):
         '<row><c t="inlineStr"><is><t>D1</t></is></c><c><f>1+1</f></c></row>'
     ))
     assert read_workbook(path).sheets["Depots"].bad_cells == {(2, 2): "formula =1+1 has no saved value"}
+
+
+def test_formula_before_a_cell_without_reference_is_found(tmp_path):
+    # The one survey pass over the part meets the formula first and the reference-less cell (ECMA-376 18.3.1.4:
+    # r is optional) after it; the formula without <v> must still be reported at its place (row 2, column B).
+    path = write_workbook(tmp_path / "mixed.xlsx", {"Depots": [["depot", "supply"], ["D1", 1]]})
+    _rewrite_sheet_xml(path, (
+        '<row r="1"><c r="A1" t="inlineStr"><is><t>depot</t></is></c><c r="B1" t="inlineStr"><is><t>supply</t>'
+        '</is></c></row><row r="2"><c r="A2" t="inlineStr"><is><t>D1</t></is></c><c r="B2"><f>1+1</f></c></row>'
+        '<row r="3"><c t="inlineStr"><is><t>D2</t></is></c></row>'
+    ))
+    assert read_workbook(path).sheets["Depots"].bad_cells == {(2, 2): "formula =1+1 has no saved value"}

@@ -142,6 +142,8 @@ def test_other_base_exceptions_from_calamine_are_not_swallowed(tmp_path, monkeyp
     [(1, "A1"), (2, "B999999"), (3, "C1000003")],  # a cell's reference past its row tag counts
     [(1, "A1"), (1_048_576, "Z1048576"), (1_048_577, "A1048577")],
     [(5, "A5"), (6, "AB1000001")],  # a two-letter column takes the full listing
+    [(1, "A1"), (2, "B0000002"), (999_998, "C999998")],  # seven digits with leading zeros: the six-digit rows decide
+    [(1_000_002, "A1000002"), (7, "B7"), (1_000_001, "C1000001")],  # rows out of order past the millionth
 ])
 def test_extent_of_a_sheet_near_the_row_limit_is_the_largest_reference(cells):
     # Reference: Python's XML parser reading every row number and cell reference of the part.

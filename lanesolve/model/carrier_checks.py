@@ -69,7 +69,7 @@ def presolve_checks(network: Network) -> list[str]:
 
     customers = network.customers
     demand = dict(zip(customers["id"], customers["demand"].astype(float)))
-    forwarding = set(lanes["origin"]) & set(demand)
+    forwarding = set(lanes["origin"].unique()) & set(demand)
     ends_at_customer = lanes["destination"].isin(demand).to_numpy() & ~lanes["destination"].isin(forwarding).to_numpy()
     direct = []
     for k, name in enumerate(carriers["id"].tolist()):

@@ -147,7 +147,7 @@ def carrier_figures(network: Network, model: SparseModel, values: np.ndarray, re
         names a carrier and there is no Carriers sheet.
     """
     lanes = network.active_lanes
-    named = [c for c in dict.fromkeys(lanes["carrier"].tolist()) if c]
+    named = [c for c in lanes["carrier"].unique().tolist() if c]  # in order of first appearance
     listed = network.carriers["id"].tolist()
     order = listed + [c for c in named if c not in listed]
     if not order:

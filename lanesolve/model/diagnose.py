@@ -174,8 +174,8 @@ def structural_causes(network: Network) -> tuple[list[str], list[str]]:
         if limit is not None and forced > limit:
             causes.append(f"{forced} {kind} are marked open but max_open_{kind} is {limit:.6g} (raise the setting "
                           f"or set some {kind} to decide).")
-    outbound = set(lanes["origin"])
-    into = set(lanes["destination"])
+    outbound = set(lanes["origin"].unique())  # unique() first: a set of a million cells one by one takes seconds
+    into = set(lanes["destination"].unique())
     for node, row, status in zip(network.hubs["id"], network.hubs["row"], network.hubs["status"]):
         if status != "closed" and node in into and node not in outbound:
             notes.append(f"Hubs row {row}: hub '{node}' has lanes in but no active lane out, so nothing can pass "

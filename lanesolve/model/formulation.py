@@ -278,6 +278,13 @@ class _Ends:
         return cls(ends["origin"], ends["destination"], flow)
 
 
+def _per_lane(node_values: pd.Series, position: np.ndarray) -> np.ndarray:
+    """A node column's value at each lane end (``position`` from :class:`_Ends`, -1 for another kind); 0 where the
+    end is not of that kind or the value is missing."""
+    values = np.append(node_values.to_numpy(dtype=float), 0.0)[position]  # -1 picks the appended 0
+    return np.where(np.isnan(values), 0.0, values)
+
+
 def _incidence(model: Assembly, ends: _Ends, kind: str, row_of_node: np.ndarray, out_sign: float,
                in_sign: float) -> None:
     """Entries of the node rows ``row_of_node`` (per node of ``kind``, -1 for none): ``out_sign`` for each lane
@@ -515,16 +522,13 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
     model = Assembly(components)
     capacity = effective_capacity(network) if design else lanes["capacity"].to_numpy(dtype=float)
 
-    origins = lanes["origin"].to_numpy(dtype=object)
-    destinations = lanes["destination"].to_numpy(dtype=object)
-    depot_handling = dict(zip(network.depots["id"], network.depots["handling_cost"].astype(float)))
-    hub_handling = dict(zip(network.hubs["id"], network.hubs["handling_cost"].astype(float)))
+    ends = _Ends.of(network, np.empty(0, dtype=np.int64))
     # Handling per lane: the origin depot's per-unit-out cost plus the destination hub's per-unit-through cost.
-    handling = (pd.Series(origins, dtype=object).map(depot_handling).fillna(0.0).to_numpy(dtype=float)
-                + pd.Series(destinations, dtype=object).map(hub_handling).fillna(0.0).to_numpy(dtype=float))
+    handling = (_per_lane(network.depots["handling_cost"], ends.origin["depot"])
+                + _per_lane(network.hubs["handling_cost"], ends.destination["hub"]))
     flow = model.add_columns("flow_", lanes.index.to_numpy(), 0.0, capacity, costs={
         "transport": lanes["cost_per_unit"].to_numpy(dtype=float), "handling": handling})
-    ends = _Ends.of(network, flow)
+    ends.flow = flow
 
     penalty = customer_penalties(network)
     soft = ~np.isnan(penalty)

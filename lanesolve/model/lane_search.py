@@ -22,6 +22,10 @@ descent starts from the re-routed plan, and the search goes on from the new loca
 :data:`ACCEPT_WORSE` dearer than the one it came from; the cheapest plan seen is kept. The draws are seeded, so a
 search that runs as many kicks gives the same plan; how many it runs depends on the time and the machine's load.
 
+On a network that is a fixed-charge transportation problem (depots straight to customers, no binding capacity, all
+demand met) the tabu search over basic plans of :mod:`lanesolve.model.basis_search` runs instead: it prices every
+pivot of the transportation simplex method at once, far more moves a second than drops re-solved one by one.
+
 Every plan it returns is feasible (the network algorithm's flow meets every row of the model) and costs less than the
 plan it started from; it never changes the solver's lower bound.
 """
@@ -32,7 +36,7 @@ import time
 
 import numpy as np
 
-from lanesolve.model import network_flow
+from lanesolve.model import basis_search, network_flow
 from lanesolve.model.arrays import SparseModel
 from lanesolve.model.network import Network
 
@@ -45,6 +49,10 @@ BETTER = 1e-9
 #: lanes forbidden at once by a kick, the seed of its choices, and how much worse a new local optimum may be and
 #: still be searched from (our choices, set by benchmarks/mip_family.py).
 KICK_SIZE = (2, 4)
+#: Share of the time limit that ``auto`` keeps for the search when the basis search applies (instead of
+#: ``solve.SEARCH_SHARE``): it finds better plans faster than the drops, and HiGHS's bound on the family instances
+#: barely moves after its first seconds (our choice, by benchmarks/mip_family.py at 60 s).
+BASIS_SHARE = 0.6
 KICK_SEED = 20261202
 ACCEPT_WORSE = 0.002
 
@@ -53,6 +61,12 @@ def applies(network: Network) -> bool:
     """True when the only decisions of ``network`` are fixed charges on lanes (the search's setting)."""
     return (network.has_fixed_charges and not network.has_design and not network.has_carrier_terms
             and network.products is None and network.emissions is None)
+
+
+def share(network: Network, default: float) -> float:
+    """Share of the time limit to keep for :func:`improve` on ``network``: :data:`BASIS_SHARE` when the basis search
+    takes it, else ``default``."""
+    return BASIS_SHARE if basis_search.applies(network) else default
 
 
 def plan_cost(model: SparseModel, lane_flow: np.ndarray, unmet: np.ndarray) -> tuple[float, np.ndarray]:
@@ -84,6 +98,11 @@ def improve(network: Network, model: SparseModel, values: np.ndarray, end: float
     unmet = np.zeros(search.graph.n_customers)
     unmet[model.ids("unmet_")] = values[model.columns("unmet_")]
     start_cost, _ = plan_cost(model, lane_flow, unmet)
+    if basis_search.applies(network):
+        # Depots straight to customers: the tabu search over basic plans (far more moves a second than drops).
+        walked = basis_search.search(network, lane_flow, end)
+        cost, values = plan_cost(model, walked, unmet)
+        return values if _cheaper(cost, start_cost) and _meets_rows(model, values) else None
     current = best = search.descend(lane_flow, unmet, end)
     rng = np.random.default_rng(KICK_SEED)
     while time.monotonic() < end:
@@ -98,6 +117,14 @@ def improve(network: Network, model: SparseModel, values: np.ndarray, end: float
         if _cheaper(found[0], best[0]):
             best = found
     return best[3] if _cheaper(best[0], start_cost) else None
+
+
+def _meets_rows(model: SparseModel, values: np.ndarray) -> bool:
+    """The plan meets every row and bound of the model (a guard: the basic plans are feasible by construction)."""
+    tol = 1e-6 * max(1.0, float(np.abs(values).max(initial=0.0)))
+    activity = model.matrix @ values
+    return bool((activity >= model.row_lower - tol).all() and (activity <= model.row_upper + tol).all()
+                and (values >= model.lower - tol).all() and (values <= model.upper + tol).all())
 
 
 def _cheaper(cost: float, than: float) -> bool:

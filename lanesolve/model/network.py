@@ -31,7 +31,9 @@ Every frame uses a default RangeIndex. Ids are unique across the three node fram
 
 from __future__ import annotations
 
+import contextlib
 import math
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -132,8 +134,48 @@ class Network:
 
     @property
     def active_lanes(self) -> pd.DataFrame:
-        """Lanes that take part in the model (``active`` true)."""
-        return self.lanes[self.lanes["active"]]
+        """Lanes that take part in the model (``active`` true).
+
+        Filtered anew on every call, except inside :meth:`lanes_settled`, where the first call's frame is kept and
+        handed out (as a shallow copy) while :attr:`lanes` is still the same frame.
+        """
+        kept = self.__dict__.get("_kept_active")
+        if kept is None or kept[0] is not self.lanes:
+            return self.lanes[self.lanes["active"]]
+        if kept[1] is None:
+            kept[1] = self.lanes[self.lanes["active"]]
+        return kept[1].copy(deep=False)  # copy-on-write: a caller's edit never reaches the kept frame
+
+    def lanes_at(self, index) -> pd.DataFrame:
+        """``lanes.loc[index]``; inside :meth:`lanes_settled`, the kept active lanes when they are exactly those."""
+        kept = self.__dict__.get("_kept_active")
+        if kept is not None and kept[0] is self.lanes and kept[1] is not None and kept[1].index.equals(pd.Index(index)):
+            return kept[1].copy(deep=False)
+        return self.lanes.loc[index]
+
+    @contextlib.contextmanager
+    def lanes_settled(self) -> Iterator[Network]:
+        """A block in which :attr:`active_lanes` filters the lanes once instead of on every call.
+
+        For the stages that read the network without editing it (checks, model, solve, figures): the caller
+        promises that nothing inside the block edits :attr:`lanes` in place (assigning a new frame is seen).
+        Copies never carry the kept frame (``copy.deepcopy`` and pickling drop it, ``dataclasses.replace`` builds
+        a new Network), so a remedy or a diagnosis that edits its own copy of the network sees its edits.
+        """
+        outermost = "_kept_active" not in self.__dict__
+        if outermost:
+            self.__dict__["_kept_active"] = [self.lanes, None]
+        try:
+            yield self
+        finally:
+            if outermost:
+                self.__dict__.pop("_kept_active", None)
+
+    def __getstate__(self) -> dict:
+        # Copies and pickles leave out the frame kept by lanes_settled: a copy is edited on its own.
+        state = dict(self.__dict__)
+        state.pop("_kept_active", None)
+        return state
 
     def node_kind(self) -> dict[str, str]:
         """Map every node id to ``"depot"``, ``"customer"`` or ``"hub"``."""

@@ -327,9 +327,11 @@ class Result:
             "cost_breakdown": ({line.key: line.amount for line in self.cost_lines()} if self.status.has_plan
                                else {k: num(v) for k, v in self.cost_breakdown.items()}),
             "flows": [
-                {"origin": r.origin, "destination": r.destination, "mode": r.mode, "flow": num(r.flow),
-                 "cost": num(r.variable_cost + r.fixed_charge)}
-                for r in self.flows.itertuples(index=False)
+                {"origin": origin, "destination": destination, "mode": mode, "flow": flow, "cost": cost}
+                for origin, destination, mode, flow, cost in zip(
+                    *(self.flows[c].tolist() for c in ("origin", "destination", "mode")),
+                    _numbers(self.flows["flow"], num),
+                    _numbers(self.flows["variable_cost"] + self.flows["fixed_charge"], num))
             ],
             "unmet": [{"customer": r.customer, "quantity": num(r.quantity)}
                       for r in self.unmet.itertuples(index=False)],
@@ -341,11 +343,15 @@ class Result:
             "open_nodes": [r.node for r in self.open_nodes.itertuples(index=False) if r.open],
             "trips": [{"origin": r.origin, "destination": r.destination, "mode": r.mode, "trips": int(r.trips)}
                       for r in self.trips.itertuples(index=False)],
-            "sensitivity": [{"figure": r.figure, "item": r.item, "value": num(r.value) if r.unique else None,
-                             "value_up": num(getattr(r, "value_up", r.value)),
-                             "value_down": num(getattr(r, "value_down", r.value)),
-                             "unique": bool(r.unique), "basis": r.basis, "text": r.text}
-                            for r in figures.itertuples(index=False)],
+            "sensitivity": [{"figure": figure, "item": item, "value": value if unique else None, "value_up": up,
+                             "value_down": down, "unique": unique, "basis": basis, "text": text}
+                            for figure, item, value, up, down, unique, basis, text in zip(
+                                figures["figure"].tolist(), figures["item"].tolist(),
+                                _numbers(figures["value"], num),
+                                _numbers(figures["value_up" if "value_up" in figures else "value"], num),
+                                _numbers(figures["value_down" if "value_down" in figures else "value"], num),
+                                [bool(unique) for unique in figures["unique"].tolist()],
+                                figures["basis"].tolist(), figures["text"].tolist())],
             "diagnosis": self.diagnosis.to_json() if self.diagnosis is not None else None,
             "carriers": [{"carrier": r.carrier, "lanes": int(r.lanes), "volume": num(r.volume), "share": num(r.share),
                           "cost": num(r.cost), "commitment": r.commitment or None, "bound": num(r.bound),
@@ -387,6 +393,14 @@ class Result:
 #: *LS Sensitivity* (``lanesolve.write.tables.MAX_REDUCED_COST_ROWS``); ``--all-figures`` lists every one. On a
 #: large network nearly every lane is unused, and a figure for each made the document hundreds of megabytes.
 JSON_UNUSED_LANES = 500
+
+
+def _numbers(column: pd.Series, num) -> list:
+    """``num`` of every value of a column (None for NaN and infinities), at C speed for a float column."""
+    if column.dtype == np.float64:
+        values = column.to_numpy()
+        return np.where(np.isfinite(values), values, None).tolist()
+    return [num(value) for value in column.tolist()]
 
 
 def capped_figures(sensitivity: pd.DataFrame, limit: int = JSON_UNUSED_LANES) -> tuple[pd.DataFrame, int]:

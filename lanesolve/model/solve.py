@@ -185,7 +185,7 @@ FIRST_SHARE = 0.5
 #: Share of the time limit that ``auto`` keeps, on a network whose only decisions are lane charges, for the lane
 #: search of :mod:`lanesolve.model.lane_search` after the engine stopped on its limit with a plan (our choice, by
 #: benchmarks/mip_family.py: the engine finds few better plans late in its run, the search many; 0.4 kept a
-#: cheaper 15 x 50 plan than 0.25 at 60 s).
+#: cheaper 15 x 50 plan than 0.25 at 60 s). Depots straight to customers keep ``lane_search.BASIS_SHARE``.
 SEARCH_SHARE = 0.4
 
 #: Share of the time limit that ``auto`` keeps, on a single-source facility model, for the assignment search of
@@ -246,7 +246,7 @@ def _fill_plan(network: Network, lane_index: np.ndarray, flow: np.ndarray, unmet
     ``flow`` is per lane of ``lane_index``, ``unmet_values`` per customer of ``unmet_index`` (both noise-cleaned),
     ``penalty`` per customer row, ``breakdown`` the cost per component before noise rounding.
     """
-    lanes = network.lanes.loc[lane_index]
+    lanes = network.lanes_at(lane_index)
     for name, value in breakdown.items():
         breakdown[name] = 0.0 if abs(value) < NOISE else value
     result.cost_breakdown = breakdown
@@ -265,9 +265,11 @@ def _fill_plan(network: Network, lane_index: np.ndarray, flow: np.ndarray, unmet
         result.lane_flow = np.zeros(len(network.lanes))
         result.lane_flow[network.lanes.index.get_indexer(lane_index)] = np.where(used, flow, 0.0)
 
-    outflow = pd.Series(flow, index=lanes["origin"].to_numpy()).groupby(level=0).sum().to_dict() if len(flow) else {}
-    inflow = (pd.Series(flow, index=lanes["destination"].to_numpy()).groupby(level=0).sum().to_dict()
-              if len(flow) else {})
+    # Grouped by the id columns themselves: grouping an id index by level looks each id up again (seconds at 1M
+    # lanes), and the columns group without turning each id into a Python object first.
+    per_lane = pd.Series(flow, index=lanes.index)
+    outflow = per_lane.groupby(lanes["origin"]).sum().to_dict() if len(flow) else {}
+    inflow = per_lane.groupby(lanes["destination"]).sum().to_dict() if len(flow) else {}
     customers = network.customers
     short = dict(zip(customers.loc[unmet_index, "id"], unmet_values))
     result.nodes = node_balance(network, outflow, inflow, short)
@@ -421,7 +423,7 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
         # (below LARGE_MIP, where it was measured; a larger one searches only in what time the engine leaves).
         searching = solver == "auto" and end is not None and model.is_mip and lane_search.applies(network)
         if searching and model.n_columns < LARGE_MIP:
-            engine_end = min(engine_end, end - SEARCH_SHARE * allowed)
+            engine_end = min(engine_end, end - lane_search.share(network, SEARCH_SHARE) * allowed)
         assigning = (solver == "auto" and end is not None and model.is_mip and not searching
                      and assign_search.applies(model))
         if assigning:

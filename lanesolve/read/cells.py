@@ -37,15 +37,25 @@ def type_masks(values: pd.Series) -> dict[str, pd.Series]:
     cells = values.to_numpy(dtype=object)
     kind = np.fromiter(map(_KIND.get, map(type, cells), repeat(0)), dtype=np.int8, count=len(cells))
     is_str = kind == 1
-    stripped = np.full(len(cells), "", dtype=object)
-    if is_str.any():
-        stripped[is_str] = np.array(list(map(str.strip, cells[is_str])), dtype=object)
+    strings = int(np.count_nonzero(is_str))
     numeric = kind == 2
     # None is an empty cell; a float NaN (from a lanes file, or a hand-built sheet) is a value, named "NaN" in
     # messages, never read as blank.
     empty_text = np.zeros(len(cells), dtype=bool)
-    empty_text[is_str] = np.fromiter(map(len, stripped[is_str]), dtype=np.int64, count=int(is_str.sum())) == 0
-    blank = (pd.isna(cells) & ~numeric) | empty_text
+    if strings == len(cells):  # a text column (ids, modes, yes/no): no blank cell but empty text
+        texts = list(map(str.strip, cells))
+        stripped = np.fromiter(texts, dtype=object, count=len(texts))
+        if "" in texts:
+            empty_text = stripped == ""
+        blank = empty_text
+    else:
+        stripped = np.full(len(cells), "", dtype=object)
+        if strings:
+            texts = list(map(str.strip, cells[is_str]))
+            stripped[is_str] = np.fromiter(texts, dtype=object, count=strings)
+            if "" in texts:
+                empty_text[is_str] = np.fromiter(map(len, texts), dtype=np.int64, count=strings) == 0
+        blank = (pd.isna(cells) & ~numeric) | empty_text
     index = values.index
 
     def series(mask: np.ndarray) -> pd.Series:

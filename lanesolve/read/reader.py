@@ -187,11 +187,12 @@ def read_workbook(path: str | Path) -> RawWorkbook:
             if archive is not None and name in package.sheet_parts:
                 part = package.sheet_parts[name]
                 data = sheet_xml.read_part(path, archive, part)
-                problem = _size_problem(name, *sheet_xml.used_extent(data))
+                survey = sheet_xml.Survey.of(data)
+                problem = _size_problem(name, *sheet_xml.used_extent(data, survey))
                 if problem is not None:
                     too_big.append(problem)
                     continue
-                bad = sheet_xml.bad_cells(data, f"{path}: sheet part {part}")
+                bad = sheet_xml.bad_cells(data, f"{path}: sheet part {part}", survey)
                 if contract.normalize(name) == contract.normalize(contract.SCENARIOS_SHEET) and \
                         package.styles_part in package.names:
                     styles = sheet_xml.read_part(path, archive, package.styles_part)

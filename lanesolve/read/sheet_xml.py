@@ -16,6 +16,7 @@ from __future__ import annotations
 import io
 import re
 import zipfile
+from dataclasses import dataclass
 from xml.etree import ElementTree
 
 import defusedxml
@@ -51,7 +52,44 @@ def column_number(letters: str) -> int:
     return number
 
 
-def bad_cells(data: bytes, where: str) -> dict[tuple[int, int], str]:
+# A cell tag other than <c r="...", a row tag other than <row r="digits", or a tag starting <f (a formula, or any
+# other element whose name starts with f, as the literal search b"<f" in data would find): one pass answers the three
+# questions the extent and bad-cell scans used to ask in eight literal searches.
+_IRREGULAR_OR_F = re.compile(rb'<(?:c(?:>|/>| (?!r="))|row(?:>| (?!r="[0-9]+"))|f)')
+
+
+@dataclass(frozen=True)
+class Survey:
+    """What one pass over a worksheet part finds about its markup, shared by :func:`used_extent` and
+    :func:`bad_cells`.
+
+    Attributes
+    ----------
+    regular : bool
+        The part has ``<sheetData``, every cell tag starts ``<c r="`` (no ``<c>``, ``<c/>`` or other attribute
+        first) and every row tag starts ``<row r="`` followed by digits (no ``<row>``): the markup openpyxl, Excel
+        and LibreOffice write, on which literal searches count rows and cells exactly.
+    formula_tag : bool
+        ``b"<f" in data``.
+    """
+
+    regular: bool
+    formula_tag: bool
+
+    @classmethod
+    def of(cls, data: bytes) -> Survey:
+        """Survey ``data`` in one regular-expression pass (stopping at the first irregular tag)."""
+        if b"<sheetData" not in data:
+            return cls(False, b"<f" in data)
+        formula = False
+        for match in _IRREGULAR_OR_F.finditer(data):
+            if data[match.start() + 1] != ord("f"):
+                return cls(False, formula or data.find(b"<f", match.start()) >= 0)
+            formula = True
+        return cls(True, formula)
+
+
+def bad_cells(data: bytes, where: str, survey: Survey | None = None) -> dict[tuple[int, int], str]:
     """Find error cells and formulas without a saved value in one worksheet part.
 
     A cell is ``<c r="B3" t="..."><f>formula</f><v>value</v></c>`` (ECMA-376 Part 1, 18.3.1.4). ``t="e"`` marks an
@@ -64,6 +102,8 @@ def bad_cells(data: bytes, where: str) -> dict[tuple[int, int], str]:
         The part's XML.
     where : str
         The file and part, for messages.
+    survey : Survey, optional
+        What :meth:`Survey.of` found in ``data``, when the caller has it (saves passes over the part).
 
     Returns
     -------
@@ -75,9 +115,10 @@ def bad_cells(data: bytes, where: str) -> dict[tuple[int, int], str]:
     WorkbookError
         The part declares XML entities or is not well-formed.
     """
-    if b't="e"' not in data and b"<f" not in data and b":f" not in data:
+    survey = survey or Survey.of(data)
+    if b't="e"' not in data and not survey.formula_tag and b":f" not in data:
         return {}
-    quick = _scan_bad_cells_quick(data)
+    quick = _scan_bad_cells_quick(data, survey.regular)
     if quick is not None:
         return quick
 
@@ -141,28 +182,24 @@ def bad_cells(data: bytes, where: str) -> dict[tuple[int, int], str]:
 _CELL_START = re.compile(rb"<c[\s>]")
 _FORMULA_START = re.compile(rb"<f[\s>/]")
 _TAG_REF = re.compile(rb'\sr="([A-Z]+)([0-9]+)"')
-# A reference with two or more column letters; without one, only rows of seven or more digits can be far, and the
-# largest row is among those (any row of seven digits is larger than every row of six), so only they are listed.
-_WIDE_REF = re.compile(rb' r="[A-Z]{2}')
-_WIDE_REF_ANY = re.compile(rb'\sr="[A-Z]{2}')
-_LONG_ROW = re.compile(rb' r="[A-Z]+([0-9]{7,})"')  # a literal prefix makes the scan several times faster
-_LONG_ROW_ANY = re.compile(rb'\sr="[A-Z]+([0-9]{7,})"')
 _TAG_TYPE = re.compile(rb'\st="([A-Za-z]+)"')
 _FORMULA = re.compile(rb"<f((?:\s[^>]*?)?)(?:/>|>(.*?)</f>)", re.S)
 _VALUE = re.compile(rb"<v\s*/>|<v>(.*?)</v>", re.S)
 _SHARED_INDEX = re.compile(rb'\ssi="([0-9]+)"')
 
 
-def _scan_bad_cells_quick(data: bytes) -> dict[tuple[int, int], str] | None:
+def _scan_bad_cells_quick(data: bytes, regular: bool = False) -> dict[tuple[int, int], str] | None:
     """The same scan as the streaming one, visiting only cells that hold a formula or an error.
 
     Works on the unprefixed markup common writers produce, with ``r`` first in every cell tag; returns None (use
     the streaming parser) otherwise, e.g. when elements carry a namespace prefix or a cell lacks its reference.
     Only literal byte searches run over the whole part, so it costs little beyond the cells it reports.
+    ``regular`` (:attr:`Survey.regular`) says the cell tags are already known to be of that form.
     """
-    cells = data.count(b"<c ") + data.count(b"<c>") + data.count(b"<c/>")
-    if b"<sheetData" not in data or cells != data.count(b'<c r="'):
-        return None
+    if not regular:
+        cells = data.count(b"<c ") + data.count(b"<c>") + data.count(b"<c/>")
+        if b"<sheetData" not in data or cells != data.count(b'<c r="'):
+            return None
     starts = sorted({m.start() for m in _FORMULA_START.finditer(data)} | set(_find_all(data, b' t="e"')))
     bad: dict[tuple[int, int], str] = {}
     shared_text: dict[bytes, str] = {}
@@ -245,7 +282,7 @@ _LONG_ROW = re.compile(rb' r="[A-Z]+([0-9]{7,})"')  # a literal prefix makes the
 _LONG_ROW_ANY = re.compile(rb'\sr="[A-Z]+([0-9]{7,})"')
 
 
-def used_extent(data: bytes) -> tuple[int, int]:
+def used_extent(data: bytes, survey: Survey | None = None) -> tuple[int, int]:
     """Rows and columns a worksheet part reaches from A1, as an upper bound, without parsing it.
 
     Calamine builds a dense grid up to the last used cell; its memory is rows x columns cells whatever the sheet
@@ -256,6 +293,8 @@ def used_extent(data: bytes) -> tuple[int, int]:
     ----------
     data : bytes
         The part's XML.
+    survey : Survey, optional
+        What :meth:`Survey.of` found in ``data``, when the caller has it.
 
     Returns
     -------
@@ -266,8 +305,10 @@ def used_extent(data: bytes) -> tuple[int, int]:
 
     Notes
     -----
-    A typical sheet costs a few literal byte searches over the part: row numbers come from ``<row r="...">``, and
-    cell references are listed one by one only when some reach past column Z or row 999,999.
+    A typical sheet costs a few passes over the part: the survey, a count of its row tags, a search for references
+    past column Z or row 999,999, and a listing of row numbers -- left out when some reference reaches row
+    1,000,000 or beyond, since any row of seven digits is larger than every row of six. Cell references are listed
+    one by one only when some reach past column Z.
 
     Examples
     --------
@@ -275,6 +316,10 @@ def used_extent(data: bytes) -> tuple[int, int]:
     ...             b'</sheetData></worksheet>')
     (9, 28)
     """
+    if (survey or Survey.of(data)).regular:
+        extent = _regular_extent(data)
+        if extent is not None:
+            return extent
     plain = b"<sheetData" in data and data.count(b'<c r="') == data.count(b"<c ") + data.count(b"<c>")
     if plain:
         tags = data.count(b"<row ") + data.count(b"<row>")
@@ -294,6 +339,31 @@ def used_extent(data: bytes) -> tuple[int, int]:
             for letters, digits in _REF.findall(data):
                 rows, columns = max(rows, int(digits)), max(columns, column_number(letters.decode()))
     return rows, columns
+
+
+_FAR_OR_WIDE = re.compile(rb' r="(?:([A-Z]{2})|[A-Z]*[0-9]{7})')
+
+
+def _regular_extent(data: bytes) -> tuple[int, int] | None:
+    """:func:`used_extent` of a part whose :attr:`Survey.regular` holds, or None when a reference reaches past
+    column Z (the general scan lists every reference then).
+
+    In regular markup every ``<row `` tag carries its number, so the count of ``<row r="`` is the count of row
+    tags, and the far references (:data:`_FAR_REF`'s) are the row tags and cell references of seven or more digits.
+    """
+    tags = data.count(b'<row r="')
+    far: list[int] = []
+    for match in _FAR_OR_WIDE.finditer(data):
+        if match.group(1) is not None:
+            return None
+        at = match.start()
+        number = _ROW_NUMBER.match(data, at - 4) if data[at - 4:at] == b"<row" else _LONG_ROW.match(data, at)
+        if number is not None:
+            far.append(int(number.group(1)))
+    rows = max(tags, max(far, default=0))
+    if rows < 1_000_000:  # no row of seven digits without leading zeros: the six-digit row numbers decide
+        rows = max(rows, max(map(int, _ROW_NUMBER.findall(data)), default=0))
+    return rows, 26 if tags else 0
 
 
 # ----------------------------------------------------------------------------------------------------------------

@@ -130,14 +130,19 @@ def _cell_text(value, kind: str) -> tuple[str, str | None, int]:
         if not math.isfinite(value):
             return "", None, 0
         return f"<v>{_number_text(value)}</v>", None, _shown_length(value, kind)
-    text = str(value)
+    body, length = _text_cell(str(value))
+    return body, ("inlineStr" if body else None), length
+
+
+def _text_cell(text: str) -> tuple[str, int]:
+    """(cell body, display length) of a text cell; body '' means blank."""
     if not text.isprintable():  # printable text holds none of the forbidden characters; skip the regex
         text = clean_text(text)
     elif len(text) > MAX_CELL_TEXT:
         text = text[:MAX_CELL_TEXT]
     if not text:
-        return "", None, 0
-    return f'<is><t xml:space="preserve">{escape(text)}</t></is>', "inlineStr", len(text)
+        return "", 0
+    return f'<is><t xml:space="preserve">{escape(text)}</t></is>', len(text)
 
 
 def _header_names(columns: list) -> list[str]:
@@ -202,18 +207,20 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | No
     parts.append('<row r="1">' + "".join(header_cells) + "</row>")
     style_attr = [f' s="{styles[k]}"' if k in styles else "" for k in kinds]
     cell_kinds = sheet.cell_kinds
-    # Text cells repeat (ids, modes, statuses): render each distinct text once.
+    # Text cells repeat (ids, modes, statuses): render each distinct text once. Numbers repeat within a column
+    # (rates, capacities, zero charges): render each distinct number of a column once, with its style and shown
+    # length. A zero is not kept, since -0.0 == 0.0 but they show with different lengths.
     text_cache: dict[str, tuple[str, int]] = {}
+    number_caches: list[dict[float, tuple[str, int]]] = [{} for _ in range(n_cols)]
     inf = math.inf
     for r, row in enumerate(sheet.rows):
         i = r + 2
         cells = []
         for j, value in enumerate(row[:n_cols]):
             kind, style = kinds[j], style_attr[j]
-            if cell_kinds:
-                own = cell_kinds.get((r, j))
-                if own is not None:
-                    kind, style = own, (f' s="{styles[own]}"' if own in styles else "")
+            own = cell_kinds.get((r, j)) if cell_kinds else None
+            if own is not None:
+                kind, style = own, (f' s="{styles[own]}"' if own in styles else "")
             # Fast paths for the common plain types; everything else goes through _cell_text.
             value_type = type(value)
             if value is None:  # a blank cell (as _cell_text would say)
@@ -221,12 +228,17 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | No
             if value_type is float:
                 if not (-inf < value < inf):  # NaN and infinities are blank cells (as _cell_text would say)
                     continue
-                cells.append(f'<c r="{letters[j]}{i}"{style}><v>{_number_text(value)}</v></c>')
-                length = _shown_length(value, kind)
+                known = number_caches[j].get(value) if value and own is None else None
+                if known is None:
+                    known = (f'{style}><v>{_number_text(value)}</v></c>', _shown_length(value, kind))
+                    if value and own is None:
+                        number_caches[j][value] = known
+                cells.append(f'<c r="{letters[j]}{i}"{known[0]}')
+                length = known[1]
             elif value_type is str and value:
                 cached = text_cache.get(value)
                 if cached is None:
-                    body, _type, length = _cell_text(value, kind)
+                    body, length = _text_cell(value)
                     cached = text_cache[value] = (f' t="inlineStr">{body}</c>' if body else "", length)
                 if not cached[0]:
                     continue
