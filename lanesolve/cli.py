@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import sys
 
 import click
@@ -77,6 +78,10 @@ def _fail(error: LanesolveError, as_json: bool) -> None:
 @click.version_option(__version__, prog_name="lanesolve")
 def main() -> None:
     """Plan freight lane volumes from a workbook at least total cost."""
+    # One BLAS thread unless the user chose otherwise. No command multiplies dense matrices of any size, and
+    # OpenBLAS's extra threads spin after each small product (the solve's dot products): about a quarter of a
+    # small run's CPU (benchmarks/README.md, *Small runs*). Read when NumPy loads, which no command has done yet.
+    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 
 @main.command()

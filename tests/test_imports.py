@@ -85,3 +85,25 @@ def test_a_workbook_with_errors_is_answered_without_scipy(tmp_path):
     # Guards the probe: the same run on the valid workbook builds a model and computes figures, and loads them.
     assert modules_after(f"from lanesolve import pipeline\npipeline.run({str(good)!r}, write=False)",
                          SCIPY_PARTS) == set(SCIPY_PARTS)
+
+
+def test_commands_run_with_one_blas_thread_unless_the_user_chose(tmp_path):
+    # OpenBLAS reads OPENBLAS_NUM_THREADS once, when NumPy loads: the command group must set it before any command
+    # has loaded NumPy, and keep a value the user set.
+    from pathlib import Path
+
+    example = Path(__file__).resolve().parents[1] / "example_workbooks" / "orvale_larder_supply.xlsx"
+    probe = (
+        "import os, sys\n"
+        "from lanesolve.cli import main\n"
+        "assert 'numpy' not in sys.modules\n"
+        f"main(['check', {str(example)!r}], standalone_mode=False)\n"
+        "assert 'numpy' in sys.modules\n"
+        "print(os.environ['OPENBLAS_NUM_THREADS'])\n"
+    )
+    env = {k: v for k, v in __import__("os").environ.items() if k != "OPENBLAS_NUM_THREADS"}
+    ours = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True, env=env)
+    theirs = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True,
+                            env={**env, "OPENBLAS_NUM_THREADS": "2"})
+    assert ours.stdout.split()[-1] == "1"
+    assert theirs.stdout.split()[-1] == "2"
