@@ -354,3 +354,26 @@ def test_a_cache_that_cannot_be_written_or_read_is_passed_over(tmp_path, network
     calls = _compiles(monkeypatch)
     assert report.render_html(network, result, info, []) == plain
     assert calls == [report.TEMPLATE_NAME]
+
+
+@pytest.mark.skipif(not hasattr(os, "getuid"), reason="folder owners and modes are POSIX")
+def test_a_cache_folder_others_may_write_in_is_never_used(tmp_path, network, result, monkeypatch, fresh_environment):
+    # The cache holds compiled code that runs: a folder another user could write in (mode 0o777 here) could hold
+    # code planted by them, so it is neither read nor written, and the template is compiled as without a cache.
+    info = make_info()
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", "off")
+    plain = report.render_html(network, result, info, [])  # reference: Jinja2 compiling the template itself
+    shared = tmp_path / "shared"
+    shared.mkdir()
+    shared.chmod(0o777)
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", str(shared))
+    fresh_environment()
+    calls = _compiles(monkeypatch)
+    assert report.render_html(network, result, info, []) == plain
+    assert calls == [report.TEMPLATE_NAME] and not list(shared.iterdir())
+    # A folder lanesolve makes itself is the user's alone.
+    made = tmp_path / "made" / "cache"
+    monkeypatch.setenv("LANESOLVE_TEMPLATE_CACHE", str(made))
+    fresh_environment()
+    report.render_html(network, result, info, [])
+    assert made.stat().st_mode & 0o077 == 0 and len(list(made.iterdir())) == 1

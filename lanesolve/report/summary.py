@@ -15,6 +15,7 @@ from __future__ import annotations
 import functools
 import math
 import os
+import stat
 from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable
@@ -486,8 +487,8 @@ def _bytecode_cache() -> "jinja2.BytecodeCache | None":
     Compiling the summary template costs about a tenth of a second of CPU, as much as a small run's solve; Jinja2's
     file-system bytecode cache keeps the compiled code keyed by template name and source checksum (an edited
     template is compiled afresh), by default in a folder of the user's own under the temporary folder that Jinja2
-    creates with owner-only access. ``LANESOLVE_TEMPLATE_CACHE`` names another folder (one only the user can write:
-    it holds code that runs), or ``off`` for none. A cache that cannot be read or written is passed over: the
+    creates with owner-only access. ``LANESOLVE_TEMPLATE_CACHE`` names another folder, used only when it is the
+    user's own and no one else may write in it (it holds code that runs), or ``off`` for none. A cache that cannot be read or written is passed over: the
     template is then compiled as before."""
     import jinja2
 
@@ -509,10 +510,23 @@ def _bytecode_cache() -> "jinja2.BytecodeCache | None":
         return None
     try:
         if folder:
-            os.makedirs(folder, exist_ok=True)
+            os.makedirs(folder, mode=0o700, exist_ok=True)
+            if not _own_folder(folder):  # code another user could plant there is never loaded
+                return None
         return QuietCache(folder or None)
     except (OSError, RuntimeError):  # no folder to be made there, or Jinja2 found no safe folder of the user's own
         return None
+
+
+def _own_folder(folder: str) -> bool:
+    """Whether ``folder`` is a folder of the user's own that no one else may write in (on systems without owners
+    and modes, whether it is a folder)."""
+    info = os.stat(folder)
+    if not stat.S_ISDIR(info.st_mode):
+        return False
+    if not hasattr(os, "getuid"):
+        return True
+    return info.st_uid == os.getuid() and not info.st_mode & (stat.S_IWGRP | stat.S_IWOTH)
 
 
 @functools.lru_cache(maxsize=None)
