@@ -49,12 +49,12 @@ BETTER = 1e-9
 #: lanes forbidden at once by a kick, the seed of its choices, and how much worse a new local optimum may be and
 #: still be searched from (our choices, set by benchmarks/mip_family.py).
 KICK_SIZE = (2, 4)
+KICK_SEED = 20261202
+ACCEPT_WORSE = 0.002
 #: Share of the time limit that ``auto`` keeps for the search when the basis search applies (instead of
 #: ``solve.SEARCH_SHARE``): it finds better plans faster than the drops, and HiGHS's bound on the family instances
 #: barely moves after its first seconds (our choice, by benchmarks/mip_family.py at 60 s).
 BASIS_SHARE = 0.6
-KICK_SEED = 20261202
-ACCEPT_WORSE = 0.002
 
 
 def applies(network: Network) -> bool:
