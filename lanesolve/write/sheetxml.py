@@ -10,10 +10,12 @@ entries untouched); the sheet prints one page wide with its header row on every 
 from __future__ import annotations
 
 import html
+import itertools
 import math
 import numbers
 import posixpath
 import re
+from collections.abc import Iterator
 
 from lanesolve.write.tables import ResultSheet, _plain
 
@@ -111,6 +113,25 @@ def _shown_length(value: float, kind: str) -> int:
     return len(f"{value:,.2f}") + (2 if kind == "rate" else 0)
 
 
+def _number_texts(values: list[float]) -> list[str]:
+    """:func:`_number_text` of many finite floats."""
+    texts = list(map(repr, map(float.__add__, values, itertools.repeat(0.0))))  # + 0.0: -0.0 shows as 0
+    return [text[:-2] if text.endswith(".0") else text for text in texts]
+
+
+def _widest(values, kind: str) -> int:
+    """The largest :func:`_shown_length` of some finite floats, a column kind's format applied to them all at once."""
+    if kind == "percent":
+        shown = [f"{value * 100:.1f} %" for value in values]
+    elif kind == "count":
+        shown = [f"{value:,.0f}" for value in values]
+    elif kind in ("text", "number"):
+        shown = _number_texts(list(values))
+    else:
+        shown = [f"{value:,.2f}" for value in values]
+    return max(map(len, shown), default=0) + (2 if kind == "rate" and shown else 0)
+
+
 def _cell_text(value, kind: str) -> tuple[str, str | None, int]:
     """(cell body, cell type attribute, display length) for one value; body '' means blank.
 
@@ -189,7 +210,127 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | No
     Returns
     -------
     (str, str)
-        The worksheet part text and the table range.
+        The worksheet part text and the table range: the pieces of :func:`sheet_pieces` joined.
+    """
+    ref, pieces = sheet_pieces(sheet, table_rel_id, styles)
+    return "".join(pieces), ref
+
+
+#: Rows rendered into one piece of a sheet's XML (:func:`sheet_pieces`): a few hundred kilobytes of text, so the
+#: writer compresses one piece while the next is made and holds a slice of a large sheet at a time, not all of it.
+ROWS_PER_PIECE = 4096
+
+#: Cell values whose columns are rendered from their distinct values (a float, a str and None never compare equal,
+#: so one dictionary holds them apart); a column holding anything else (an int, a bool, a NumPy scalar: 1, 1.0 and
+#: True are one key) is rendered a cell at a time.
+_DISTINCT_TYPES = frozenset({float, str, type(None)})
+
+
+class _Texts:
+    """The text cells of one sheet, each distinct text rendered once: what follows ``<c r="A2"`` (None for a
+    blank cell) and the length it shows, kept only where that is not the text's own length (text with characters
+    XML forbids, or past the cell limit), so the cache holds no object per text but its rendering."""
+
+    def __init__(self) -> None:
+        self.rest: dict[str, str | None] = {}
+        self.shown: dict[str, int] = {}
+
+    def one(self, text: str) -> tuple[str | None, int]:
+        """(rest, shown length) of one non-empty text."""
+        if text not in self.rest:
+            self.add([text])
+        return self.rest[text], self.shown.get(text, len(text))
+
+    def add(self, texts: list[str]) -> None:
+        """Render many distinct non-empty texts not yet seen.
+
+        Printable text within the cell limit -- nearly all -- is escaped in one pass over the texts joined by a
+        NUL, which printable text never holds, and split again; the rest goes one by one through
+        :func:`_text_cell`.
+        """
+        plain = [t for t in texts if len(t) <= MAX_CELL_TEXT and t.isprintable()]
+        if plain:
+            self.rest.update(zip(plain, [f' t="inlineStr"><is><t xml:space="preserve">{e}</t></is></c>'
+                                         for e in escape("\0".join(plain)).split("\0")]))
+        if len(plain) < len(texts):
+            for text in texts:
+                if text not in self.rest:
+                    body, length = _text_cell(text)
+                    self.rest[text] = f' t="inlineStr">{body}</c>' if body else None
+                    self.shown[text] = length
+
+    def widest(self, texts: list[str]) -> int:
+        """The largest shown length of some rendered texts that are not blank."""
+        if not self.shown:
+            return max(map(len, texts), default=0)
+        return max([self.shown.get(t, len(t)) for t in texts if self.rest[t] is not None], default=0)
+
+
+def _cell_rest(value, kind: str, style: str, texts: _Texts) -> tuple[str | None, int]:
+    """What follows ``<c r="A2"`` for one cell (its style, type, value and end tag) and its shown length; None for
+    a blank cell (None, NaN, infinities, empty text)."""
+    value_type = type(value)
+    if value is None:
+        return None, 0
+    if value_type is float:
+        if not (-math.inf < value < math.inf):  # NaN and infinities are blank cells (as _cell_text would say)
+            return None, 0
+        return f"{style}><v>{_number_text(value)}</v></c>", _shown_length(value, kind)
+    if value_type is str and value:
+        return texts.one(value)
+    body, cell_type, length = _cell_text(value, kind)
+    if not body:
+        return None, 0
+    type_attr = f' t="{cell_type}"' if cell_type else ""
+    number_style = style if cell_type is None else ""
+    return f"{number_style}{type_attr}>{body}</c>", length
+
+
+def _column_cells(values, kind: str, style: str, own_kinds: dict[int, str] | None, styles: dict[str, int],
+                  texts: _Texts) -> tuple[list, int]:
+    """One column's cells: what follows each cell's reference (None for a blank cell) and the widest shown length.
+
+    Text cells repeat (ids, modes, statuses) and so do numbers within a column (rates, capacities, zero charges):
+    a column of floats, text and blanks is rendered once per distinct value and looked up for every cell. A cell
+    with a kind of its own (:attr:`ResultSheet.cell_kinds`) and a column holding other types go a cell at a time.
+    """
+    if own_kinds is None and set(map(type, values)) <= _DISTINCT_TYPES:
+        # Each distinct value, then what follows its cell reference: None, NaN, infinities and empty text stay
+        # None, blank cells.
+        rest_of = dict.fromkeys(values)
+        strings = [v for v in rest_of if type(v) is str and v]
+        texts.add([t for t in strings if t not in texts.rest])
+        rest_of.update(zip(strings, map(texts.rest.__getitem__, strings)))
+        width = texts.widest(strings)
+        finite = [v for v in rest_of if type(v) is float and -math.inf < v < math.inf]
+        if finite:
+            rest_of.update(zip(finite, [f"{style}><v>{text}</v></c>" for text in _number_texts(finite)]))
+            width = max(width, _widest(finite, kind))
+            if 0.0 in rest_of:  # 0.0 and -0.0 are one key (and one set member), but "-0.00" is wider than "0.00"
+                signs = {math.copysign(1.0, v) for v in values if v == 0 and type(v) is float}
+                width = max(width, _widest([math.copysign(0.0, sign) for sign in signs], kind))
+        return list(map(rest_of.__getitem__, values)), width
+    rests: list = []
+    width = 0
+    for r, value in enumerate(values):
+        own = own_kinds.get(r) if own_kinds else None
+        if own is None:
+            rest, length = _cell_rest(value, kind, style, texts)
+        else:
+            rest, length = _cell_rest(value, own, f' s="{styles[own]}"' if own in styles else "", texts)
+        rests.append(rest)
+        if rest is not None and length > width:
+            width = length
+    return rests, width
+
+
+def sheet_pieces(sheet: ResultSheet, table_rel_id: str,
+                 styles: dict[str, int] | None = None) -> tuple[str, Iterator[str]]:
+    """The data range of one result sheet and its worksheet XML as an iterator of text pieces, in order.
+
+    The cells are rendered here, a column at a time (the column widths in the part's head need every cell); the
+    pieces -- the head, :data:`ROWS_PER_PIECE` rows at a time, the tail -- are made as they are taken, so a writer
+    can compress one while the next is made. Parameters as :func:`sheet_xml`.
     """
     styles = styles or {}
     headers = _header_names(sheet.columns)
@@ -198,70 +339,38 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | No
     kinds = [sheet.kinds.get(c, "number") for c in sheet.columns] + ["number"] * (n_cols - len(sheet.columns))
     # Widths start from the header (plus room for the filter button).
     widths = [len(h) + 3 for h in headers]
-
-    parts: list[str] = []
-    header_cells = []
-    for j, name in enumerate(headers):
-        header_cells.append(f'<c r="{letters[j]}1" t="inlineStr"><is><t xml:space="preserve">{escape(name)}</t>'
-                            f'</is></c>')
-    parts.append('<row r="1">' + "".join(header_cells) + "</row>")
     style_attr = [f' s="{styles[k]}"' if k in styles else "" for k in kinds]
-    cell_kinds = sheet.cell_kinds
-    # Text cells repeat (ids, modes, statuses): render each distinct text once. Numbers repeat within a column
-    # (rates, capacities, zero charges): render each distinct number of a column once, with its style and shown
-    # length. A zero is not kept, since -0.0 == 0.0 but they show with different lengths.
-    text_cache: dict[str, tuple[str, int]] = {}
-    number_caches: list[dict[float, tuple[str, int]]] = [{} for _ in range(n_cols)]
-    inf = math.inf
-    for r, row in enumerate(sheet.rows):
-        i = r + 2
-        cells = []
-        for j, value in enumerate(row[:n_cols]):
-            kind, style = kinds[j], style_attr[j]
-            own = cell_kinds.get((r, j)) if cell_kinds else None
-            if own is not None:
-                kind, style = own, (f' s="{styles[own]}"' if own in styles else "")
-            # Fast paths for the common plain types; everything else goes through _cell_text.
-            value_type = type(value)
-            if value is None:  # a blank cell (as _cell_text would say)
-                continue
-            if value_type is float:
-                if not (-inf < value < inf):  # NaN and infinities are blank cells (as _cell_text would say)
-                    continue
-                known = number_caches[j].get(value) if value and own is None else None
-                if known is None:
-                    known = (f'{style}><v>{_number_text(value)}</v></c>', _shown_length(value, kind))
-                    if value and own is None:
-                        number_caches[j][value] = known
-                cells.append(f'<c r="{letters[j]}{i}"{known[0]}')
-                length = known[1]
-            elif value_type is str and value:
-                cached = text_cache.get(value)
-                if cached is None:
-                    body, length = _text_cell(value)
-                    cached = text_cache[value] = (f' t="inlineStr">{body}</c>' if body else "", length)
-                if not cached[0]:
-                    continue
-                cells.append(f'<c r="{letters[j]}{i}"{cached[0]}')
-                length = cached[1]
-            else:
-                body, cell_type, length = _cell_text(value, kind)
-                if not body:
-                    continue
-                type_attr = f' t="{cell_type}"' if cell_type else ""
-                number_style = style if cell_type is None else ""
-                cells.append(f'<c r="{letters[j]}{i}"{number_style}{type_attr}>{body}</c>')
-            if length > widths[j]:
-                widths[j] = length
-        parts.append(f'<row r="{i}">' + "".join(cells) + "</row>")
+    own_kinds: list[dict[int, str] | None] = [None] * n_cols
+    for (r, j), own in (sheet.cell_kinds or {}).items():
+        if 0 <= j < n_cols:
+            if own_kinds[j] is None:
+                own_kinds[j] = {}
+            own_kinds[j][r] = own
+
+    rows = sheet.rows
+    n_rows = len(rows)
+    # A row shorter than the header has blank cells at its end; cells beyond the header are not written.
+    columns = list(itertools.zip_longest(*rows))[:n_cols] if n_rows else []
+    columns += [(None,) * n_rows] * (n_cols - len(columns))
+    texts = _Texts()
+    cells: list[list] = []
+    for j, values in enumerate(columns):
+        rests, width = _column_cells(values, kinds[j], style_attr[j], own_kinds[j], styles, texts)
+        cells.append(rests)
+        if j < len(widths) and width > widths[j]:
+            widths[j] = width
+    del columns, texts
+
+    header_cells = "".join(f'<c r="{letters[j]}1" t="inlineStr"><is><t xml:space="preserve">{escape(name)}</t>'
+                           f'</is></c>' for j, name in enumerate(headers))
     # A table needs at least one data row; an empty result keeps one blank row inside the table.
-    last_row = max(len(sheet.rows) + 1, 2)
+    last_row = max(n_rows + 1, 2)
     ref = f"A1:{letters[-1]}{last_row}"
     # Width in characters, capped so a long message does not push the other columns off screen.
     cols = "".join(f'<col min="{j + 1}" max="{j + 1}" width="{min(w + 1, 80):.1f}" customWidth="1"/>'
                    for j, w in enumerate(widths))
     sheet_pr, page_setup = print_setup_xml(n_cols)
-    text = "".join([
+    head = "".join([
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n',
         f'<worksheet xmlns="{MAIN_NS}" xmlns:r="{REL_NS[0]}">',
         sheet_pr,
@@ -270,13 +379,28 @@ def sheet_xml(sheet: ResultSheet, table_rel_id: str, styles: dict[str, int] | No
         'state="frozen"/><selection pane="bottomLeft" activeCell="A2" sqref="A2"/></sheetView></sheetViews>',
         '<sheetFormatPr defaultRowHeight="15"/>',
         f"<cols>{cols}</cols>",
-        "<sheetData>", "".join(parts), "</sheetData>",
+        "<sheetData>", '<row r="1">', header_cells, "</row>",
+    ])
+    tail = "".join([
+        "</sheetData>",
         '<pageMargins left="0.7" right="0.7" top="0.75" bottom="0.75" header="0.3" footer="0.3"/>',
         page_setup,
         f'<tableParts count="1"><tablePart r:id="{table_rel_id}"/></tableParts>',
         "</worksheet>",
     ])
-    return text, ref
+
+    def pieces() -> Iterator[str]:
+        yield head
+        for start in range(0, n_rows, ROWS_PER_PIECE):
+            stop = min(start + ROWS_PER_PIECE, n_rows)
+            numbers = list(map(str, range(start + 2, stop + 2)))
+            row_cells = [[f'<c r="{letter}{i}"{rest}' if rest is not None else "" for i, rest in
+                          zip(numbers, rests[start:stop])] for letter, rests in zip(letters, cells)]
+            yield "".join(itertools.chain.from_iterable(
+                zip([f'<row r="{i}">' for i in numbers], *row_cells, itertools.repeat("</row>"))))
+        yield tail
+
+    return ref, pieces()
 
 
 def table_xml(table_id: int, name: str, headers: list[str], ref: str) -> str:
