@@ -18,6 +18,7 @@ import signal
 import subprocess
 import sys
 import textwrap
+import threading
 import time
 import zipfile
 from pathlib import Path
@@ -113,21 +114,29 @@ def test_disk_full_mid_write(book, monkeypatch, room):
 
 def test_exception_mid_write(book, monkeypatch):
     before = book.read_bytes()
-    real = writeback.sheet_xml
+    real = writeback.sheet_pieces
     calls = []
 
     def second_sheet_fails(sheet, rel_id, *styles):
         calls.append(sheet.name)
-        if len(calls) == 2:
-            raise RuntimeError("injected failure while building the second result sheet")
-        return real(sheet, rel_id, *styles)
+        ref, pieces = real(sheet, rel_id, *styles)
+        if len(calls) < 2:
+            return ref, pieces
 
-    monkeypatch.setattr(writeback, "sheet_xml", second_sheet_fails)
+        def failing():
+            yield next(pieces)  # the sheet's head goes to the writer's thread, then making its rows fails
+            raise RuntimeError("injected failure while building the second result sheet")
+
+        return ref, failing()
+
+    monkeypatch.setattr(writeback, "sheet_pieces", second_sheet_fails)
     with pytest.raises(WriteError, match=r"injected failure.*left as it was"):
         pipeline.run(book)
     assert len(calls) == 2  # the failure really came mid-write, after a sheet was built
     assert book.read_bytes() == before
     _folder_has_only(book.parent, book.name)
+    # The writer's compressing thread was stopped before the temporary file was removed.
+    assert not [t for t in threading.enumerate() if t.name.startswith("lanesolve-zip")]
 
 
 def test_fsync_failure(book, monkeypatch):

@@ -7,18 +7,22 @@ spreadsheet program converting a result sheet to CSV). Hand-made Network/Result 
 
 from __future__ import annotations
 
+import io
 import math
 import os
+import random
 import re
 import shutil
 import stat
 import subprocess
 import sys
+import threading
 import xml.etree.ElementTree as ET
 import zipfile
 from pathlib import Path
 from types import SimpleNamespace
 
+import numpy as np
 import openpyxl
 import pandas as pd
 import pytest
@@ -27,6 +31,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 import _workbooks as wbk  # noqa: E402
 
 from lanesolve.write import atomic
+from lanesolve.write import sheetxml  # noqa: E402
 from lanesolve.write import writeback  # noqa: E402
 from lanesolve.write import zipcopy  # noqa: E402
 from lanesolve.contract import RESULT_PREFIX  # noqa: E402
@@ -563,6 +568,72 @@ def test_cells_keep_full_precision_and_special_values_are_blank(tmp_path, rich):
     assert 'r="C3"' in sheet_part(rich, "LS Rounding") and "-0" not in sheet_part(rich, "LS Rounding")
 
 
+def _expected_cell(value):
+    """What a spreadsheet reader should find in a cell written from ``value``, by the rules of
+    :class:`ResultSheet`: None, NaN, infinities and empty text are blank; text loses the characters XML 1.0 forbids
+    (W3C XML 1.0, section 2.2, Char); numbers keep their value (-0.0 reads as 0)."""
+    value = value.item() if isinstance(value, np.generic) else value
+    if value is None or isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, str):
+        return re.sub("[\x00-\x08\x0b\x0c\x0e-\x1f]", "", value) or None
+    return value
+
+
+def test_a_sheet_of_many_pieces_reads_back_cell_for_cell(tmp_path, rich, monkeypatch):
+    # More rows than one piece of sheet XML holds (pieces made small here), so the sheet is made, compressed and
+    # written in several pieces; each column mixes what result sheets hold: repeated and distinct numbers and ids,
+    # blanks of every kind, -0.0 beside 0.0, NumPy scalars, integers and booleans, forbidden characters, short and
+    # long rows.
+    monkeypatch.setattr(sheetxml, "ROWS_PER_PIECE", 64)
+    monkeypatch.setattr(zipcopy, "MAX_QUEUED_BYTES", 1000)  # the caller waits for the writer's thread, often
+    n = 3 * 64 + 7
+    rng = random.Random(7)
+    specials = [None, math.nan, math.inf, -math.inf, -0.0, 0.0, "", np.float64(2.5), np.int64(3), 4, True, False,
+                "a\x01b & <c>", "C17"]
+    rows = []
+    for i in range(n):
+        row = [f"C{i % 97}", rng.choice([1.5, 2.25, 0.1 + 0.2, float(i)]), rng.random() * 1000,
+               rng.choice(specials), rng.choice(specials), f"sentence {i} about <lane> & 'depot'"]
+        rows.append(row[:rng.choice([4, 6, 6, 6])] + (["beyond the header"] if i % 11 == 0 else []))
+    columns = ["id", "rate", "amount", "mixed money", "mixed percent", "words"]
+    kinds = {"id": "text", "rate": "rate", "amount": "money", "mixed money": "money", "mixed percent": "percent",
+             "words": "text"}
+    write_results(rich, rich, [ResultSheet("LS Many rows", columns, rows, kinds)])
+    ET.fromstring(sheet_part(rich, "LS Many rows"))  # Python's XML parser: well formed
+    ws = openpyxl.load_workbook(rich)["LS Many rows"]  # openpyxl as the independent reader
+    found = list(ws.iter_rows(values_only=True))
+    assert len(found) == n + 1 and list(found[0]) == columns
+    for i, row in enumerate(rows):
+        wanted = [_expected_cell(v) for v in row[:len(columns)]] + [None] * (len(columns) - len(row))
+        assert list(found[i + 1]) == wanted, f"row {i + 2}"
+
+
+def test_negative_zero_widens_its_column_whichever_zero_comes_first(tmp_path, rich):
+    # The width rule of the sheets: the longest value as its column's number format shows it, plus one. Python's
+    # format gives "-0.0 %" for -0.0 in a percent column, a character wider than "0.0 %"; the two zeros are one
+    # value to a dictionary, so the writer must still see both.
+    sheets = [ResultSheet(f"LS Zeros {n}", ["p"], [[a], [b]], {"p": "percent"})
+              for n, (a, b) in enumerate([(0.0, -0.0), (-0.0, 0.0), (0.0, 0.0)])]
+    write_results(rich, rich, sheets)
+    wb = openpyxl.load_workbook(rich)
+    assert [wb[s.name].column_dimensions["A"].width for s in sheets] == [7.0, 7.0, 6.0]
+
+
+def test_columns_rendered_from_distinct_values_match_cell_by_cell(tmp_path):
+    # The writer renders a column of floats, text and blanks once per distinct value; a column with other values,
+    # or with cells of a kind of their own, goes a cell at a time (an empty dict of own kinds forces that path).
+    rng = random.Random(11)
+    pool = [None, math.nan, math.inf, -0.0, 0.0, 1.0, 0.1 + 0.2, 1e-7, 123456.789, -5.5, "", "id 1", "a & b",
+            "x\x02y", "\x03", "é" * 3, "long " * 7000]
+    for kind in writeback.KINDS:
+        for _ in range(20):
+            values = tuple(rng.choice(pool) for _ in range(rng.randint(0, 40)))
+            by_value = sheetxml._column_cells(values, kind, ' s="9"', None, {}, sheetxml._Texts())
+            by_cell = sheetxml._column_cells(values, kind, ' s="9"', {}, {}, sheetxml._Texts())
+            assert by_value == by_cell, (kind, values)
+
+
 def test_rate_times_flow_equals_the_cost_in_the_cells(tmp_path, rich):
     # The planners' finding: a rate shown as 1.19 beside 140 units and a cost of 166.64. The cells hold the full
     # rate and the format shows 4 decimals, so rate x flow = cost holds on what the sheet holds (140 x 1.190285714).
@@ -639,6 +710,76 @@ def test_failure_mid_write_leaves_the_original_and_no_temp_file(tmp_path, rich, 
     assert {"xl/workbook.xml", "[Content_Types].xml"} <= set(calls)  # the failure came mid-write
     assert rich.read_bytes() == before
     assert leftovers(tmp_path) == []
+
+
+def _spliced(background: bool) -> bytes:
+    """A zip of text, bytes and pieced members written by the splicer, in the foreground or in its thread."""
+    out = io.BytesIO()
+    pieces = (f"<row r='{i}'>" + "é" * (i % 5) + "</row>" for i in range(3000))
+    with zipcopy.ZipSplicer(out, background=background) as zout:
+        zout.add("a.xml", "<a>" * 5000, (2024, 5, 1, 10, 0, 0))
+        zout.add("b.bin", bytes(range(256)) * 40, (2024, 5, 1, 10, 0, 0))
+        zout.add("c.xml", pieces, (2024, 5, 1, 10, 0, 0))
+        zout.add("d.xml", "", (2024, 5, 1, 10, 0, 0))
+        zout.close()
+    return out.getvalue()
+
+
+def test_the_writers_thread_writes_the_same_zip(monkeypatch):
+    # Small slices and a small queue: many compression steps, the caller often waiting for the thread.
+    monkeypatch.setattr(zipcopy, "_SLICE", 1000)
+    monkeypatch.setattr(zipcopy, "MAX_QUEUED_BYTES", 3000)
+    data = _spliced(background=True)
+    assert data == _spliced(background=False)
+    with zipfile.ZipFile(io.BytesIO(data)) as z:  # Python's zipfile as the independent reader (CRC checked)
+        assert z.testzip() is None and z.namelist() == ["a.xml", "b.bin", "c.xml", "d.xml"]
+        assert z.read("c.xml").decode() == "".join(f"<row r='{i}'>" + "é" * (i % 5) + "</row>"
+                                                   for i in range(3000))
+        assert z.read("b.bin") == bytes(range(256)) * 40 and z.read("d.xml") == b""
+
+
+class _FailingFile(io.BytesIO):
+    """A file that takes ``room`` bytes, then fails every write as a full disk does, and records writes after."""
+
+    def __init__(self, room: int):
+        super().__init__()
+        self.room, self.failed = room, False
+
+    def write(self, data):
+        if self.failed or len(data) > self.room:
+            self.failed = True
+            raise OSError(28, "No space left on device")
+        self.room -= len(data)
+        return super().write(data)
+
+
+def test_a_failure_in_the_writers_thread_is_raised_and_stops_it(monkeypatch):
+    monkeypatch.setattr(zipcopy, "_SLICE", 1000)
+    out = _FailingFile(room=50)
+    with pytest.raises(OSError, match="No space left"):
+        with zipcopy.ZipSplicer(out, background=True) as zout:
+            for n in range(50):
+                zout.add(f"m{n}.xml", "<x/>" * 2000, (2024, 5, 1, 10, 0, 0))
+            zout.close()
+    written = out.getvalue()
+    assert not [t for t in threading.enumerate() if t.name.startswith("lanesolve-zip")]
+    assert out.getvalue() == written and out.tell() == len(written) <= 50  # nothing written after the failure
+
+
+def test_a_failure_making_content_stops_the_writers_thread(monkeypatch):
+    monkeypatch.setattr(zipcopy, "_SLICE", 1000)
+    out = io.BytesIO()
+
+    def pieces():
+        yield "<a>" * 3000
+        raise RuntimeError("injected failure while making a sheet")
+
+    with pytest.raises(RuntimeError, match="injected"):
+        with zipcopy.ZipSplicer(out, background=True) as zout:
+            zout.add("first.xml", "<b/>" * 3000, (2024, 5, 1, 10, 0, 0))
+            zout.add("second.xml", pieces(), (2024, 5, 1, 10, 0, 0))
+    # The block's end waited for the thread: none is left to write into the file after it.
+    assert not [t for t in threading.enumerate() if t.name.startswith("lanesolve-zip")]
 
 
 def test_unexpected_error_becomes_write_error(tmp_path, rich, plan_sheets, monkeypatch):

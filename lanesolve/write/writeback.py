@@ -45,9 +45,9 @@ from lanesolve.write.tables import (  # noqa: F401  (re-exported: the public nam
     NODES_SHEET, SCENARIOS_SHEET, SENSITIVITY_SHEET, SUMMARY_SHEET, TRIPS_SHEET, WHY_SHEET, ResultSheet, cost_keys,
     design_sheet, frame_sheet, insight_sheets, result_sheets, scenario_sheet, sensitivity_sheet, trips_sheet,
     why_no_plan_sheet)
-from lanesolve.write.sheetxml import (  # noqa: F401  (sheet_xml and table_xml are looked up here, at call time)
-    _FORBIDDEN_CHARS, REL_NS, TABLE_STYLE, _attributes, _header_names, _rels_path, _table_name, _tags, sheet_xml,
-    table_xml)
+from lanesolve.write.sheetxml import (  # noqa: F401  (sheet_pieces and table_xml are looked up here, at call time)
+    _FORBIDDEN_CHARS, REL_NS, TABLE_STYLE, _attributes, _header_names, _rels_path, _table_name, _tags, sheet_pieces,
+    sheet_xml, table_xml)
 from lanesolve.write.zipindex import (
     _edit_app, _edit_content_types, _edit_rels, _edit_workbook, _parse_rels, _SheetEntry, add_number_formats,
     defined_name_values)
@@ -352,31 +352,33 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
                                     [e.name for e in kept])
 
         # Unchanged members are copied as stored (their compressed bytes, not recompressed); edited index parts and
-        # the new sheets are compressed here.
-        zout = zipcopy.ZipSplicer(out)
-        with open(source, "rb") as raw:
-            for info in infos:
-                if info.filename in dropped_parts:
-                    continue
-                if info.filename in edited:
-                    zout.add(info.filename, edited[info.filename], info.date_time, info.external_attr)
-                    continue
-                try:
-                    zout.copy(raw, info)
-                except zipcopy.ZipCopyError as exc:
-                    raise WriteError(f"{source} is damaged ({exc}); results were not written (open it in a "
-                                     "spreadsheet program and save it, then run again)") from exc
-        now = time.localtime()[:6]
-        for sheet, sheet_part, table_part, table_id, table_name in new_parts:
-            body, ref = sheet_xml(sheet, "rId1", styles)
-            zout.add(sheet_part, body, now)  # rw-r--r-- for tools that unpack the zip, the default
-            del body
-            sheet_rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns='
-                          '"http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" '
-                          f'Type="{TABLE_REL}" Target="../{table_part[len("xl/"):]}"/></Relationships>')
-            zout.add(_rels_path(sheet_part), sheet_rels, now)
-            zout.add(table_part, table_xml(table_id, table_name, _header_names(sheet.columns), ref), now)
-        zout.close()
+        # the new sheets are compressed here, in the writer's thread, while the next piece of sheet XML is made.
+        # Leaving the block, by an error or not, stops that thread before the temporary file is closed.
+        with zipcopy.ZipSplicer(out, background=True) as zout:
+            with open(source, "rb") as raw:
+                for info in infos:
+                    if info.filename in dropped_parts:
+                        continue
+                    if info.filename in edited:
+                        zout.add(info.filename, edited[info.filename], info.date_time, info.external_attr)
+                        continue
+                    try:
+                        zout.copy(raw, info)
+                    except zipcopy.ZipCopyError as exc:
+                        raise WriteError(f"{source} is damaged ({exc}); results were not written (open it in a "
+                                         "spreadsheet program and save it, then run again)") from exc
+            now = time.localtime()[:6]
+            for sheet, sheet_part, table_part, table_id, table_name in new_parts:
+                # The sheet's cells are rendered here; its XML is made a slice of rows at a time as the writer
+                # takes it, and at most zipcopy.MAX_QUEUED_BYTES of it waits for compression.
+                ref, pieces = sheet_pieces(sheet, "rId1", styles)
+                zout.add(sheet_part, pieces, now)  # rw-r--r-- for tools that unpack the zip, the default
+                sheet_rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns='
+                              '"http://schemas.openxmlformats.org/package/2006/relationships"><Relationship '
+                              f'Id="rId1" Type="{TABLE_REL}" Target="../{table_part[len("xl/"):]}"/></Relationships>')
+                zout.add(_rels_path(sheet_part), sheet_rels, now)
+                zout.add(table_part, table_xml(table_id, table_name, _header_names(sheet.columns), ref), now)
+            zout.close()
 
 
 def write_results(source: str | Path, target: str | Path, sheets: list[ResultSheet],

@@ -15,11 +15,14 @@ directory record), 4.5.3 (the ZIP64 extended information extra field, header id 
 
 from __future__ import annotations
 
+import collections
 import struct
 import sys
 import time
 import zipfile
 import zlib
+from collections.abc import Callable, Iterable
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import BinaryIO
 
@@ -44,6 +47,12 @@ _VERSION_DEFLATE = 20
 _UTF8_NAME = 0x800  # general purpose flag bit 11: the name is UTF-8
 _HAS_DESCRIPTOR = 0x08  # general purpose flag bit 3: sizes and CRC follow the data
 _CHUNK = 1 << 20
+#: New content is encoded and compressed this many characters (or bytes) at a time.
+_SLICE = 1 << 22
+#: Bytes of new content queued for the writer's thread before the caller waits for the oldest step: room for a
+#: large result sheet's XML, so the next sheet's cells are rendered while this one is compressed (the writer held a
+#: whole sheet's text before it compressed in a thread of its own).
+MAX_QUEUED_BYTES = 1 << 25
 
 
 class ZipCopyError(Exception):
@@ -94,6 +103,26 @@ def _has_zip64(extra: bytes) -> bool:
     return False
 
 
+class _Deflated:
+    """One new member's content being compressed: raw deflate, as zip stores it (APPNOTE 4.4.5), its CRC-32 and
+    size."""
+
+    def __init__(self, level: int) -> None:
+        self.compressor = zlib.compressobj(level, zlib.DEFLATED, -15)
+        self.crc = 0
+        self.size = 0
+        self.parts: list[bytes] = []
+
+    def feed(self, data: bytes) -> None:
+        self.crc = zlib.crc32(data, self.crc)
+        self.size += len(data)
+        self.parts.append(self.compressor.compress(data))
+
+    def finish(self) -> list[bytes]:
+        self.parts.append(self.compressor.flush())
+        return self.parts
+
+
 def _dos_time(date_time: tuple) -> tuple[int, int]:
     year, month, day, hour, minute, second = date_time
     return (hour << 11) | (minute << 5) | (second // 2), ((max(year, 1980) - 1980) << 9) | (month << 5) | day
@@ -106,6 +135,12 @@ class ZipSplicer:
     ----------
     out : binary file
         Written sequentially from its current position, which counts as offset 0 of the zip.
+    background : bool
+        Compress new members and write them in a thread of the writer's own, one step at a time and in the order
+        they were added, while the caller makes the next piece of content. zlib releases the GIL while it
+        compresses, so on a machine with two cores the sheet XML and its compression overlap; the bytes written
+        are the same either way. Use the writer in a ``with`` block then, so its thread is stopped (and never
+        writes into ``out`` again) when the block ends, by an error or not.
 
     Notes
     -----
@@ -113,10 +148,14 @@ class ZipSplicer:
     ``out`` may be any binary file opened for writing.
     """
 
-    def __init__(self, out: BinaryIO) -> None:
+    def __init__(self, out: BinaryIO, background: bool = False) -> None:
         self.out = out
         self.offset = 0
         self.entries: list[_Entry] = []
+        self._pool = ThreadPoolExecutor(1, thread_name_prefix="lanesolve-zip") if background else None
+        self._pending: collections.deque[tuple[Future, int]] = collections.deque()
+        self._queued = 0
+        self._failed = False
 
     def _write(self, data: bytes) -> None:
         self.out.write(data)
@@ -131,6 +170,7 @@ class ZipSplicer:
             The local header is missing or names another member, or the data descriptor the header announces is
             not there.
         """
+        self._drain()  # copied here, in this thread, after every member queued before it
         source.seek(info.header_offset)
         head = source.read(_LOCAL.size)
         if len(head) != _LOCAL.size or head[:4] != _LOCAL_SIG:
@@ -171,25 +211,28 @@ class ZipSplicer:
             return data[:4 + sizes]
         raise ZipCopyError(f"member {info.filename!r}: its data descriptor is missing or does not match")
 
-    def add(self, name: str, content: str | bytes, date_time: tuple | None = None, external_attr: int = 0o644 << 16,
-            level: int = zlib.Z_DEFAULT_COMPRESSION) -> None:
+    def add(self, name: str, content: str | bytes | Iterable[str | bytes], date_time: tuple | None = None,
+            external_attr: int = 0o644 << 16, level: int = zlib.Z_DEFAULT_COMPRESSION) -> None:
         """Add a member holding ``content`` (text is written as UTF-8), deflate-compressed.
 
-        Text is encoded and compressed a slice at a time, so a large sheet's XML is never held a second time as
-        bytes.
+        ``content`` is text, bytes, or an iterable of text and bytes pieces written one after another (a sheet's XML
+        as it is made). Text is encoded and compressed a slice at a time, so a large sheet's XML is never held a
+        second time as bytes. With ``background`` the slices are compressed, and the member written, by the
+        writer's thread while the caller makes the next piece.
         """
         date_time = date_time or time.localtime()[:6]
-        compressor = zlib.compressobj(level, zlib.DEFLATED, -15)  # raw deflate, as zip stores it (APPNOTE 4.4.5)
-        parts, crc, size = [], 0, 0
-        step = 1 << 22
-        for start in range(0, len(content), step):
-            piece = content[start:start + step]
-            if isinstance(piece, str):
-                piece = piece.encode("utf-8")
-            crc = zlib.crc32(piece, crc)
-            size += len(piece)
-            parts.append(compressor.compress(piece))
-        parts.append(compressor.flush())
+        deflated = _Deflated(level)
+        for piece in (content,) if isinstance(content, (str, bytes)) else content:
+            for start in range(0, len(piece), _SLICE):
+                data = piece[start:start + _SLICE]
+                data = data.encode("utf-8") if isinstance(data, str) else data
+                self._run(deflated.feed, data, size=len(data))
+        self._run(self._write_new, name, deflated, date_time, external_attr)
+
+    def _write_new(self, name: str, deflated: "_Deflated", date_time: tuple, external_attr: int) -> None:
+        """Write a member whose content has been compressed: its local header, then the compressed data."""
+        parts = deflated.finish()
+        crc, size = deflated.crc, deflated.size
         compressed = sum(len(p) for p in parts)
         encoded_name = name.encode("utf-8")
         flags = 0 if encoded_name.isascii() else _UTF8_NAME
@@ -207,8 +250,58 @@ class ZipSplicer:
             self._write(part)
         self.entries.append(entry)
 
+    def _run(self, task: Callable[..., None], *args, size: int = 0) -> None:
+        """Run a step of writing now, or queue it for the writer's thread (steps run one at a time, in order).
+        ``size`` is the bytes of content the step holds. A step that failed there raises here, at a later call or
+        at :meth:`close`; the steps after it are skipped."""
+        if self._pool is None:
+            task(*args)
+            return
+        self._pending.append((self._pool.submit(self._step, task, args), size))
+        self._queued += size
+        # Hold at most MAX_QUEUED_BYTES of content in the queue, and raise a failure as soon as it is seen.
+        while self._pending and (self._pending[0][0].done() or self._queued > MAX_QUEUED_BYTES):
+            self._settle()
+
+    def _settle(self) -> None:
+        """Wait for the oldest queued step; raise its failure."""
+        future, size = self._pending.popleft()
+        self._queued -= size
+        future.result()
+
+    def _step(self, task: Callable[..., None], args: tuple) -> None:
+        if self._failed:
+            return
+        try:
+            task(*args)
+        except BaseException:
+            self._failed = True
+            raise
+
+    def _drain(self) -> None:
+        """Wait until every queued step has run; raise the first failure."""
+        while self._pending:
+            self._settle()
+
+    def shutdown(self) -> None:
+        """Stop the writer's thread: queued steps not yet started are dropped, a running one is waited for. Called
+        on leaving a ``with`` block, whether or not it failed, so no thread writes into ``out`` afterwards."""
+        if self._pool is not None:
+            self._pending.clear()
+            self._queued = 0
+            self._pool.shutdown(wait=True, cancel_futures=True)
+            self._pool = None
+
+    def __enter__(self) -> "ZipSplicer":
+        return self
+
+    def __exit__(self, *exc_info) -> None:
+        self.shutdown()
+
     def close(self) -> None:
-        """Write the central directory and its end records (ZIP64 ones where needed)."""
+        """Wait for the members queued, then write the central directory and its end records (ZIP64 ones where
+        needed)."""
+        self._drain()
         start = self.offset
         for e in self.entries:
             wide = []  # ZIP64 values in the order APPNOTE 4.5.3 fixes: size, compressed size, offset
