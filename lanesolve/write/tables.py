@@ -13,6 +13,7 @@ where blank means "no limit" says so in its header.
 
 from __future__ import annotations
 
+import itertools
 import math
 import numbers
 from dataclasses import dataclass, field
@@ -132,6 +133,40 @@ def _plain(value):
     if value is pd.NA or value is pd.NaT:
         return None
     return value
+
+
+_PLAIN_TYPES = frozenset({str, int, bool, type(None)})
+
+
+def _plain_column(values: list) -> list:
+    """:func:`_plain` of every value of a column (a list from ``Series.tolist()``), the common types at once."""
+    types = set(map(type, values))
+    if types <= _PLAIN_TYPES:
+        return list(values)
+    if types <= _PLAIN_TYPES | {float}:
+        return [None if value != value else value for value in values]  # only NaN differs from itself
+    return list(map(_plain, values))
+
+
+def _finite_column(values: list) -> list:
+    """Each value of a column as a finite number, or None (NaN, infinities, text, None): :func:`_percent`'s rule,
+    the common case of a float column at once."""
+    if set(map(type, values)) <= {float}:
+        return [value if -math.inf < value < math.inf else None for value in values]
+    return list(map(_percent, values))
+
+
+def _finite_numbers(values: list) -> list:
+    """Each value of a column that is a finite int or float, else None (NaN, infinities, text, None)."""
+    if set(map(type, values)) <= {float}:
+        return [value if -math.inf < value < math.inf else None for value in values]
+    return [value if isinstance(value, (int, float)) and math.isfinite(value) else None
+            for value in map(_plain, values)]
+
+
+def _rows(*columns) -> list[list]:
+    """Rows of equal-length columns (each a list, or an iterator such as ``itertools.repeat``)."""
+    return list(map(list, zip(*columns)))
 
 
 def _percent(fraction) -> float | None:
@@ -257,13 +292,10 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
     flow_rows: list[list] = []
     flows = result.flows
     if len(flows):
-        columns = [flows[c].tolist() for c in ("origin", "destination", "mode", "flow", "cost_per_unit",
-                                                "variable_cost", "fixed_charge", "capacity")]
-        utilisation = flows["utilisation"].tolist()
-        for i in range(len(flows)):
-            row = [_plain(col[i]) for col in columns]
-            row += [_percent(utilisation[i]), "used"]
-            flow_rows.append(row)
+        columns = [_plain_column(flows[c].tolist()) for c in ("origin", "destination", "mode", "flow",
+                                                               "cost_per_unit", "variable_cost", "fixed_charge",
+                                                               "capacity")]
+        flow_rows = _rows(*columns, _finite_column(flows["utilisation"].tolist()), itertools.repeat("used"))
     lanes = network.lanes
     if len(lanes):
         inactive = lanes[~lanes["active"].astype(bool)]
@@ -281,11 +313,9 @@ def result_sheets(network, result, info) -> list[ResultSheet]:
     node_rows: list[list] = []
     nodes = result.nodes
     if len(nodes):
-        columns = [nodes[c].tolist() for c in ("node", "kind", "supply", "demand", "shipped", "received", "unmet",
-                                                "capacity", "throughput")]
-        utilisation = nodes["utilisation"].tolist()
-        for i in range(len(nodes)):
-            node_rows.append([_plain(col[i]) for col in columns] + [_percent(utilisation[i])])
+        columns = [_plain_column(nodes[c].tolist()) for c in ("node", "kind", "supply", "demand", "shipped",
+                                                               "received", "unmet", "capacity", "throughput")]
+        node_rows = _rows(*columns, _finite_column(nodes["utilisation"].tolist()))
     nodes_sheet = ResultSheet(NODES_SHEET, [c for c, _ in node_spec], node_rows, dict(node_spec))
     return [summary, flows_sheet, nodes_sheet, *insight_sheets(network, result)]
 
@@ -389,19 +419,22 @@ def sensitivity_sheet(result) -> ResultSheet:
         left_out += len(lanes) - MAX_REDUCED_COST_ROWS
         frame = pd.concat([frame[~reduced], order.iloc[:MAX_REDUCED_COST_ROWS]])
 
-    def finite(value):
-        value = _plain(value)
-        return value if isinstance(value, (int, float)) and math.isfinite(value) else None
-
     rows = []
-    for row in frame.itertuples(index=False):
-        if row.figure == "none":
-            rows.append(["none", None, None, None, None, None, _plain(row.basis), _plain(row.text)])
-            continue
-        up, down = getattr(row, "value_up", row.value), getattr(row, "value_down", row.value)
-        rows.append([FIGURE_WORDS.get(row.figure, str(row.figure).replace("_", " ")), _plain(row.item),
-                     finite(row.value) if bool(row.unique) else None, finite(up), finite(down),
-                     "yes" if bool(row.unique) else "no", _plain(row.basis), _plain(row.text)])
+    if len(frame):
+        # A column at a time; rows whose figure is "none" (no figures, and why) are rewritten after.
+        figures = frame["figure"].tolist()
+        words = {f: FIGURE_WORDS.get(f, str(f).replace("_", " ")) for f in set(figures)}
+        unique = [f != "none" and bool(u) for f, u in zip(figures, frame["unique"].tolist())]
+        value = frame["value"].tolist()
+        up = frame["value_up"].tolist() if "value_up" in frame else value
+        down = frame["value_down"].tolist() if "value_down" in frame else value
+        basis, text = _plain_column(frame["basis"].tolist()), _plain_column(frame["text"].tolist())
+        rows = _rows(map(words.__getitem__, figures), _plain_column(frame["item"].tolist()),
+                     [v if u else None for v, u in zip(_finite_numbers(value), unique)], _finite_numbers(up),
+                     _finite_numbers(down), ["yes" if u else "no" for u in unique], basis, text)
+        for i, figure in enumerate(figures):
+            if figure == "none":
+                rows[i] = ["none", None, None, None, None, None, basis[i], text[i]]
     if left_out:
         rows.append([FIGURE_WORDS.get("reduced_cost", "reduced cost"), None, None, None, None, None, None,
                      f"... and {left_out:,} more unused lanes, each further from being worth using than those above "
@@ -482,8 +515,8 @@ def frame_sheet(name: str, frame, kinds: dict[str, str], headers: dict[str, str]
     names = [str(c) for c in frame.columns]
     columns = [headers.get(c, c) for c in names]
     kinds = {headers.get(c, c): kinds.get(c, "number" if frame[c].dtype.kind in "fiu" else "text") for c in names}
-    data = [frame[c].tolist() for c in frame.columns]
-    rows = [[_plain(col[i]) for col in data] for i in range(len(frame))]
+    rows = (_rows(*[_plain_column(frame[c].tolist()) for c in frame.columns]) if len(frame.columns)
+            else [[] for _ in range(len(frame))])
     return ResultSheet(name, columns, rows, kinds)
 
 
