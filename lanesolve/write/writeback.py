@@ -75,6 +75,11 @@ CONTENT_TYPES = "[Content_Types].xml"
 APP = "docProps/app.xml"
 STYLES = "xl/styles.xml"
 
+#: zlib level of the result sheets' worksheet parts (the index parts keep zlib's default, 6). Measured on the four
+#: sheets of the 1M-lane benchmark plan, 73.9 MB of XML: level 6 took 0.70 s of CPU for 6.18 MB, level 5 0.36 s for
+#: 6.49 MB -- half the time for 0.31 MB more in a 39 MB workbook (level 1: 0.17 s for 8.09 MB).
+SHEET_COMPRESSION = 5
+
 #: The mark: a hidden workbook-wide defined name whose value lists the result sheets lanesolve wrote, so a rerun
 #: replaces exactly those and never a planner's sheet that happens to share a name. A defined name (rather than a
 #: custom document property) lives in workbook.xml, which the writer edits anyway, and spreadsheet programs keep
@@ -372,7 +377,7 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
                 # The sheet's cells are rendered here; its XML is made a slice of rows at a time as the writer
                 # takes it, and at most zipcopy.MAX_QUEUED_BYTES of it waits for compression.
                 ref, pieces = sheet_pieces(sheet, "rId1", styles)
-                zout.add(sheet_part, pieces, now)  # rw-r--r-- for tools that unpack the zip, the default
+                zout.add(sheet_part, pieces, now, level=SHEET_COMPRESSION)  # rw-r--r--, the default
                 sheet_rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns='
                               '"http://schemas.openxmlformats.org/package/2006/relationships"><Relationship '
                               f'Id="rId1" Type="{TABLE_REL}" Target="../{table_part[len("xl/"):]}"/></Relationships>')
