@@ -113,9 +113,13 @@ class _Deflated:
         self.size = 0
         self.parts: list[bytes] = []
 
-    def feed(self, data: bytes) -> None:
+    def count(self, data: bytes) -> None:
+        """Add a slice to the CRC and size (in the caller's thread: one call that releases the GIL fewer for the
+        writer's thread, each of which waits for the caller to give the GIL back)."""
         self.crc = zlib.crc32(data, self.crc)
         self.size += len(data)
+
+    def compress(self, data: bytes) -> None:
         self.parts.append(self.compressor.compress(data))
 
     def finish(self) -> list[bytes]:
@@ -226,7 +230,8 @@ class ZipSplicer:
             for start in range(0, len(piece), _SLICE):
                 data = piece[start:start + _SLICE]
                 data = data.encode("utf-8") if isinstance(data, str) else data
-                self._run(deflated.feed, data, size=len(data))
+                deflated.count(data)
+                self._run(deflated.compress, data, size=len(data))
         self._run(self._write_new, name, deflated, date_time, external_attr)
 
     def _write_new(self, name: str, deflated: "_Deflated", date_time: tuple, external_attr: int) -> None:
