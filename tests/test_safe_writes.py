@@ -101,8 +101,11 @@ class _FullDisk:
         return self._handle.__exit__(*exc)
 
 
+# Sheets this small are compressed in the foreground; from_rows 0 puts them in the zip writer's thread.
+@pytest.mark.parametrize("from_rows", [0, writeback.BACKGROUND_FROM_ROWS])
 @pytest.mark.parametrize("room", [0, 3000])
-def test_disk_full_mid_write(book, monkeypatch, room):
+def test_disk_full_mid_write(book, monkeypatch, room, from_rows):
+    monkeypatch.setattr(writeback, "BACKGROUND_FROM_ROWS", from_rows)
     before = book.read_bytes()
     real = atomic.tempfile.NamedTemporaryFile
     monkeypatch.setattr(atomic.tempfile, "NamedTemporaryFile", lambda *a, **k: _FullDisk(real(*a, **k), room))
@@ -112,7 +115,9 @@ def test_disk_full_mid_write(book, monkeypatch, room):
     _folder_has_only(book.parent, book.name)
 
 
-def test_exception_mid_write(book, monkeypatch):
+@pytest.mark.parametrize("from_rows", [0, writeback.BACKGROUND_FROM_ROWS])
+def test_exception_mid_write(book, monkeypatch, from_rows):
+    monkeypatch.setattr(writeback, "BACKGROUND_FROM_ROWS", from_rows)
     before = book.read_bytes()
     real = writeback.sheet_pieces
     calls = []

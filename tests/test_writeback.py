@@ -586,6 +586,7 @@ def test_a_sheet_of_many_pieces_reads_back_cell_for_cell(tmp_path, rich, monkeyp
     # blanks of every kind, -0.0 beside 0.0, NumPy scalars, integers and booleans, forbidden characters, short and
     # long rows.
     monkeypatch.setattr(sheetxml, "ROWS_PER_PIECE", 64)
+    monkeypatch.setattr(writeback, "BACKGROUND_FROM_ROWS", 0)  # compressed in the zip writer's thread
     monkeypatch.setattr(zipcopy, "MAX_QUEUED_BYTES", 1000)  # the caller waits for the writer's thread, often
     n = 3 * 64 + 7
     rng = random.Random(7)

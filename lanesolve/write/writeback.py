@@ -80,6 +80,12 @@ STYLES = "xl/styles.xml"
 #: 6.49 MB -- half the time for 0.31 MB more in a 39 MB workbook (level 1: 0.17 s for 8.09 MB).
 SHEET_COMPRESSION = 5
 
+#: Result sheets with at least this many rows in all are compressed in the zip writer's thread of its own
+#: (:class:`lanesolve.write.zipcopy.ZipSplicer`) while their XML is made: four pieces of sheet XML
+#: (:data:`lanesolve.write.sheetxml.ROWS_PER_PIECE` rows each). Below it the thread's start, and its waits for the
+#: GIL, cost more than they save (the bundled example: about 4 ms of a 10 ms write).
+BACKGROUND_FROM_ROWS = 4 * 4096
+
 #: The mark: a hidden workbook-wide defined name whose value lists the result sheets lanesolve wrote, so a rerun
 #: replaces exactly those and never a planner's sheet that happens to share a name. A defined name (rather than a
 #: custom document property) lives in workbook.xml, which the writer edits anyway, and spreadsheet programs keep
@@ -357,9 +363,11 @@ def _build_zip(source: Path, out, sheets: list[ResultSheet], target: Path) -> No
                                     [e.name for e in kept])
 
         # Unchanged members are copied as stored (their compressed bytes, not recompressed); edited index parts and
-        # the new sheets are compressed here, in the writer's thread, while the next piece of sheet XML is made.
-        # Leaving the block, by an error or not, stops that thread before the temporary file is closed.
-        with zipcopy.ZipSplicer(out, background=True) as zout:
+        # the new sheets are compressed here -- for large sheets in the writer's thread, while the next piece of
+        # sheet XML is made. Leaving the block, by an error or not, stops that thread before the temporary file is
+        # closed.
+        background = sum(len(sheet.rows) for sheet in sheets) >= BACKGROUND_FROM_ROWS
+        with zipcopy.ZipSplicer(out, background=background) as zout:
             with open(source, "rb") as raw:
                 for info in infos:
                     if info.filename in dropped_parts:

@@ -22,9 +22,11 @@ import time
 import zipfile
 import zlib
 from collections.abc import Callable, Iterable
-from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass
-from typing import BinaryIO
+from typing import TYPE_CHECKING, BinaryIO
+
+if TYPE_CHECKING:
+    from concurrent.futures import Future
 
 _LOCAL = struct.Struct("<4s2B4HL2L2H")  # local file header (APPNOTE 4.3.7), 30 bytes
 _CENTRAL = struct.Struct("<4s4B4HL2L5H2L")  # central directory header (APPNOTE 4.3.12), 46 bytes
@@ -156,7 +158,13 @@ class ZipSplicer:
         self.out = out
         self.offset = 0
         self.entries: list[_Entry] = []
-        self._pool = ThreadPoolExecutor(1, thread_name_prefix="lanesolve-zip") if background else None
+        self._pool = None
+        if background:
+            # Imported here: concurrent.futures (and the logging it imports) takes several milliseconds, which a
+            # small workbook, written in the foreground, need not pay.
+            from concurrent.futures import ThreadPoolExecutor
+
+            self._pool = ThreadPoolExecutor(1, thread_name_prefix="lanesolve-zip")
         self._pending: collections.deque[tuple[Future, int]] = collections.deque()
         self._queued = 0
         self._failed = False
