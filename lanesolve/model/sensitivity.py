@@ -233,10 +233,11 @@ class _LaneFigures:
     def __init__(self, graph: _Graph, heads: np.ndarray, tails: np.ndarray, cost: np.ndarray):
         self.graph, self.heads, self.tails, self.cost = graph, heads, tails, cost
 
-    def known(self) -> tuple[np.ndarray, np.ndarray]:
-        """(figure where the trees settle it, else a lower bound; settled)."""
+    def known(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(figure where the trees settle it, else a lower bound; settled; an upper bound of the figure, inf where
+        no tree joins the lane's ends)."""
         lower, upper, exact = self.graph.bounds(self.heads, self.tails)
-        return np.maximum(0.0, self.cost + np.where(exact, upper, lower)), exact
+        return np.maximum(0.0, self.cost + np.where(exact, upper, lower)), exact, np.maximum(0.0, self.cost + upper)
 
     def __call__(self, positions: np.ndarray, cap: float | None = None) -> tuple[np.ndarray, np.ndarray]:
         """(figures of the lanes at ``positions``, found): with ``cap``, a figure above it is not found."""
@@ -555,9 +556,10 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
     # lower bound until someone asks: on a meshed network each needs a search of its own).
     arc = lane_arc[unused]
     distances = _LaneFigures(graph, graph.head[arc], graph.tail[arc], graph.cost[arc])
-    lower, exact = distances.known()
+    lower, exact, upper = distances.known()
     more = UnusedLanes(lower, position[unused], (lanes["origin"], lanes["destination"], lanes["mode"]), basis,
-                       units, currency, bool(closed) or basis == FIXED_BASIS, exact=exact, resolve=distances)
+                       units, currency, bool(closed) or basis == FIXED_BASIS, exact=exact, resolve=distances,
+                       upper=upper)
     frames.append(more.show(unused_rows))
     out = figure_frame(frames)
     if not len(more):
