@@ -129,10 +129,14 @@ class _Graph:
         self.label = label
         phi, root = self.potentials, self.root
         from scipy.sparse.csgraph import dijkstra
-        self.from_root = dijkstra(self.forward, indices=label[root])[label] - phi[root] + phi
-        self.to_root = dijkstra(self.backward, indices=label[root])[label] - phi + phi[root]
+        away, back = dijkstra(self.forward, indices=label[root]), dijkstra(self.backward, indices=label[root])
+        self.from_root = away[label] - phi[root] + phi
+        self.to_root = back[label] - phi + phi[root]
         # (d(L, .), d(., L)) of each landmark L, the root first; more when the root's leave many pairs open.
         self.trees = [(self.from_root, self.to_root)]
+        # The same trees between classes in reduced costs, with their class: they tell a search's direction.
+        self.centres = [(label[root], away, back)]
+        self._balls: list | None = None
         self.landmarked = False
 
     def _add_landmarks(self) -> None:
@@ -152,6 +156,8 @@ class _Graph:
         away, back = dijkstra(self.forward, indices=chosen), dijkstra(self.backward, indices=chosen)
         for k, at in enumerate(node):
             self.trees.append((away[k][label] - phi[at] + phi, back[k][label] - phi + phi[at]))
+            self.centres.append((chosen[k], away[k], back[k]))
+        self._balls = None
 
     def distance(self, a: np.ndarray, b: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
         """Exact residual distances d(a[k], b[k]) (inf where b cannot be reached from a); see the module docstring.
@@ -185,10 +191,14 @@ class _Graph:
         return lower, upper, exact
 
     def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
-        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct classes, each
-        search stopped at the largest bound of its pairs (``upper``, and ``cap`` where given; in reduced costs):
-        a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
-        come back inf.
+        """d(a[k], b[k]) by Dijkstra, one search per distinct end, each stopped at the largest bound of its pairs
+        (``upper``, and ``cap`` where given; in reduced costs): a pair within its bound is still settled exactly, and
+        far fewer nodes are visited. Pairs beyond their cap come back inf.
+
+        A pair is searched from the end with fewer distinct classes among the pairs, unless the trees show that the
+        search from that end would pass a tree's node (the root, a landmark) with budget left to fan out over more
+        classes than the search from the other end must (:meth:`_fan_out`): on a meshed network a few searches
+        that reach the root early would otherwise visit most of the graph.
 
         The searches run between classes of nodes joined both ways by paths of zero reduced cost
         (:func:`_zero_classes`): ends in one class share one search, and a class is reached as one node."""
@@ -200,30 +210,56 @@ class _Graph:
             reach = bound + phi[a] - phi[b]  # the bound in reduced costs (inf stays inf)
         wanted = ~(reach < 0)  # a negative reduced bound: the pair is beyond its cap (reduced distances are >= 0)
         a_, b_, reach = a[wanted], b[wanted], reach[wanted]
-        sources, targets, graph = a_, b_, self.forward
-        label = self.label
-        if len(np.unique(label[targets])) < len(np.unique(label[sources])):  # from the fewer distinct classes
-            sources, targets, graph = b_, a_, self.backward
-        unique, which = np.unique(label[sources], return_inverse=True)
-        targets = label[targets]
-        limit = np.full(len(unique), -np.inf)
-        np.maximum.at(limit, which, reach)
-        by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
-        rank = np.empty(len(unique), dtype=np.int64)
-        rank[by_limit] = np.arange(len(unique))
+        start, end = self.label[a_], self.label[b_]
+        backward = len(np.unique(end)) < len(np.unique(start))  # from the fewer distinct classes
+        ahead, behind = self._fan_out(start, end, reach)
+        back = (behind < ahead) if not backward else ~(ahead < behind)
         found = np.empty(len(a_))
-        for chunk in range(0, len(unique), 64):  # bounded memory: 64 rows of n_nodes at a time
-            group = by_limit[chunk:chunk + 64]
-            stop = float(limit[group].max())
-            stop = np.inf if not np.isfinite(stop) else stop + SAME * max(1.0, abs(stop)) + 1e-9
-            from scipy.sparse.csgraph import dijkstra
-            rows = dijkstra(graph, indices=unique[group], limit=stop)
-            pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
-            found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
+        found[~back] = _searched_from(self.forward, start[~back], end[~back], reach[~back])
+        found[back] = _searched_from(self.backward, end[back], start[back], reach[back])
         out[wanted] = found - phi[a_] + phi[b_]
         if cap is not None:
             out = np.where(out <= cap, out, np.inf)
         return out
+
+    def _fan_out(self, start: np.ndarray, end: np.ndarray, reach: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Per pair of classes, how many classes a search from ``start`` (ahead) and one from ``end`` on the
+        backward graph (behind) surely visit within the reduced bound ``reach``: a search that reaches a tree's
+        node L with budget r left visits every class within r of L, which L's tree counts (the largest count over
+        the trees; 0 where no tree's node lies within the bound)."""
+        if self._balls is None:  # each tree's reduced distances from and to its node, sorted, finite
+            self._balls = [(np.sort(away[np.isfinite(away)]), np.sort(back[np.isfinite(back)]))
+                           for _, away, back in self.centres]
+        ahead, behind = np.zeros(len(start), dtype=np.int64), np.zeros(len(start), dtype=np.int64)
+        slack = SAME * np.maximum(1.0, np.abs(reach))
+        with np.errstate(invalid="ignore"):
+            for (_, away, back), (away_sorted, back_sorted) in zip(self.centres, self._balls):
+                left = reach - back[start] + slack  # budget left where the search from start reaches L
+                ahead = np.maximum(ahead, np.where(left >= 0, np.searchsorted(away_sorted, left, side="right"), 0))
+                left = reach - away[end] + slack  # budget left where the search back from end reaches L
+                behind = np.maximum(behind, np.where(left >= 0, np.searchsorted(back_sorted, left, side="right"), 0))
+        return ahead, behind
+
+
+def _searched_from(graph: csr_matrix, sources: np.ndarray, targets: np.ndarray, reach: np.ndarray) -> np.ndarray:
+    """Reduced distances from class ``sources[k]`` to class ``targets[k]`` on ``graph``, one Dijkstra per distinct
+    source stopped at the largest ``reach`` of its pairs (beyond it: inf or a distance above the reach)."""
+    unique, which = np.unique(sources, return_inverse=True)
+    limit = np.full(len(unique), -np.inf)
+    np.maximum.at(limit, which, reach)
+    by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
+    rank = np.empty(len(unique), dtype=np.int64)
+    rank[by_limit] = np.arange(len(unique))
+    found = np.empty(len(sources))
+    for chunk in range(0, len(unique), 64):  # bounded memory: 64 rows of n_nodes at a time
+        group = by_limit[chunk:chunk + 64]
+        stop = float(limit[group].max())
+        stop = np.inf if not np.isfinite(stop) else stop + SAME * max(1.0, abs(stop)) + 1e-9
+        from scipy.sparse.csgraph import dijkstra
+        rows = dijkstra(graph, indices=unique[group], limit=stop)
+        pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
+        found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
+    return found
 
 
 class _LaneFigures:
