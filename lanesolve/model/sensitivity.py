@@ -46,10 +46,13 @@ within a tolerance are solver round-off), then Dijkstra (``scipy.sparse.csgraph`
 bound :math:`d(a, R) + d(R, b)` meets a lower bound (:math:`d(R, b) - d(R, a)`, :math:`d(a, R) - d(b, R)`,
 :math:`\\varphi_b - \\varphi_a`). Where the root's trees leave many pairs open (a meshed network whose depots all send
 their whole supply: no path leaves the root), the trees of a few landmarks in the mesh bound them the same way
-(Goldberg & Harrelson, SODA 2005). The remaining pairs get one Dijkstra per distinct end, from whichever end has
-fewer distinct classes, each stopped at its pair's upper bound or cap: the searches run on a graph with one node per
-class of nodes joined both ways by zero reduced cost (the nodes the plan's flow joins), where every reduced distance
-is the distance between the classes.
+(Goldberg & Harrelson, SODA 2005). The remaining pairs get one Dijkstra per distinct end, each stopped at its pair's
+upper bound or cap, from whichever end has fewer distinct classes unless the trees show the search from that end would
+pass the root or a landmark with budget left to visit more classes than the search from the other end must: the
+searches run on a graph with one node per class of nodes joined both ways by zero reduced cost (the nodes the plan's
+flow joins), where every reduced distance is the distance between the classes. The unused lanes nearest to paying
+are searched once, capped at the count-th smallest upper bound of their figures (at least that many figures lie at
+or below it).
 """
 
 from __future__ import annotations
