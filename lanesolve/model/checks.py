@@ -32,6 +32,7 @@ import numpy as np
 import pandas as pd
 
 from lanesolve.model.formulation import closed_nodes, customer_penalties
+from lanesolve.model.ids import positions
 from lanesolve.model.network import Network
 from lanesolve.model.result import COST_COMPONENTS, Result, SolveStatus
 from lanesolve.model.solve import node_balance
@@ -132,10 +133,7 @@ def _lane_ends(network: Network, lanes: pd.DataFrame) -> tuple[pd.Series, np.nda
 
 
 def _positions(ids: pd.Series, wanted) -> np.ndarray:
-    """Position of each of ``wanted`` (a Series or a collection of ids) among ``ids`` (unique; -1 where absent), as
-    the sensitivity figures find them (Arrow's hash join where pyarrow is installed)."""
-    from lanesolve.model.sensitivity import _positions as positions
-
+    """Position of each of ``wanted`` (a Series or a collection of ids) among ``ids`` (distinct; -1 where absent)."""
     return positions(ids, wanted if isinstance(wanted, pd.Series) else pd.Series(list(wanted), dtype=object))
 
 

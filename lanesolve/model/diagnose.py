@@ -55,6 +55,7 @@ import pandas as pd
 
 from lanesolve.model import remedies
 from lanesolve.model.formulation import closed_nodes, customer_penalties, effective_capacity, lane_big_m
+from lanesolve.model.ids import positions
 from lanesolve.model.network import Network
 from lanesolve.model.solve import solve
 
@@ -175,10 +176,9 @@ def structural_causes(network: Network) -> tuple[list[str], list[str]]:
             causes.append(f"{forced} {kind} are marked open but max_open_{kind} is {limit:.6g} (raise the setting "
                           f"or set some {kind} to decide).")
     hubs = network.hubs
-    from lanesolve.model.sensitivity import _positions  # Arrow's hash join: pandas' isin on text goes cell by cell
 
     def ends(column: str) -> np.ndarray:  # per hub: is it an end of an active lane (distinct ends looked up once)
-        return _positions(pd.Series(lanes[column].unique()), hubs["id"]) >= 0
+        return positions(pd.Series(lanes[column].unique()), hubs["id"]) >= 0
 
     stuck = (hubs["status"] != "closed").to_numpy() & ends("destination") & ~ends("origin")
     for node, row in zip(hubs["id"].to_numpy(dtype=object)[stuck].tolist(), hubs["row"].to_numpy()[stuck].tolist()):

@@ -66,6 +66,7 @@ import pandas as pd
 from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow, _reduced_words_rows,  # noqa: F401
                                          arrow_column, figure_frame, money_words, two_sided_rows)
 from lanesolve.model.formulation import closed_nodes, customer_penalties
+from lanesolve.model.ids import positions
 from lanesolve.model.network import Network
 from lanesolve.model.result import SENSITIVITY_COLUMNS
 
@@ -262,6 +263,7 @@ def _searched_from(graph: csr_matrix, sources: np.ndarray, targets: np.ndarray, 
         rows = dijkstra(graph, indices=unique[group], limit=stop)
         pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
         found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
+        del rows  # the next chunk's rows are allocated while these would still be held
     return found
 
 
@@ -489,8 +491,8 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
     root = n_d + n_c + 2 * n_h
     # Every node id at one position (depots, customers, hubs), and the lane ends as positions.
     node_ids = pd.concat([depots["id"], customers["id"], hubs["id"]], ignore_index=True).astype(str)
-    at_origin = _positions(node_ids, lanes["origin"])[where]
-    at_destination = _positions(node_ids, lanes["destination"])[where]
+    at_origin = positions(node_ids, lanes["origin"])[where]
+    at_destination = positions(node_ids, lanes["destination"])[where]
     first_hub = n_d + n_c
     # Hubs are split: lanes leave from the "out" node (shifted by n_h), arrive at the "in" node.
     tail = np.where(at_origin >= first_hub, at_origin + n_h, at_origin)
@@ -621,27 +623,13 @@ def _lane_flows(network: Network, result, where, node_ids: pd.Series, at_origin:
     def key(at_o, at_d, mode):
         return (at_o.astype(np.int64) * width + at_d) * max(1, len(modes_seen)) + mode
 
-    planned = pd.Index(key(_positions(node_ids, flows["origin"]), _positions(node_ids, flows["destination"]),
-                           _positions(modes_seen, flows["mode"])))
-    where_planned = (planned.get_indexer(key(at_origin, at_destination, _positions(modes_seen, lanes["mode"])[where]))
+    planned = pd.Index(key(positions(node_ids, flows["origin"]), positions(node_ids, flows["destination"]),
+                           positions(modes_seen, flows["mode"])))
+    where_planned = (planned.get_indexer(key(at_origin, at_destination, positions(modes_seen, lanes["mode"])[where]))
                      if len(planned) else np.full(len(at_origin), -1))
     if not len(flows):
         return np.zeros(len(at_origin))
     return np.where(where_planned >= 0, flows["flow"].to_numpy(dtype=float)[np.maximum(where_planned, 0)], 0.0)
-
-
-def _positions(values: pd.Series, wanted: pd.Series) -> np.ndarray:
-    """Position of each of ``wanted`` in ``values`` (unique), -1 where absent: Arrow's ``index_in`` when pyarrow is
-    installed (a hash join over the text buffers, about 20 times faster here), else pandas' ``get_indexer``."""
-    if len(wanted) == 0:
-        return np.zeros(0, dtype=np.int64)
-    try:
-        import pyarrow as pa
-        import pyarrow.compute as pc
-    except ImportError:
-        return pd.Index(values.to_numpy(dtype=object)).get_indexer(wanted.to_numpy(dtype=object)).astype(np.int64)
-    found = pc.index_in(arrow_column(pa, wanted), value_set=arrow_column(pa, values))
-    return pc.fill_null(found, -1).to_numpy(zero_copy_only=False).astype(np.int64)
 
 
 def _none_row(basis: str, why: str) -> pd.DataFrame:
