@@ -20,6 +20,7 @@ from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable
 
+import numpy as np
 import pandas as pd
 
 from lanesolve.write import atomic
@@ -76,10 +77,18 @@ def _cost_rows(result: Result, currency: str) -> list[dict]:
 
 
 def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], int]:
-    flows = result.flows.copy()
+    flows = result.flows
     if flows.empty:
         return [], 0
-    flows["total_cost"] = flows["variable_cost"].astype(float) + flows["fixed_charge"].astype(float)
+    total_cost = flows["variable_cost"].astype(float).to_numpy() + flows["fixed_charge"].astype(float).to_numpy()
+    count = len(flows)
+    if count > TOP_LANES and not np.isnan(total_cost).any():
+        # Only the lanes that can be among the first TOP_LANES are sorted: every lane costing at least the
+        # TOP_LANES-th largest cost, in their order, so the stable sort below puts the same lanes first.
+        kth = np.partition(total_cost, count - TOP_LANES)[count - TOP_LANES]
+        among = total_cost >= kth
+        flows, total_cost = flows[among], total_cost[among]
+    flows = flows.assign(total_cost=total_cost)
     # Ties broken by names so the page is the same for the same plan.
     flows = flows.sort_values(["total_cost", "origin", "destination", "mode"],
                               ascending=[False, True, True, True], kind="stable")
@@ -96,14 +105,18 @@ def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], i
             "utilisation": format_share(lane.utilisation), "bar": _bar(lane.utilisation),
             "has_limit": _finite(lane.utilisation) is not None,
         })
-    return rows, max(len(flows) - TOP_LANES, 0)
+    return rows, max(count - TOP_LANES, 0)
 
 
-def _per_unit_penalties(network: Network) -> dict[str, float]:
-    """Per-unit penalty of every customer, the Settings default filled in where the customer's own is blank."""
+def _per_unit_penalties(network: Network, only: set[str] | None = None) -> dict[str, float]:
+    """Per-unit penalty of every customer (of those in ``only`` when given), the Settings default filled in where
+    the customer's own is blank."""
     default = _finite(network.settings.unmet_penalty)
     penalties = {}
-    for row in network.customers.itertuples(index=False):
+    customers = network.customers
+    if only is not None:
+        customers = customers[customers["id"].astype(str).isin(only).to_numpy()]
+    for row in customers.itertuples(index=False):
         own = _finite(row.unmet_penalty)
         value = own if own is not None else default
         if value is not None:
@@ -112,8 +125,14 @@ def _per_unit_penalties(network: Network) -> dict[str, float]:
 
 
 def _short_rows(network: Network, result: Result, units: str, currency: str) -> list[dict]:
-    demand = {str(r.id): float(r.demand) for r in network.customers.itertuples(index=False)}
-    per_unit = _per_unit_penalties(network)
+    if result.unmet.empty:
+        return []
+    # Demand and penalty read only for the customers short (at a million lanes, 50,000 customers and most of
+    # them served in full).
+    names = set(result.unmet["customer"].astype(str))
+    customers = network.customers[network.customers["id"].astype(str).isin(names).to_numpy()]
+    demand = {str(r.id): float(r.demand) for r in customers.itertuples(index=False)}
+    per_unit = _per_unit_penalties(network, names)
     rows = []
     unmet = result.unmet.sort_values(["quantity", "customer"], ascending=[False, True], kind="stable")
     for short in unmet.itertuples(index=False):
