@@ -310,7 +310,7 @@ def cost_chart(result: Result, currency: str = "") -> Drawing | None:
 
 def utilisation_chart(result: Result, units: str = "") -> Drawing | None:
     """Horizontal bars: share of supply used at each depot and of capacity at each hub, with a 100 % line."""
-    shown, count = utilisation_top(result, MAX_UTILISATION_ROWS)
+    shown, count, cut = utilisation_top(result, MAX_UTILISATION_ROWS)
     if not shown:
         return None
     hidden = count - MAX_UTILISATION_ROWS
@@ -343,7 +343,8 @@ def utilisation_chart(result: Result, units: str = "") -> Drawing | None:
     drawing.line(full_x, top - 4, full_x, top + row_h * len(shown), 1.2, MUTED)
     y = top + row_h * len(shown)
     if hidden > 0:
-        drawing.text(left, y + 16, f"... and {hidden} more (see the tables below)", 11, MUTED)
+        drawing.text(left, y + 16, f"... and {hidden:,d} more (the result sheet LS Nodes lists every one)" if cut
+                     else f"... and {hidden} more (see the tables below)", 11, MUTED)
         y += 22
     # Legend: which bars are depots, which hubs, which are at their limit.
     lx = left

@@ -29,6 +29,7 @@ from lanesolve.report.formats import (  # noqa: F401  (the formats stay importab
     _finite, format_money, format_quantity, format_rate, format_share)
 from lanesolve.report import charts as _charts
 from lanesolve.report import emission_report
+from lanesolve.report.utilisation import NODE_TABLE_ROWS, node_table
 from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
     CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
 from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, money_words, top_few
@@ -151,12 +152,14 @@ def _short_rows(network: Network, result: Result, units: str, currency: str) -> 
     return rows
 
 
-def _node_rows(result: Result, kind: str, units: str) -> list[dict]:
-    nodes = result.nodes
-    if nodes.empty:
-        return []
+def _node_rows(network: Network, result: Result, kind: str, units: str) -> tuple[list[dict], int]:
+    """The depot or hub table: the rows :func:`lanesolve.report.utilisation.node_table` lists (every node of a
+    network of up to :data:`~lanesolve.report.utilisation.NODE_TABLE_WHOLE` of them), and how many it leaves out."""
+    if result.nodes.empty:
+        return [], 0
+    table = node_table(network, result, kind)
     rows = []
-    for node in nodes[nodes["kind"] == kind].itertuples(index=False):
+    for node in table.frame.itertuples(index=False):
         shipped = _finite(node.shipped) or 0.0
         received = _finite(node.received) or 0.0
         if kind == "depot":
@@ -172,7 +175,7 @@ def _node_rows(result: Result, kind: str, units: str) -> list[dict]:
             "utilisation": format_share(node.utilisation), "bar": _bar(node.utilisation),
             "has_limit": _finite(node.utilisation) is not None,
         })
-    return rows
+    return rows, table.more
 
 
 def _design_rows(network: Network, result: Result, units: str, currency: str) -> list[dict]:
@@ -416,6 +419,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
     kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
              ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
+    depots, more_depots = _node_rows(network, result, "depot", units) if has_plan else ([], 0)
+    hubs, more_hubs = _node_rows(network, result, "hub", units) if has_plan else ([], 0)
     messages = [str(m) for m in result.messages]
     why = _why_context(network, result, units)
     return {
@@ -438,8 +443,11 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "lanes": lanes,
         "more_lanes": more_lanes,
         "short": _short_rows(network, result, units, currency) if has_plan else [],
-        "depots": _node_rows(result, "depot", units) if has_plan else [],
-        "hubs": _node_rows(result, "hub", units) if has_plan else [],
+        "depots": depots,
+        "more_depots": more_depots,
+        "hubs": hubs,
+        "more_hubs": more_hubs,
+        "node_table_rows": NODE_TABLE_ROWS,
         "design": _design_rows(network, result, units, currency) if has_plan else [],
         "trips": _trip_rows(result, units, currency) if has_plan else [],
         "sensitivity": _sensitivity_context(result, units, currency) if has_plan else {
