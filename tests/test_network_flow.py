@@ -89,3 +89,33 @@ def test_design_networks_do_not_take_the_network_path():
     net = make_network([{"id": "D", "supply": 3, "fixed_cost": 5}], [{"id": "C", "demand": 3}],
                        [{"origin": "D", "destination": "C", "cost_per_unit": 1}])
     assert not applies(net)
+
+
+@pytest.mark.parametrize("seed", SEEDS)
+def test_model_from_the_graphs_lane_ends_is_the_model_from_the_node_ids(seed):
+    # The lane ends read back from the graph's node numbers must be exactly those found by looking every lane end
+    # up among the node ids (the model's own lookup); the two models are compared entry by entry. Reference: the
+    # node ids of the network itself, independently of the graph's numbering.
+    from lanesolve.model.formulation import build_sparse_model
+    from lanesolve.model.network_flow import flow_graph
+
+    net = random_network(seed)
+    graph = flow_graph(net)
+    origin, destination = graph.lane_ends()
+    active = net.lanes[net.lanes["active"]]
+    frames = {"depot": net.depots, "customer": net.customers, "hub": net.hubs}
+    for ends, column in ((origin, "origin"), (destination, "destination")):
+        for kind, frame in frames.items():
+            ids = frame["id"].tolist()
+            expected = [ids.index(node) if node in ids else -1 for node in active[column]]
+            assert ends[kind].tolist() == expected
+    looked_up, reused = build_sparse_model(net), build_sparse_model(net, lane_ends=graph.lane_ends())
+    assert (looked_up.matrix != reused.matrix).nnz == 0
+    for blocks in ("row_blocks", "column_blocks"):
+        assert [(b.prefix, b.start, b.ids.tolist()) for b in getattr(looked_up, blocks).values()] == \
+            [(b.prefix, b.start, b.ids.tolist()) for b in getattr(reused, blocks).values()]
+    for field in ("row_lower", "row_upper", "lower", "upper"):
+        np.testing.assert_array_equal(getattr(looked_up, field), getattr(reused, field))
+    assert looked_up.costs.keys() == reused.costs.keys()
+    for name in looked_up.costs:
+        np.testing.assert_array_equal(looked_up.costs[name], reused.costs[name])

@@ -255,6 +255,10 @@ def lane_big_m(network: Network, indices=None) -> dict[int, float]:
     return dict(zip(lanes.index[chosen].tolist(), lane_bounds(network)[chosen].tolist()))
 
 
+#: Per lane end (origin, destination): positions in the depot, customer and hub frames, -1 for another kind.
+LaneEnds = tuple[dict[str, np.ndarray], dict[str, np.ndarray]]
+
+
 @dataclass
 class _Ends:
     """Where each active lane starts and ends: position in the depot, customer and hub frames (-1 elsewhere)."""
@@ -264,7 +268,9 @@ class _Ends:
     flow: np.ndarray  # the flow column of each active lane
 
     @classmethod
-    def of(cls, network: Network, flow: np.ndarray) -> "_Ends":
+    def of(cls, network: Network, flow: np.ndarray, known: LaneEnds | None = None) -> "_Ends":
+        if known is not None:
+            return cls(known[0], known[1], flow)
         lanes = network.active_lanes
         frames = {"depot": network.depots, "customer": network.customers, "hub": network.hubs}
         # One lookup per lane end against every node id at once (ids are unique across kinds), then split by kind.
@@ -493,7 +499,7 @@ def fixed_charges_of_open_nodes(network: Network) -> float:
                      for frame in (network.depots, network.hubs)))
 
 
-def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
+def build_sparse_model(network: Network, linking: bool = True, lane_ends: LaneEnds | None = None) -> SparseModel:
     """Build the model of the module docstring for ``network``, once, as arrays.
 
     Parameters
@@ -503,6 +509,10 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
     linking : bool
         Add the per-lane linking rows of "Design decisions"; switch it off only to measure what they are worth
         (benchmarks/bench_linking.py).
+    lane_ends : tuple of dict, optional
+        Where each active lane starts and ends (:data:`LaneEnds`), when the caller already knows it -- the network
+        algorithm's graph does (:meth:`lanesolve.model.network_flow.FlowGraph.lane_ends`); otherwise every lane end
+        is looked up among the node ids.
 
     Returns
     -------
@@ -522,7 +532,7 @@ def build_sparse_model(network: Network, linking: bool = True) -> SparseModel:
     model = Assembly(components)
     capacity = effective_capacity(network) if design else lanes["capacity"].to_numpy(dtype=float)
 
-    ends = _Ends.of(network, np.empty(0, dtype=np.int64))
+    ends = _Ends.of(network, np.empty(0, dtype=np.int64), lane_ends)
     # Handling per lane: the origin depot's per-unit-out cost plus the destination hub's per-unit-through cost.
     handling = (_per_lane(network.depots["handling_cost"], ends.origin["depot"])
                 + _per_lane(network.hubs["handling_cost"], ends.destination["hub"]))

@@ -143,6 +143,29 @@ class FlowGraph:
     quantity_scale: int
     cost_scale: int
 
+    def lane_ends(self) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Where each lane arc starts and where it ends, as positions in the depot, customer and hub frames (-1
+        where the end is of another kind), read back from the node numbers of the module docstring, so that the
+        model built after a network solve need not look every lane end up again.
+
+        Returns
+        -------
+        tuple of dict
+            ``(origin, destination)``, each ``{"depot": ..., "customer": ..., "hub": ...}`` with one entry per lane
+            arc: the ``lane_ends`` that :func:`lanesolve.model.formulation.build_sparse_model` takes.
+        """
+        n_d, n_c = self.lane_arcs.start, self.n_customers
+        n_h = (len(self.supplies) - 2 - n_d - n_c) // 2
+        hub_in = 2 + n_d + n_c
+        ranges = {"origin": {"depot": 2, "customer": 2 + n_d, "hub": hub_in + n_h},
+                  "destination": {"depot": 2, "customer": 2 + n_d, "hub": hub_in}}
+        counts = {"depot": n_d, "customer": n_c, "hub": n_h}
+        ends = []
+        for side, nodes in (("origin", self.tails[self.lane_arcs]), ("destination", self.heads[self.lane_arcs])):
+            ends.append({kind: np.where((nodes >= first) & (nodes < first + counts[kind]), nodes - first, -1)
+                         for kind, first in ranges[side].items()})
+        return ends[0], ends[1]
+
 
 def solve_flow(network: Network) -> FlowAnswer | None:
     """Solve the pure min-cost flow of ``network`` with OR-Tools; ``None`` when it cannot be done exactly.

@@ -39,6 +39,7 @@ optimal objective as the bound.
 
 from __future__ import annotations
 
+import functools
 import math
 import sys
 import time
@@ -391,13 +392,17 @@ def solve(network: Network, time_limit: float | None = None, solver: str | None 
     # Several products, a carbon price or an emissions cap are beyond the one-commodity flow algorithm.
     goods = network.products is not None or cap is not None or (
         network.emissions is not None and (settings.carbon_price or settings.emissions_cap is not None))
+    single_product = build_sparse_model
     if solver == "auto" and not goods and network_flow.applies(network):
-        flow = network_flow.solve_flow(network)  # None: not exactly in integers; the LP engine takes it
+        graph = network_flow.flow_graph(network)  # None: not exactly in integers; the LP engine takes it
+        flow = None if graph is None else network_flow.run_graph(graph)
         if flow is not None and not (flow.feasible or flow.infeasible):
             flow = None
+        if flow is not None:  # the model's lane ends are the graph's: no second lookup of every lane end
+            single_product = functools.partial(build_sparse_model, lane_ends=graph.lane_ends())
     flow_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
-    model = build_model(network, linking=linking, cap=cap, single_product=build_sparse_model)
+    model = build_model(network, linking=linking, cap=cap, single_product=single_product)
     build_seconds = time.perf_counter() - tick
     tick = time.perf_counter()
     constructed = False
