@@ -46,7 +46,13 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--profile", type=int, default=0, help="print this many entries of a cProfile of a render")
     args = parser.parse_args(argv)
     if args.tree is not None:
-        sys.path.insert(0, str(args.tree.resolve()))
+        tree = args.tree.resolve()
+        sys.path.insert(0, str(tree))
+        from lanesolve.report import summary
+
+        assert summary.__file__.startswith(str(tree)), summary.__file__
+        if (tree / "templates").is_dir():  # an editable install maps lanesolve.templates to its own checkout's
+            summary.template_folder = lambda: tree / "templates"
     if args.book:
         return large(args)
 
@@ -91,11 +97,6 @@ def large(args: argparse.Namespace) -> int:
     from lanesolve import pipeline
     from lanesolve.report import carrier_report, summary
 
-    if args.tree is not None:
-        assert summary.__file__.startswith(str(args.tree.resolve())), summary.__file__
-        templates = args.tree.resolve() / "templates"
-        if templates.is_dir():  # an editable install maps lanesolve.templates to its own checkout's folder
-            summary.template_folder = lambda: templates
     book = Path(BOOKS.get(args.book, args.book))
     kept = args.keep / f"{book.stem}.outcome.pkl" if args.keep else None
     if kept is not None and kept.exists():
