@@ -289,3 +289,25 @@ def test_fan_out_counts_classes_every_search_must_visit(monkeypatch, seed):
             assert count <= len(within)
             visited += count > 1
     assert visited >= 10, "too few searches pass a tree's node: the test would prove little"
+
+
+@pytest.mark.parametrize("seed,tight", [(0, True), (1, False), (2, True), (4, True)])
+def test_nearest_unused_lanes_equal_networkx_figures(monkeypatch, seed, tight):
+    # End to end on random meshes: the figures of the unused lanes nearest to paying (one round of searches at the
+    # count-th upper bound, each pair from the end the trees choose) must be the smallest of c_ij + d(j, i) over the
+    # unused lanes, with d the residual distance networkx's Bellman-Ford finds on the plan's residual arcs (Ahuja,
+    # Magnanti & Orlin, Network Flows, 1993, section 9.4: an unused lane pays once its cost falls by that much).
+    net = meshed(seed, tight=tight)
+    graph = _plan_graph(monkeypatch, net)
+    tail, head, cost, _, high, flow = graph.parts[0]  # the lanes' arcs, added first
+    unused = (flow <= 1e-7) & (high > 0)
+    reference = _networkx_distances(graph, np.unique(head[unused]).tolist())
+    want = np.sort([max(0.0, c + reference[j].get(i, np.inf))
+                    for i, j, c in zip(tail[unused].tolist(), head[unused].tolist(), cost[unused].tolist())])
+    shown = 12
+    frame, more = plan_figures(net, solve(net), unused_rows=shown)
+    near = frame.loc[frame["figure"] == "reduced_cost", "value_up"].to_numpy()
+    assert more is not None and not more.exact.all(), "the mesh should leave figures to search"
+    np.testing.assert_allclose(near, want[:shown], rtol=0, atol=1e-9)
+    rest = more.rows()["value_up"].to_numpy()
+    np.testing.assert_allclose(np.sort(rest), want[shown:], rtol=0, atol=1e-9)
