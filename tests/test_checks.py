@@ -145,13 +145,18 @@ def test_no_plan_result_reports_infeasible_with_reasons_and_zero_flows():
     assert nodes.loc["C", "demand"] == 5 and nodes.loc["D", "supply"] == 1 and nodes.loc["H", "capacity"] == 4
 
 
+@pytest.mark.parametrize("levels", [0, 1, 64])
 @pytest.mark.parametrize("seed", range(20))
-def test_reachable_nodes_match_networkx_descendants(seed):
+def test_reachable_nodes_match_networkx_descendants(monkeypatch, seed, levels):
     # Independent check: networkx.descendants from a super-source over the same arcs (lanes with capacity above 0,
-    # none leaving a hub of zero capacity or a closed node), the rule the check states.
+    # none leaving a hub of zero capacity or a closed node), the rule the check states. ``levels``: the passes
+    # made in NumPy before SciPy's breadth-first order takes the rest (0: SciPy alone; 1: both share the search).
     import random
 
+    from lanesolve.model import checks
     from lanesolve.model.checks import _reachable_from_supply
+
+    monkeypatch.setattr(checks, "LEVELS", levels)
 
     rng = random.Random(seed)
     depots = [{"id": f"D{i}", "supply": rng.choice([0, 10]), "status": rng.choice(["open", "open", "closed"])}
@@ -173,3 +178,24 @@ def test_reachable_nodes_match_networkx_descendants(seed):
             continue
         graph.add_edge(row.origin, row.destination)
     assert _reachable_from_supply(net) == nx.descendants(graph, "source")
+
+
+def test_reachable_along_a_chain_longer_than_the_passes_in_numpy():
+    # A depot, then 150 hubs in a row, then a customer: 151 lanes deep, beyond the NumPy passes, so SciPy takes the
+    # rest of the search from where they stopped. A hub of zero capacity in the middle stops it: networkx's
+    # descendants from the depot (without the lanes leaving that hub) is the reference.
+    from lanesolve.model import checks
+    from lanesolve.model.checks import _reachable_from_supply
+
+    names = [f"H{i:03d}" for i in range(150)]
+    chain = ["D"] + names + ["C"]
+    for stop in (None, 120):
+        hubs = [{"id": h, "capacity": 0 if stop is not None and h == names[stop] else None} for h in names]
+        net = make_network([{"id": "D", "supply": 5}], [{"id": "C", "demand": 5}],
+                           [lane(a, b) for a, b in zip(chain, chain[1:])], hubs=hubs)
+        graph = nx.DiGraph((a, b) for a, b in zip(chain, chain[1:]) if stop is None or a != names[stop])
+        expected = nx.descendants(graph, "D") | {"D"}
+        assert len(chain) - 1 > checks.LEVELS
+        assert _reachable_from_supply(net) == expected
+        reasons = presolve_checks(net)
+        assert (stop is not None) == any("no depot with supply can reach it" in r for r in reasons)

@@ -82,3 +82,54 @@ def test_a_frame_set_later_stands_alone():
     result.sensitivity = result.sensitivity.head(3)
     assert result.figures_beyond() is None
     assert result.to_json()["sensitivity_omitted"] == 0 and len(result.all_figures()) == 3
+
+
+def _bounded_lanes(seed: int, with_upper: bool):
+    """Unused lanes whose figures are known only as bounds until a hand-made resolver finds them: invented integer
+    figures, a lower bound up to 30 below each (never below 0) and an upper bound up to 30 above, a tenth known
+    exactly from the start; or (``with_upper`` false) no upper bound and none known. The resolver records the caps
+    it was asked for."""
+    rng = np.random.default_rng(seed)
+    figures = rng.integers(0, 400, 2000).astype(float)
+    exact = (rng.random(len(figures)) < 0.1) & with_upper
+    lower = np.where(exact, figures, np.maximum(0.0, figures - rng.integers(0, 30, len(figures))))
+    upper = figures + rng.integers(0, 30, len(figures)) if with_upper else None
+    caps = []
+
+    def resolve(positions, cap):
+        caps.append(cap)
+        known = np.ones(len(positions), dtype=bool) if cap is None else figures[positions] <= cap
+        return np.where(known, figures[positions], math.nan), known
+
+    ends = tuple(pd.Series([f"{k}{i}" for i in range(len(figures))], dtype=object) for k in "ODM")
+    lanes = figure_text.UnusedLanes(lower, np.arange(len(figures)), ends, "LP", "pallets", "EUR", False,
+                                    exact=exact, resolve=resolve, upper=upper)
+    return figures, np.where(exact, figures, upper if with_upper else math.inf), lanes, caps
+
+
+def test_nearest_lanes_are_settled_in_one_round_capped_at_the_count_th_upper_bound():
+    # At least count figures lie at or below the count-th smallest upper bound, so one round of searches capped
+    # there must settle the nearest lanes; numpy's stable argsort of the true figures is the reference order.
+    for seed in range(5):
+        figures, upper, lanes, caps = _bounded_lanes(seed, with_upper=True)
+        shown = figure_text.figure_frame([lanes.show(50)])
+        assert shown["item"].tolist() == [f"O{i} -> D{i} (M{i})" for i in np.argsort(figures, kind="stable")[:50]]
+        assert len(caps) == 1, f"one round was enough, {len(caps)} were made"
+        assert np.sort(figures)[49] <= caps[0] <= np.sort(upper)[49] * (1 + 1e-6)
+        # The few above a threshold (the near-miss advice) and every lane beyond follow as the reference says.
+        rest = np.argsort(figures, kind="stable")[50:]
+        threshold = float(figures[rest[0]])
+        above = rest[figures[rest] > threshold]
+        cut = np.sort(figures[above])[2]
+        few = lanes.nearest_above(threshold, 3)
+        assert sorted(few["item"]) == sorted(f"O{i} -> D{i} (M{i})" for i in above[figures[above] <= cut])
+        assert lanes.rows()["item"].tolist() == [f"O{i} -> D{i} (M{i})" for i in rest]
+
+
+def test_nearest_lanes_without_upper_bounds_grow_the_radius_round_by_round():
+    # No upper bound known: the radius starts small and grows fourfold; the rows must still be the reference's.
+    for seed in range(3):
+        figures, _, lanes, caps = _bounded_lanes(seed, with_upper=False)
+        shown = figure_text.figure_frame([lanes.show(50)])
+        assert shown["item"].tolist() == [f"O{i} -> D{i} (M{i})" for i in np.argsort(figures, kind="stable")[:50]]
+        assert len(caps) >= 2 and all(b >= 4 * a * (1 - 1e-12) for a, b in zip(caps, caps[1:]))

@@ -208,3 +208,106 @@ def test_potentials_equal_networkx_distances_from_a_virtual_source(monkeypatch, 
     want = np.array([reference[v] for v in range(graph.n_nodes)])
     assert (want < -1).sum() >= 10, "too few nodes below the virtual source's 0: the test would prove little"
     np.testing.assert_allclose(graph.potentials, want, rtol=0, atol=1e-9)
+
+
+@pytest.mark.parametrize("seed,tight", [(0, True), (1, True), (2, False), (3, True)])
+def test_searches_from_either_end_pair_by_pair_equal_networkx(monkeypatch, seed, tight):
+    # Each pair is searched forward from its start or backward from its end, as the trees suggest; whichever end
+    # each pair is searched from, with the bounds and caps the figures use, the distance must be the residual
+    # distance networkx's Bellman-Ford finds from the start itself (inf beyond a cap).
+    from lanesolve.model import sensitivity
+
+    graph = _plan_graph(monkeypatch, meshed(seed, tight=tight))
+    rng = np.random.default_rng(200 + seed)
+    a, b = rng.integers(0, graph.n_nodes, 80), rng.integers(0, graph.n_nodes, 80)
+    if not graph.landmarked:
+        graph._add_landmarks()
+    _, upper, _ = graph.bounds(a, b)
+    reference = _networkx_distances(graph, np.unique(a).tolist())
+    want = np.array([reference[u].get(v, np.inf) for u, v in zip(a.tolist(), b.tolist())])
+    reached = np.isfinite(want)
+    assert reached.sum() >= 20, "too few pairs joined by a residual path: the test would prove little"
+    # Caps: at the distance (found), a unit below (beyond: inf), none.
+    caps = np.where(rng.random(len(a)) < 0.5, want, want - 1)
+    caps = np.where(rng.random(len(a)) < 0.2, np.inf, caps)
+    expected = np.where(want <= caps, want, np.inf)
+    searched_from = sensitivity._searched_from
+    graphs = []
+
+    def spy(csr, sources, targets, reach):
+        graphs.append((csr is graph.forward, len(sources)))
+        return searched_from(csr, sources, targets, reach)
+
+    monkeypatch.setattr(sensitivity, "_searched_from", spy)
+    # The trees' own choice, then a coin per pair says which end it is searched from.
+    for turn in (None, rng.random(len(a)) < 0.5):
+        if turn is not None:
+            def coin(self, start, end, reach, turn=turn):
+                backward = turn[:len(start)].astype(np.int64)
+                return backward, 1 - backward  # the end with the smaller count is searched from
+            monkeypatch.setattr(sensitivity._Graph, "_fan_out", coin)
+        graphs.clear()
+        found = graph.searched(a, b, upper, caps)
+        if turn is not None:
+            assert sorted(forward for forward, count in graphs if count) == [False, True], \
+                "the coins left one end unused: the test would prove little"
+        assert (np.isfinite(found) == np.isfinite(expected)).all()
+        np.testing.assert_allclose(found[np.isfinite(found)], expected[np.isfinite(expected)], rtol=0, atol=1e-9)
+        uncapped = graph.searched(a, b, upper)
+        assert (np.isfinite(uncapped) == reached).all()
+        np.testing.assert_allclose(uncapped[reached], want[reached], rtol=0, atol=1e-9)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_fan_out_counts_classes_every_search_must_visit(monkeypatch, seed):
+    # The counts that choose a search's end are sure lower bounds: a search from a pair's start (end) within its
+    # bound visits at least ``ahead`` (``behind``) classes. The reference counts the classes within the bound by
+    # networkx's Dijkstra on the graph between classes (reduced costs, as the searches use).
+    import networkx as nx
+
+    graph = _plan_graph(monkeypatch, meshed(seed, tight=True))
+    if not graph.landmarked:
+        graph._add_landmarks()
+    rng = np.random.default_rng(300 + seed)
+    a, b = rng.integers(0, graph.n_nodes, 60), rng.integers(0, graph.n_nodes, 60)
+    _, upper, _ = graph.bounds(a, b)
+    phi = graph.potentials
+    reach = upper + phi[a] - phi[b]
+    keep = np.isfinite(reach)
+    start, end, reach = graph.label[a[keep]], graph.label[b[keep]], reach[keep]
+    ahead, behind = graph._fan_out(start, end, reach)
+    visited = 0
+    for csr, sources, counts in ((graph.forward, start, ahead), (graph.backward, end, behind)):
+        classes = nx.DiGraph()
+        classes.add_nodes_from(range(csr.shape[0]))
+        coo = csr.tocoo()
+        for t, h, w in zip(coo.row.tolist(), coo.col.tolist(), coo.data.tolist()):
+            if not classes.has_edge(t, h) or classes[t][h]["weight"] > w:
+                classes.add_edge(t, h, weight=w)
+        for s, r, count in zip(sources.tolist(), reach.tolist(), counts.tolist()):
+            within = nx.single_source_dijkstra_path_length(classes, s, cutoff=r + 1e-9)
+            assert count <= len(within)
+            visited += count > 1
+    assert visited >= 10, "too few searches pass a tree's node: the test would prove little"
+
+
+@pytest.mark.parametrize("seed,tight", [(0, True), (1, False), (2, True), (4, True)])
+def test_nearest_unused_lanes_equal_networkx_figures(monkeypatch, seed, tight):
+    # End to end on random meshes: the figures of the unused lanes nearest to paying (one round of searches at the
+    # count-th upper bound, each pair from the end the trees choose) must be the smallest of c_ij + d(j, i) over the
+    # unused lanes, with d the residual distance networkx's Bellman-Ford finds on the plan's residual arcs (Ahuja,
+    # Magnanti & Orlin, Network Flows, 1993, section 9.4: an unused lane pays once its cost falls by that much).
+    net = meshed(seed, tight=tight)
+    graph = _plan_graph(monkeypatch, net)
+    tail, head, cost, _, high, flow = graph.parts[0]  # the lanes' arcs, added first
+    unused = (flow <= 1e-7) & (high > 0)
+    reference = _networkx_distances(graph, np.unique(head[unused]).tolist())
+    want = np.sort([max(0.0, c + reference[j].get(i, np.inf))
+                    for i, j, c in zip(tail[unused].tolist(), head[unused].tolist(), cost[unused].tolist())])
+    shown = 12
+    frame, more = plan_figures(net, solve(net), unused_rows=shown)
+    near = frame.loc[frame["figure"] == "reduced_cost", "value_up"].to_numpy()
+    assert more is not None and not more.exact.all(), "the mesh should leave figures to search"
+    np.testing.assert_allclose(near, want[:shown], rtol=0, atol=1e-9)
+    rest = more.rows()["value_up"].to_numpy()
+    np.testing.assert_allclose(np.sort(rest), want[shown:], rtol=0, atol=1e-9)

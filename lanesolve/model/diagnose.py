@@ -55,6 +55,7 @@ import pandas as pd
 
 from lanesolve.model import remedies
 from lanesolve.model.formulation import closed_nodes, customer_penalties, effective_capacity, lane_big_m
+from lanesolve.model.ids import positions
 from lanesolve.model.network import Network
 from lanesolve.model.solve import solve
 
@@ -174,12 +175,15 @@ def structural_causes(network: Network) -> tuple[list[str], list[str]]:
         if limit is not None and forced > limit:
             causes.append(f"{forced} {kind} are marked open but max_open_{kind} is {limit:.6g} (raise the setting "
                           f"or set some {kind} to decide).")
-    outbound = set(lanes["origin"].unique())  # unique() first: a set of a million cells one by one takes seconds
-    into = set(lanes["destination"].unique())
-    for node, row, status in zip(network.hubs["id"], network.hubs["row"], network.hubs["status"]):
-        if status != "closed" and node in into and node not in outbound:
-            notes.append(f"Hubs row {row}: hub '{node}' has lanes in but no active lane out, so nothing can pass "
-                         "through it (add a lane leaving it, or set one to active).")
+    hubs = network.hubs
+
+    def ends(column: str) -> np.ndarray:  # per hub: is it an end of an active lane (distinct ends looked up once)
+        return positions(pd.Series(lanes[column].unique()), hubs["id"]) >= 0
+
+    stuck = (hubs["status"] != "closed").to_numpy() & ends("destination") & ~ends("origin")
+    for node, row in zip(hubs["id"].to_numpy(dtype=object)[stuck].tolist(), hubs["row"].to_numpy()[stuck].tolist()):
+        notes.append(f"Hubs row {row}: hub '{node}' has lanes in but no active lane out, so nothing can pass "
+                     "through it (add a lane leaving it, or set one to active).")
     return causes, notes
 
 

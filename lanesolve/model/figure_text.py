@@ -166,6 +166,15 @@ class UnusedLanes:
         The words of every row.
     decisions : bool
         The plan has yes/no or trip decisions, or closed nodes (the sentence of a lane no plan can use says why).
+    exact : numpy.ndarray of bool, optional
+        Where ``values`` is the figure; elsewhere it is a lower bound, and ``resolve`` finds the figure. Default:
+        every figure is exact.
+    resolve : callable, optional
+        ``resolve(positions, cap)``: ``(figures, known)`` of the lanes at ``positions``, with ``known`` False where
+        the figure lies above ``cap`` (then it is not found).
+    upper : numpy.ndarray, optional
+        An upper bound of each figure (``inf`` where none is known; the figure where it is exact): a search for the
+        lanes nearest to paying needs to go no further than the ``count``-th smallest of them.
 
     Notes
     -----
@@ -175,7 +184,7 @@ class UnusedLanes:
     """
 
     def __init__(self, values: np.ndarray, lanes: np.ndarray, ends: tuple, basis: str, units: str, currency: str,
-                 decisions: bool, exact: np.ndarray | None = None, resolve=None):
+                 decisions: bool, exact: np.ndarray | None = None, resolve=None, upper: np.ndarray | None = None):
         self.values, self.lanes, self.ends = np.asarray(values, dtype=float), np.asarray(lanes), ends
         self.basis, self.units, self.currency, self.decisions = basis, units, currency, decisions
         self.shown = np.zeros(len(self.values), dtype=bool)
@@ -184,6 +193,8 @@ class UnusedLanes:
         # (figures, known) with known False where the figure is above cap (then the figure is a new lower bound).
         self.exact = np.ones(len(self.values), dtype=bool) if exact is None else np.asarray(exact, dtype=bool)
         self.resolve = resolve if not self.exact.all() else None
+        self.upper = (np.where(self.exact, self.values, math.inf) if upper is None
+                      else np.where(self.exact, self.values, np.asarray(upper, dtype=float)))
 
     def _settle(self, positions: np.ndarray, cap: float | None = None) -> None:
         """Find the exact figures of the lanes at ``positions`` not known yet, or (with ``cap``) learn that they lie
@@ -195,6 +206,7 @@ class UnusedLanes:
         # Above the cap: the smallest float above it is a lower bound.
         beyond = np.nextafter(np.float64(cap if cap is not None else np.inf), np.inf)
         self.values[positions] = np.where(known, found, np.maximum(self.values[positions], beyond))
+        self.upper[positions] = np.where(known, found, self.upper[positions])
         self.exact[positions] = known
         if self.exact.all():
             self.resolve = None  # nothing left to find: the plan's graph is released
@@ -203,10 +215,13 @@ class UnusedLanes:
         """Settle lanes of ``among`` until the ``count`` smallest figures there (only finite ones above
         ``threshold`` when given) are exact and no other lane there could be smaller or tied.
 
-        Each round searches the open lanes whose lower bound lies within a radius, each search stopped at it: the
-        radius is at least the count-th smallest value and a thousandth of the largest figure, and grows fourfold
-        from round to round, so a lane is searched a few times at most however its lower bound creeps up (a search
-        costs about the same whatever it finds: most of it is per search, not per node reached)."""
+        Each round searches the open lanes whose lower bound lies within a radius, each search stopped at it. The
+        first radius is the count-th smallest *upper* bound of the candidates' figures, where it is finite: at least
+        count figures lie at or below it, so one round settles every lane that could be among the count nearest.
+        Without such a bound the radius is at least the count-th smallest value and a thousandth of the largest
+        figure, and grows fourfold from round to round, so a lane is searched a few times at most however its lower
+        bound creeps up (a search costs about the same whatever it finds: most of it is per search, not per node
+        reached)."""
         radius = None
         finite = np.abs(self.values[np.isfinite(self.values)])
         step = 1e-3 * max(1.0, float(finite.max()) if len(finite) else 1.0)  # the least radius worth a round
@@ -223,7 +238,15 @@ class UnusedLanes:
                 continue
             # Every open lane whose lower bound lies within the radius is searched: a search costs about the same
             # whatever it finds, and fewer rounds mean fewer searches of the same lane.
-            radius = max(bound, step) if radius is None else max(bound, 4.0 * radius)
+            if radius is None:
+                # A candidate's figure lies above its lower bound (above the threshold), so the count-th smallest
+                # upper bound among them has count figures at or below it: enough for one round. The slack of
+                # SAME covers round-off between the bound's path sums and the search's.
+                enough = float(np.partition(self.upper[among][candidate], count - 1)[count - 1])
+                radius = (max(bound, enough + SAME * max(1.0, abs(enough))) if math.isfinite(enough)
+                          else max(bound, step))
+            else:
+                radius = max(bound, 4.0 * radius)
             self._settle(among[values <= radius], radius)
 
     def __len__(self) -> int:

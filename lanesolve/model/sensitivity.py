@@ -46,10 +46,13 @@ within a tolerance are solver round-off), then Dijkstra (``scipy.sparse.csgraph`
 bound :math:`d(a, R) + d(R, b)` meets a lower bound (:math:`d(R, b) - d(R, a)`, :math:`d(a, R) - d(b, R)`,
 :math:`\\varphi_b - \\varphi_a`). Where the root's trees leave many pairs open (a meshed network whose depots all send
 their whole supply: no path leaves the root), the trees of a few landmarks in the mesh bound them the same way
-(Goldberg & Harrelson, SODA 2005). The remaining pairs get one Dijkstra per distinct end, from whichever end has
-fewer distinct classes, each stopped at its pair's upper bound or cap: the searches run on a graph with one node per
-class of nodes joined both ways by zero reduced cost (the nodes the plan's flow joins), where every reduced distance
-is the distance between the classes.
+(Goldberg & Harrelson, SODA 2005). The remaining pairs get one Dijkstra per distinct end, each stopped at its pair's
+upper bound or cap, from whichever end has fewer distinct classes unless the trees show the search from that end would
+pass the root or a landmark with budget left to visit more classes than the search from the other end must: the
+searches run on a graph with one node per class of nodes joined both ways by zero reduced cost (the nodes the plan's
+flow joins), where every reduced distance is the distance between the classes. The unused lanes nearest to paying
+are searched once, capped at the count-th smallest upper bound of their figures (at least that many figures lie at
+or below it).
 """
 
 from __future__ import annotations
@@ -63,6 +66,7 @@ import pandas as pd
 from lanesolve.model.figure_text import (SAME, UnusedLanes, _reduced_words_arrow, _reduced_words_rows,  # noqa: F401
                                          arrow_column, figure_frame, money_words, two_sided_rows)
 from lanesolve.model.formulation import closed_nodes, customer_penalties
+from lanesolve.model.ids import positions
 from lanesolve.model.network import Network
 from lanesolve.model.result import SENSITIVITY_COLUMNS
 
@@ -129,10 +133,14 @@ class _Graph:
         self.label = label
         phi, root = self.potentials, self.root
         from scipy.sparse.csgraph import dijkstra
-        self.from_root = dijkstra(self.forward, indices=label[root])[label] - phi[root] + phi
-        self.to_root = dijkstra(self.backward, indices=label[root])[label] - phi + phi[root]
+        away, back = dijkstra(self.forward, indices=label[root]), dijkstra(self.backward, indices=label[root])
+        self.from_root = away[label] - phi[root] + phi
+        self.to_root = back[label] - phi + phi[root]
         # (d(L, .), d(., L)) of each landmark L, the root first; more when the root's leave many pairs open.
         self.trees = [(self.from_root, self.to_root)]
+        # The same trees between classes in reduced costs, with their class: they tell a search's direction.
+        self.centres = [(label[root], away, back)]
+        self._balls: list | None = None
         self.landmarked = False
 
     def _add_landmarks(self) -> None:
@@ -152,6 +160,8 @@ class _Graph:
         away, back = dijkstra(self.forward, indices=chosen), dijkstra(self.backward, indices=chosen)
         for k, at in enumerate(node):
             self.trees.append((away[k][label] - phi[at] + phi, back[k][label] - phi + phi[at]))
+            self.centres.append((chosen[k], away[k], back[k]))
+        self._balls = None
 
     def distance(self, a: np.ndarray, b: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
         """Exact residual distances d(a[k], b[k]) (inf where b cannot be reached from a); see the module docstring.
@@ -185,10 +195,14 @@ class _Graph:
         return lower, upper, exact
 
     def searched(self, a: np.ndarray, b: np.ndarray, upper: np.ndarray, cap: np.ndarray | None = None) -> np.ndarray:
-        """d(a[k], b[k]) by Dijkstra: one search per distinct end, from whichever end has fewer distinct classes, each
-        search stopped at the largest bound of its pairs (``upper``, and ``cap`` where given; in reduced costs):
-        a pair within its bound is still settled exactly, and far fewer nodes are visited. Pairs beyond their cap
-        come back inf.
+        """d(a[k], b[k]) by Dijkstra, one search per distinct end, each stopped at the largest bound of its pairs
+        (``upper``, and ``cap`` where given; in reduced costs): a pair within its bound is still settled exactly, and
+        far fewer nodes are visited. Pairs beyond their cap come back inf.
+
+        A pair is searched from the end with fewer distinct classes among the pairs, unless the trees show that the
+        search from that end would pass a tree's node (the root, a landmark) with budget left to fan out over more
+        classes than the search from the other end must (:meth:`_fan_out`): on a meshed network a few searches
+        that reach the root early would otherwise visit most of the graph.
 
         The searches run between classes of nodes joined both ways by paths of zero reduced cost
         (:func:`_zero_classes`): ends in one class share one search, and a class is reached as one node."""
@@ -200,30 +214,57 @@ class _Graph:
             reach = bound + phi[a] - phi[b]  # the bound in reduced costs (inf stays inf)
         wanted = ~(reach < 0)  # a negative reduced bound: the pair is beyond its cap (reduced distances are >= 0)
         a_, b_, reach = a[wanted], b[wanted], reach[wanted]
-        sources, targets, graph = a_, b_, self.forward
-        label = self.label
-        if len(np.unique(label[targets])) < len(np.unique(label[sources])):  # from the fewer distinct classes
-            sources, targets, graph = b_, a_, self.backward
-        unique, which = np.unique(label[sources], return_inverse=True)
-        targets = label[targets]
-        limit = np.full(len(unique), -np.inf)
-        np.maximum.at(limit, which, reach)
-        by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
-        rank = np.empty(len(unique), dtype=np.int64)
-        rank[by_limit] = np.arange(len(unique))
+        start, end = self.label[a_], self.label[b_]
+        backward = len(np.unique(end)) < len(np.unique(start))  # from the fewer distinct classes
+        ahead, behind = self._fan_out(start, end, reach)
+        back = (behind < ahead) if not backward else ~(ahead < behind)
         found = np.empty(len(a_))
-        for chunk in range(0, len(unique), 64):  # bounded memory: 64 rows of n_nodes at a time
-            group = by_limit[chunk:chunk + 64]
-            stop = float(limit[group].max())
-            stop = np.inf if not np.isfinite(stop) else stop + SAME * max(1.0, abs(stop)) + 1e-9
-            from scipy.sparse.csgraph import dijkstra
-            rows = dijkstra(graph, indices=unique[group], limit=stop)
-            pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
-            found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
+        found[~back] = _searched_from(self.forward, start[~back], end[~back], reach[~back])
+        found[back] = _searched_from(self.backward, end[back], start[back], reach[back])
         out[wanted] = found - phi[a_] + phi[b_]
         if cap is not None:
             out = np.where(out <= cap, out, np.inf)
         return out
+
+    def _fan_out(self, start: np.ndarray, end: np.ndarray, reach: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Per pair of classes, how many classes a search from ``start`` (ahead) and one from ``end`` on the
+        backward graph (behind) surely visit within the reduced bound ``reach``: a search that reaches a tree's
+        node L with budget r left visits every class within r of L, which L's tree counts (the largest count over
+        the trees; 0 where no tree's node lies within the bound)."""
+        if self._balls is None:  # each tree's reduced distances from and to its node, sorted, finite
+            self._balls = [(np.sort(away[np.isfinite(away)]), np.sort(back[np.isfinite(back)]))
+                           for _, away, back in self.centres]
+        ahead, behind = np.zeros(len(start), dtype=np.int64), np.zeros(len(start), dtype=np.int64)
+        slack = SAME * np.maximum(1.0, np.abs(reach))
+        with np.errstate(invalid="ignore"):
+            for (_, away, back), (away_sorted, back_sorted) in zip(self.centres, self._balls):
+                left = reach - back[start] + slack  # budget left where the search from start reaches L
+                ahead = np.maximum(ahead, np.where(left >= 0, np.searchsorted(away_sorted, left, side="right"), 0))
+                left = reach - away[end] + slack  # budget left where the search back from end reaches L
+                behind = np.maximum(behind, np.where(left >= 0, np.searchsorted(back_sorted, left, side="right"), 0))
+        return ahead, behind
+
+
+def _searched_from(graph: csr_matrix, sources: np.ndarray, targets: np.ndarray, reach: np.ndarray) -> np.ndarray:
+    """Reduced distances from class ``sources[k]`` to class ``targets[k]`` on ``graph``, one Dijkstra per distinct
+    source stopped at the largest ``reach`` of its pairs (beyond it: inf or a distance above the reach)."""
+    unique, which = np.unique(sources, return_inverse=True)
+    limit = np.full(len(unique), -np.inf)
+    np.maximum.at(limit, which, reach)
+    by_limit = np.argsort(limit, kind="stable")  # sources of similar reach searched together
+    rank = np.empty(len(unique), dtype=np.int64)
+    rank[by_limit] = np.arange(len(unique))
+    found = np.empty(len(sources))
+    for chunk in range(0, len(unique), 64):  # bounded memory: 64 rows of n_nodes at a time
+        group = by_limit[chunk:chunk + 64]
+        stop = float(limit[group].max())
+        stop = np.inf if not np.isfinite(stop) else stop + SAME * max(1.0, abs(stop)) + 1e-9
+        from scipy.sparse.csgraph import dijkstra
+        rows = dijkstra(graph, indices=unique[group], limit=stop)
+        pick = (rank[which] >= chunk) & (rank[which] < chunk + 64)
+        found[pick] = rows[rank[which[pick]] - chunk, targets[pick]]
+        del rows  # the next chunk's rows are allocated while these would still be held
+    return found
 
 
 class _LaneFigures:
@@ -233,10 +274,11 @@ class _LaneFigures:
     def __init__(self, graph: _Graph, heads: np.ndarray, tails: np.ndarray, cost: np.ndarray):
         self.graph, self.heads, self.tails, self.cost = graph, heads, tails, cost
 
-    def known(self) -> tuple[np.ndarray, np.ndarray]:
-        """(figure where the trees settle it, else a lower bound; settled)."""
+    def known(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(figure where the trees settle it, else a lower bound; settled; an upper bound of the figure, inf where
+        no tree joins the lane's ends)."""
         lower, upper, exact = self.graph.bounds(self.heads, self.tails)
-        return np.maximum(0.0, self.cost + np.where(exact, upper, lower)), exact
+        return np.maximum(0.0, self.cost + np.where(exact, upper, lower)), exact, np.maximum(0.0, self.cost + upper)
 
     def __call__(self, positions: np.ndarray, cap: float | None = None) -> tuple[np.ndarray, np.ndarray]:
         """(figures of the lanes at ``positions``, found): with ``cap``, a figure above it is not found."""
@@ -449,8 +491,8 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
     root = n_d + n_c + 2 * n_h
     # Every node id at one position (depots, customers, hubs), and the lane ends as positions.
     node_ids = pd.concat([depots["id"], customers["id"], hubs["id"]], ignore_index=True).astype(str)
-    at_origin = _positions(node_ids, lanes["origin"])[where]
-    at_destination = _positions(node_ids, lanes["destination"])[where]
+    at_origin = positions(node_ids, lanes["origin"])[where]
+    at_destination = positions(node_ids, lanes["destination"])[where]
     first_hub = n_d + n_c
     # Hubs are split: lanes leave from the "out" node (shifted by n_h), arrive at the "in" node.
     tail = np.where(at_origin >= first_hub, at_origin + n_h, at_origin)
@@ -555,9 +597,10 @@ def plan_figures(network: Network, result, unused_rows: int | None = None) -> tu
     # lower bound until someone asks: on a meshed network each needs a search of its own).
     arc = lane_arc[unused]
     distances = _LaneFigures(graph, graph.head[arc], graph.tail[arc], graph.cost[arc])
-    lower, exact = distances.known()
+    lower, exact, upper = distances.known()
     more = UnusedLanes(lower, position[unused], (lanes["origin"], lanes["destination"], lanes["mode"]), basis,
-                       units, currency, bool(closed) or basis == FIXED_BASIS, exact=exact, resolve=distances)
+                       units, currency, bool(closed) or basis == FIXED_BASIS, exact=exact, resolve=distances,
+                       upper=upper)
     frames.append(more.show(unused_rows))
     out = figure_frame(frames)
     if not len(more):
@@ -580,27 +623,13 @@ def _lane_flows(network: Network, result, where, node_ids: pd.Series, at_origin:
     def key(at_o, at_d, mode):
         return (at_o.astype(np.int64) * width + at_d) * max(1, len(modes_seen)) + mode
 
-    planned = pd.Index(key(_positions(node_ids, flows["origin"]), _positions(node_ids, flows["destination"]),
-                           _positions(modes_seen, flows["mode"])))
-    where_planned = (planned.get_indexer(key(at_origin, at_destination, _positions(modes_seen, lanes["mode"])[where]))
+    planned = pd.Index(key(positions(node_ids, flows["origin"]), positions(node_ids, flows["destination"]),
+                           positions(modes_seen, flows["mode"])))
+    where_planned = (planned.get_indexer(key(at_origin, at_destination, positions(modes_seen, lanes["mode"])[where]))
                      if len(planned) else np.full(len(at_origin), -1))
     if not len(flows):
         return np.zeros(len(at_origin))
     return np.where(where_planned >= 0, flows["flow"].to_numpy(dtype=float)[np.maximum(where_planned, 0)], 0.0)
-
-
-def _positions(values: pd.Series, wanted: pd.Series) -> np.ndarray:
-    """Position of each of ``wanted`` in ``values`` (unique), -1 where absent: Arrow's ``index_in`` when pyarrow is
-    installed (a hash join over the text buffers, about 20 times faster here), else pandas' ``get_indexer``."""
-    if len(wanted) == 0:
-        return np.zeros(0, dtype=np.int64)
-    try:
-        import pyarrow as pa
-        import pyarrow.compute as pc
-    except ImportError:
-        return pd.Index(values.to_numpy(dtype=object)).get_indexer(wanted.to_numpy(dtype=object)).astype(np.int64)
-    found = pc.index_in(arrow_column(pa, wanted), value_set=arrow_column(pa, values))
-    return pc.fill_null(found, -1).to_numpy(zero_copy_only=False).astype(np.int64)
 
 
 def _none_row(basis: str, why: str) -> pd.DataFrame:

@@ -30,8 +30,13 @@ import io
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
+import pandas as pd
+
 from lanesolve.model.network import Network
 from lanesolve.model.result import Result
+from lanesolve.report.utilisation import (  # noqa: F401  (utilisation_rows stays importable from here)
+    FULL_AT, MAX_UTILISATION_ROWS, finite_column, utilisation_rows, utilisation_top)
 
 
 def _text(value: str) -> str:
@@ -60,8 +65,6 @@ OTHER_COST = "#9a948a"
 
 #: Chart width in CSS pixels; the page scales it down to the screen (a phone shows it at ~350 px).
 WIDTH = 480
-#: Rows the utilisation chart draws before it says "and N more" (the tables and result sheets list every node).
-MAX_UTILISATION_ROWS = 30
 #: Widest flow line on the map, in pixels; every other lane is drawn in proportion to its flow.
 MAX_LINE = 10.0
 #: Narrowest line drawn, so a lane with a tiny flow is still visible (its width is then no longer proportional).
@@ -75,8 +78,6 @@ MAX_UNUSED_LANES = 400
 MAX_BAND = 18.0
 #: Customers are labelled on the map only up to this many; beyond that the names would cover each other.
 MAX_CUSTOMER_LABELS = 20
-#: A lane or node at or above this utilisation is drawn as "at its limit" (solver round-off tolerated).
-FULL_AT = 0.999
 
 
 # --------------------------------------------------------------------------------------------- drawing
@@ -133,6 +134,7 @@ class Drawing:
                f'font-family="system-ui, -apple-system, Segoe UI, Roboto, Helvetica, Arial, sans-serif">',
                f"<title>{_text(self.alt or self.title)}</title>",
                f'<rect width="{_n(self.width)}" height="{_n(self.height)}" fill="#ffffff"/>']
+        circle_tails: dict[tuple, str] = {}  # a map's customers share one radius and paint: each written once
         for shape in self.shapes:
             kind = shape[0]
             if kind == "rect":
@@ -145,10 +147,13 @@ class Drawing:
                            f'stroke-width="{_n(width)}" stroke-linecap="round"{dash}/>')
             elif kind == "circle":
                 _, cx, cy, r, fill, stroke, stroke_width = shape
-                paint = f'fill="{fill or "none"}"'
-                if stroke:
-                    paint += f' stroke="{stroke}" stroke-width="{_n(stroke_width)}"'
-                out.append(f'<circle cx="{_n(cx)}" cy="{_n(cy)}" r="{_n(r)}" {paint}/>')
+                tail = circle_tails.get(shape[3:])
+                if tail is None:
+                    paint = f'fill="{fill or "none"}"'
+                    if stroke:
+                        paint += f' stroke="{stroke}" stroke-width="{_n(stroke_width)}"'
+                    tail = circle_tails[shape[3:]] = f'" r="{_n(r)}" {paint}/>'
+                out.append(f'<circle cx="{_n(cx)}" cy="{_n(cy)}{tail}')
             elif kind == "polygon":
                 _, points, fill, stroke = shape
                 pts = " ".join(f"{_n(px)},{_n(py)}" for px, py in points)
@@ -222,7 +227,10 @@ class Drawing:
 
 def _n(value: float) -> str:
     """A coordinate for SVG: at most two decimals, no trailing zeros."""
-    text = f"{value:.2f}".rstrip("0").rstrip(".")
+    text = f"{value:.2f}"
+    if text[-1] != "0":  # most coordinates: nothing to strip (a map of 50,000 customers formats 150,000 of them)
+        return text
+    text = text.rstrip("0").rstrip(".")
     return "0" if text in ("-0", "") else text
 
 
@@ -300,37 +308,12 @@ def cost_chart(result: Result, currency: str = "") -> Drawing | None:
 # --------------------------------------------------------------------------------------------- utilisation
 
 
-def utilisation_rows(result: Result) -> list[dict]:
-    """Depots and hubs with what they use of their limit, fullest first (ties by name).
-
-    A depot's limit is its supply and its use the net outflow; a hub's limit is its capacity and its use the
-    throughput (as in :data:`lanesolve.model.result.NODE_COLUMNS`). Nodes without a limit have ``share`` None.
-    """
-    nodes = result.nodes
-    if nodes.empty:
-        return []
-    rows = []
-    for node in nodes[nodes["kind"].isin(["depot", "hub"])].itertuples(index=False):
-        if node.kind == "depot":
-            limit = _finite(node.supply)
-            used = (_finite(node.shipped) or 0.0) - (_finite(node.received) or 0.0)
-        else:
-            limit = _finite(node.capacity)
-            used = _finite(node.throughput) or 0.0
-        share = _finite(node.utilisation)
-        if share is None and limit:
-            share = used / limit
-        rows.append({"node": str(node.node), "kind": str(node.kind), "used": used, "limit": limit, "share": share})
-    rows.sort(key=lambda r: (-(r["share"] if r["share"] is not None else -1.0), r["node"]))
-    return rows
-
-
 def utilisation_chart(result: Result, units: str = "") -> Drawing | None:
     """Horizontal bars: share of supply used at each depot and of capacity at each hub, with a 100 % line."""
-    rows = utilisation_rows(result)
-    if not rows:
+    shown, count, cut = utilisation_top(result, MAX_UTILISATION_ROWS)
+    if not shown:
         return None
-    shown, hidden = rows[:MAX_UTILISATION_ROWS], len(rows) - MAX_UTILISATION_ROWS
+    hidden = count - MAX_UTILISATION_ROWS
     label_w, left, right = 150.0, 12.0, WIDTH - 62.0
     track_left = left + label_w
     row_h, top = 26.0, 22.0
@@ -360,7 +343,8 @@ def utilisation_chart(result: Result, units: str = "") -> Drawing | None:
     drawing.line(full_x, top - 4, full_x, top + row_h * len(shown), 1.2, MUTED)
     y = top + row_h * len(shown)
     if hidden > 0:
-        drawing.text(left, y + 16, f"... and {hidden} more (see the tables below)", 11, MUTED)
+        drawing.text(left, y + 16, f"... and {hidden:,d} more (the result sheet LS Nodes lists every one)" if cut
+                     else f"... and {hidden} more (see the tables below)", 11, MUTED)
         y += 22
     # Legend: which bars are depots, which hubs, which are at their limit.
     lx = left
@@ -406,11 +390,29 @@ def _coordinates(network: Network) -> dict[str, tuple[str, float, float]]:
     """Node id -> (kind, latitude, longitude) for every node with both coordinates finite and in range."""
     placed = {}
     for kind, frame in (("depot", network.depots), ("hub", network.hubs), ("customer", network.customers)):
-        for row in frame.itertuples(index=False):
-            lat, lon = _finite(row.latitude), _finite(row.longitude)
-            if lat is not None and lon is not None and -90 <= lat <= 90 and -180 <= lon <= 180:
-                placed[str(row.id)] = (kind, lat, lon)
+        if not len(frame):
+            continue
+        lat, lon = finite_column(frame, "latitude"), finite_column(frame, "longitude")
+        with np.errstate(invalid="ignore"):  # NaN compares false: a node without both is left out
+            where = (lat >= -90) & (lat <= 90) & (lon >= -180) & (lon <= 180)
+        if where.any():  # a row at a time only for the nodes placed (none in a network without coordinates)
+            for node, north, east in zip(frame["id"].to_numpy(dtype=object)[where], lat[where].tolist(),
+                                         lon[where].tolist()):
+                placed[str(node)] = (kind, north, east)
     return placed
+
+
+def _texts(column: pd.Series) -> list[str]:
+    """``str(value)`` of every value of a column (read as plain objects: fast for Arrow-backed text too)."""
+    return [str(value) for value in column.to_numpy(dtype=object)]
+
+
+def _active_lane_count(network: Network) -> int:
+    """``len(network.active_lanes)`` without filtering the lanes frame (a tenth of a second at a million lanes)."""
+    active = network.lanes["active"]
+    if active.dtype == bool:
+        return int(np.count_nonzero(active.to_numpy()))
+    return len(network.active_lanes)
 
 
 def map_chart(network: Network, result: Result, units: str = "") -> Drawing | None:
@@ -454,9 +456,10 @@ def map_chart(network: Network, result: Result, units: str = "") -> Drawing | No
     max_flow = float(flows["flow"].max()) if not flows.empty else 0.0
     per_px = MAX_LINE / max_flow if max_flow > 0 else 0.0
     skipped = 0
-    for lane in flows.itertuples(index=False):
-        used_keys.add((str(lane.origin), str(lane.destination), str(lane.mode or "")))
-    unused_count = len(network.active_lanes) - len(used_keys)
+    if len(flows):
+        used_keys = set(zip(_texts(flows["origin"]), _texts(flows["destination"]),
+                            [str(mode or "") for mode in flows["mode"].to_numpy(dtype=object)]))
+    unused_count = _active_lane_count(network) - len(used_keys)
     unused_left_out = unused_count if unused_count > MAX_UNUSED_LANES else 0
     for lane in network.active_lanes.itertuples(index=False) if not unused_left_out else ():
         key = (str(lane.origin), str(lane.destination), str(lane.mode or ""))
@@ -489,12 +492,13 @@ def map_chart(network: Network, result: Result, units: str = "") -> Drawing | No
         drawing.line(*a, *b, max(flow * per_px, MIN_LINE), colour)
 
     short = set(result.unmet["customer"].astype(str)) if not result.unmet.empty else set()
-    label_customers = sum(1 for i in ids if placed[i][0] == "customer") <= MAX_CUSTOMER_LABELS
+    by_kind: dict[str, list[str]] = {"customer": [], "hub": [], "depot": []}
+    for node in ids:
+        by_kind[placed[node][0]].append(node)
+    label_customers = len(by_kind["customer"]) <= MAX_CUSTOMER_LABELS
     # Customers first, depots and hubs on top: they are fewer and matter more for reading the plan.
     for kind in ("customer", "hub", "depot"):
-        for node in ids:
-            if placed[node][0] != kind:
-                continue
+        for node in by_kind[kind]:
             x, y = where[node]
             _marker(drawing, kind, x, y, 6 if kind != "customer" else 5, short=node in short)
             if kind != "customer" or label_customers:

@@ -20,6 +20,7 @@ from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable
 
+import numpy as np
 import pandas as pd
 
 from lanesolve.write import atomic
@@ -28,6 +29,7 @@ from lanesolve.report.formats import (  # noqa: F401  (the formats stay importab
     _finite, format_money, format_quantity, format_rate, format_share)
 from lanesolve.report import charts as _charts
 from lanesolve.report import emission_report
+from lanesolve.report.utilisation import NODE_TABLE_ROWS, node_table
 from lanesolve.model.result import (  # noqa: F401  (COST_LABELS kept importable from here)
     CAUTION, COST_LABELS, Result, SolveStatus, cost_order, node_decisions, singular)
 from lanesolve.model.sensitivity import FIXED_BASIS, TOP_FEW, money_words, top_few
@@ -76,10 +78,18 @@ def _cost_rows(result: Result, currency: str) -> list[dict]:
 
 
 def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], int]:
-    flows = result.flows.copy()
+    flows = result.flows
     if flows.empty:
         return [], 0
-    flows["total_cost"] = flows["variable_cost"].astype(float) + flows["fixed_charge"].astype(float)
+    total_cost = flows["variable_cost"].astype(float).to_numpy() + flows["fixed_charge"].astype(float).to_numpy()
+    count = len(flows)
+    if count > TOP_LANES and not np.isnan(total_cost).any():
+        # Only the lanes that can be among the first TOP_LANES are sorted: every lane costing at least the
+        # TOP_LANES-th largest cost, in their order, so the stable sort below puts the same lanes first.
+        kth = np.partition(total_cost, count - TOP_LANES)[count - TOP_LANES]
+        among = total_cost >= kth
+        flows, total_cost = flows[among], total_cost[among]
+    flows = flows.assign(total_cost=total_cost)
     # Ties broken by names so the page is the same for the same plan.
     flows = flows.sort_values(["total_cost", "origin", "destination", "mode"],
                               ascending=[False, True, True, True], kind="stable")
@@ -96,14 +106,18 @@ def _lane_rows(result: Result, units: str, currency: str) -> tuple[list[dict], i
             "utilisation": format_share(lane.utilisation), "bar": _bar(lane.utilisation),
             "has_limit": _finite(lane.utilisation) is not None,
         })
-    return rows, max(len(flows) - TOP_LANES, 0)
+    return rows, max(count - TOP_LANES, 0)
 
 
-def _per_unit_penalties(network: Network) -> dict[str, float]:
-    """Per-unit penalty of every customer, the Settings default filled in where the customer's own is blank."""
+def _per_unit_penalties(network: Network, only: set[str] | None = None) -> dict[str, float]:
+    """Per-unit penalty of every customer (of those in ``only`` when given), the Settings default filled in where
+    the customer's own is blank."""
     default = _finite(network.settings.unmet_penalty)
     penalties = {}
-    for row in network.customers.itertuples(index=False):
+    customers = network.customers
+    if only is not None:
+        customers = customers[customers["id"].astype(str).isin(only).to_numpy()]
+    for row in customers.itertuples(index=False):
         own = _finite(row.unmet_penalty)
         value = own if own is not None else default
         if value is not None:
@@ -112,8 +126,14 @@ def _per_unit_penalties(network: Network) -> dict[str, float]:
 
 
 def _short_rows(network: Network, result: Result, units: str, currency: str) -> list[dict]:
-    demand = {str(r.id): float(r.demand) for r in network.customers.itertuples(index=False)}
-    per_unit = _per_unit_penalties(network)
+    if result.unmet.empty:
+        return []
+    # Demand and penalty read only for the customers short (at a million lanes, 50,000 customers and most of
+    # them served in full).
+    names = set(result.unmet["customer"].astype(str))
+    customers = network.customers[network.customers["id"].astype(str).isin(names).to_numpy()]
+    demand = {str(r.id): float(r.demand) for r in customers.itertuples(index=False)}
+    per_unit = _per_unit_penalties(network, names)
     rows = []
     unmet = result.unmet.sort_values(["quantity", "customer"], ascending=[False, True], kind="stable")
     for short in unmet.itertuples(index=False):
@@ -132,12 +152,14 @@ def _short_rows(network: Network, result: Result, units: str, currency: str) -> 
     return rows
 
 
-def _node_rows(result: Result, kind: str, units: str) -> list[dict]:
-    nodes = result.nodes
-    if nodes.empty:
-        return []
+def _node_rows(network: Network, result: Result, kind: str, units: str) -> tuple[list[dict], int]:
+    """The depot or hub table: the rows :func:`lanesolve.report.utilisation.node_table` lists (every node of a
+    network of up to :data:`~lanesolve.report.utilisation.NODE_TABLE_WHOLE` of them), and how many it leaves out."""
+    if result.nodes.empty:
+        return [], 0
+    table = node_table(network, result, kind)
     rows = []
-    for node in nodes[nodes["kind"] == kind].itertuples(index=False):
+    for node in table.frame.itertuples(index=False):
         shipped = _finite(node.shipped) or 0.0
         received = _finite(node.received) or 0.0
         if kind == "depot":
@@ -153,7 +175,7 @@ def _node_rows(result: Result, kind: str, units: str) -> list[dict]:
             "utilisation": format_share(node.utilisation), "bar": _bar(node.utilisation),
             "has_limit": _finite(node.utilisation) is not None,
         })
-    return rows
+    return rows, table.more
 
 
 def _design_rows(network: Network, result: Result, units: str, currency: str) -> list[dict]:
@@ -397,6 +419,8 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
     kpis += [("Solve time", f"{result.solve_seconds:,.2f} s", "solve-time"),
              ("Optimality gap", _gap_text(result), "gap")]
     lanes, more_lanes = _lane_rows(result, units, currency) if has_plan else ([], 0)
+    depots, more_depots = _node_rows(network, result, "depot", units) if has_plan else ([], 0)
+    hubs, more_hubs = _node_rows(network, result, "hub", units) if has_plan else ([], 0)
     messages = [str(m) for m in result.messages]
     why = _why_context(network, result, units)
     return {
@@ -419,8 +443,11 @@ def build_context(network: Network, result: Result, info: RunInfo, warnings: lis
         "lanes": lanes,
         "more_lanes": more_lanes,
         "short": _short_rows(network, result, units, currency) if has_plan else [],
-        "depots": _node_rows(result, "depot", units) if has_plan else [],
-        "hubs": _node_rows(result, "hub", units) if has_plan else [],
+        "depots": depots,
+        "more_depots": more_depots,
+        "hubs": hubs,
+        "more_hubs": more_hubs,
+        "node_table_rows": NODE_TABLE_ROWS,
         "design": _design_rows(network, result, units, currency) if has_plan else [],
         "trips": _trip_rows(result, units, currency) if has_plan else [],
         "sensitivity": _sensitivity_context(result, units, currency) if has_plan else {

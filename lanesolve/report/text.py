@@ -120,6 +120,9 @@ def render_text(network: Network, result: Result, info: RunInfo, warnings: list,
             lines += ["", "Depot and hub utilisation"]
             lines += [f"  {row['node']} ({kind}): {row['used']} of {row['limit']}"
                       + (f", {row['utilisation']}" if row["has_limit"] else "") for kind, row in nodes]
+            lines += [f"  ... and {more:,d} more {kind}{'s' if more != 1 else ''}: the result sheet LS Nodes lists "
+                      "every depot and hub" for kind, more in (("depot", c["more_depots"]), ("hub", c["more_hubs"]))
+                      if more]
         if c["design"]:
             lines += ["", "Open and closed"]
             lines += [f"  {row['node']} ({row['kind']}, given {row['status']}): {row['decision']}"
