@@ -116,8 +116,9 @@ class _Deflated:
         self.parts: list[bytes] = []
 
     def count(self, data: bytes) -> None:
-        """Add a slice to the CRC and size (in the caller's thread: one call that releases the GIL fewer for the
-        writer's thread, each of which waits for the caller to give the GIL back)."""
+        """Add a slice to the CRC and size. Called in the caller's thread, so the writer's thread makes one zlib
+        call a slice instead of two: after each such call, which releases the GIL, it waits for the caller to give
+        the GIL back."""
         self.crc = zlib.crc32(data, self.crc)
         self.size += len(data)
 
