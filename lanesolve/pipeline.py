@@ -16,7 +16,9 @@ report             :mod:`lanesolve.report.summary`     ``<stem>-summary.html``
 
 from __future__ import annotations
 
+import importlib
 import os
+import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -249,6 +251,37 @@ def run(
         progress(None, None)
 
 
+#: Modules every solve of a large workbook goes on to need (the model's matrix, the figures' shortest paths, the
+#: network algorithm, the summary's templates), imported by :func:`_import_ahead` while the workbook is read.
+AHEAD = ("scipy.sparse", "scipy.sparse.csgraph", "ortools.graph.python.min_cost_flow", "jinja2")
+#: Workbooks from this size (bytes on disk) up have their later modules imported while they are read.
+AHEAD_FROM_BYTES = 2_000_000
+
+
+def _import_ahead(path: Path) -> None:
+    """Import :data:`AHEAD` in a thread of its own while a large workbook is read.
+
+    Calamine parses a sheet without holding Python's interpreter lock, so on a machine with a second core the
+    imports (about 0.3 s) cost no wall time there, where the stages that use them would wait for them. A small
+    workbook reads too quickly to hide them, and one with errors is answered without them, so it is left alone.
+    A module that fails to import here fails again, with its own message, where a stage imports it.
+    """
+    try:
+        if os.stat(path).st_size < AHEAD_FROM_BYTES:
+            return
+    except OSError:
+        return  # the reader reports a missing or unreadable file in its own words
+
+    def load() -> None:
+        for name in AHEAD:
+            try:
+                importlib.import_module(name)
+            except Exception:  # noqa: BLE001 -- the stage that needs the module reports the failure
+                return
+
+    threading.Thread(target=load, name="lanesolve-import-ahead", daemon=True).start()
+
+
 def _read(path: Path) -> tuple[reader.RawWorkbook, source.Fingerprint]:
     """Read the workbook and fingerprint exactly the bytes the reader parsed (see :mod:`lanesolve.read.source`)."""
     try:
@@ -275,6 +308,7 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
     if plan is not None and not {path.suffix.lower(), plan.workbook.given.suffix.lower()} <= \
             set(guard.WRITABLE_SUFFIXES):
         guard.check_write_target(path, plan.workbook.given)  # by name alone: an .ods is refused unread
+    _import_ahead(path)
     raw, mark = _read(path)
     read_done = time.monotonic()  # the time limit covers everything after reading
     earlier = earlier_plan.read_earlier_plan(path)  # the plan the workbook's earlier result sheets hold

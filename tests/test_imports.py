@@ -107,3 +107,32 @@ def test_commands_run_with_one_blas_thread_unless_the_user_chose(tmp_path):
                             env={**env, "OPENBLAS_NUM_THREADS": "2"})
     assert ours.stdout.split()[-1] == "1"
     assert theirs.stdout.split()[-1] == "2"
+
+
+def test_a_large_workbooks_later_modules_are_imported_while_it_is_read(tmp_path):
+    # From AHEAD_FROM_BYTES up, the modules of AHEAD load in a thread started before reading; the probe stops the
+    # run right after reading (by failing validation) so only that thread can have loaded them.
+    from conftest import valid_sheets, write_workbook
+
+    sheets = valid_sheets()
+    sheets["Customers"][1][1] = "lots"
+    bad = write_workbook(tmp_path / "bad.xlsx", sheets)
+    code = ("import threading\nfrom lanesolve import pipeline\nfrom lanesolve.errors import WorkbookError\n"
+            "pipeline.AHEAD_FROM_BYTES = {limit}\n"
+            f"try:\n    pipeline.run({str(bad)!r}, write=False)\nexcept WorkbookError:\n    pass\n"
+            "for thread in threading.enumerate():\n"
+            "    if thread.name == 'lanesolve-import-ahead':\n        thread.join()")
+    names = ("scipy.sparse", "scipy.sparse.csgraph", "ortools.graph.python.min_cost_flow", "jinja2")
+    assert modules_after(code.format(limit=0), names) == set(names)
+    assert modules_after(code.format(limit=10**12), names) == set()  # a small workbook: nothing ahead
+
+
+def test_a_module_that_fails_to_import_ahead_leaves_the_run_alone(tmp_path):
+    from conftest import valid_sheets, write_workbook
+
+    good = write_workbook(tmp_path / "good.xlsx", valid_sheets())
+    code = ("from lanesolve import pipeline\npipeline.AHEAD_FROM_BYTES = 0\n"
+            "pipeline.AHEAD = ('lanesolve_no_such_module',) + pipeline.AHEAD\n"
+            f"outcome = pipeline.run({str(good)!r}, write=False)\n"
+            "assert outcome.result.status.value == 'optimal', outcome.result.status")
+    assert modules_after(code, ("lanesolve.pipeline",)) == {"lanesolve.pipeline"}
