@@ -1,6 +1,6 @@
 """``python -m lanesolve`` runs the command line interface."""
 
-from lanesolve.cli import main
+from lanesolve.cli import run
 
 if __name__ == "__main__":
-    main()
+    run()
