@@ -106,9 +106,9 @@ def test_size_is_checked_after_loading_for_kinds_without_sheet_xml(tmp_path):
         def get_sheet_by_name(self, name):
             return Sheet()
 
-    too_big = []
-    assert reader._load_rows(tmp_path / "x.ods", Book(), "Lanes", too_big) is None
-    assert too_big[0].sheet == "Lanes" and too_big[0].message.startswith("the sheet reaches row 2,000,000;")
+    rows, problem = reader._load_rows(tmp_path / "x.ods", Book(), "Lanes")
+    assert rows is None
+    assert problem.sheet == "Lanes" and problem.message.startswith("the sheet reaches row 2,000,000;")
 
 
 def test_a_panic_inside_calamine_becomes_a_workbook_error_naming_the_sheet(tmp_path, monkeypatch):
@@ -135,6 +135,76 @@ def test_other_base_exceptions_from_calamine_are_not_swallowed(tmp_path, monkeyp
     monkeypatch.setattr(python_calamine.CalamineWorkbook, "get_sheet_by_name", interrupted)
     with pytest.raises(KeyboardInterrupt):
         read_workbook(path)
+
+
+def _fail_scan_of(sheet_part_marker: bytes, monkeypatch):
+    """Make the XML scan for bad cells fail on the sheet part holding ``sheet_part_marker``."""
+    from lanesolve.read import sheet_xml
+
+    original = sheet_xml.bad_cells
+
+    def scan(data, where, survey=None):
+        if sheet_part_marker in data:
+            raise WorkbookError(f"{where}: scan failed")
+        return original(data, where, survey)
+
+    monkeypatch.setattr(sheet_xml, "bad_cells", scan)
+
+
+def _panics_on(sheet: str, monkeypatch):
+    class PanicException(BaseException):  # pyo3's panic, as in the test above
+        pass
+
+    original = python_calamine.CalamineWorkbook.get_sheet_by_name
+
+    def load(self, name):
+        if name == sheet:
+            raise PanicException(f"bad {name}")
+        return original(self, name)
+
+    monkeypatch.setattr(python_calamine.CalamineWorkbook, "get_sheet_by_name", load)
+
+
+def test_an_earlier_sheets_load_failure_is_reported_before_a_later_sheets_scan_failure(tmp_path, monkeypatch):
+    # Sheets load on a worker thread while later sheets are scanned; the failure reported is still the one reading
+    # the sheets one after another meets first (Depots, loaded before the Lanes sheet is scanned).
+    path = book_with(tmp_path)
+    _panics_on("Depots", monkeypatch)
+    _fail_scan_of(b"cost_per_unit", monkeypatch)  # the Lanes sheet's header
+    with pytest.raises(WorkbookError, match=r"sheet 'Depots' could not be read: the workbook reader failed inside"):
+        read_workbook(path)
+
+
+def test_a_sheets_scan_failure_is_reported_before_its_own_load_failure(tmp_path, monkeypatch):
+    # Reading one after another, a sheet's XML is scanned before calamine loads it: that order of failures stays.
+    path = book_with(tmp_path)
+    _panics_on("Lanes", monkeypatch)
+    _fail_scan_of(b"cost_per_unit", monkeypatch)
+    with pytest.raises(WorkbookError, match=r"scan failed"):
+        read_workbook(path)
+
+
+@pytest.mark.parametrize("ref, bounded", [("Z999999", True), ("A1", True), ("AA1", False), ("A1000000", False),
+                                          ("A0999999", False)])
+def test_one_search_clears_only_parts_within_row_999999_and_column_z(ref, bounded):
+    # Reference: the exact extent listed by used_extent (checked against Python's XML parser in the test below),
+    # compared with the bound the single search promises.
+    from lanesolve.read.sheet_xml import BOUNDED_EXTENT, Survey, used_extent, within_bounded_extent
+
+    xml = f'<worksheet><sheetData><row r="1"><c r="A1"/></row><row r="2"><c r="{ref}"/></row></sheetData>' \
+          f'</worksheet>'.encode()
+    assert within_bounded_extent(xml, Survey.of(xml)) is bounded
+    rows, columns = used_extent(xml)
+    if bounded:
+        assert rows <= BOUNDED_EXTENT[0] and columns <= BOUNDED_EXTENT[1]
+    assert reader._BOUNDED_IS_SAFE and reader._size_problem("x", *BOUNDED_EXTENT) is None
+
+
+def test_irregular_markup_is_always_measured_in_full():
+    from lanesolve.read.sheet_xml import Survey, within_bounded_extent
+
+    xml = b'<worksheet><sheetData><row><c><v>1</v></c></row></sheetData></worksheet>'  # no references at all
+    assert not within_bounded_extent(xml, Survey.of(xml))
 
 
 @pytest.mark.parametrize("cells", [
