@@ -19,6 +19,7 @@ Usage::
     python benchmarks/pure_flow.py                         # 131k lanes, solver auto
     python benchmarks/pure_flow.py --lanes 1m --solvers auto,cbc
     python benchmarks/pure_flow.py --netgen 16384 --solvers auto,cbc  # a NETGEN network of 131,072 arcs (netgen.py)
+    python benchmarks/pure_flow.py --netgen 16384 --repeat 5          # alternating runs, medians and their ratio
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ import json
 import os
 import pickle
 import resource
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -92,6 +94,9 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--netgen", type=int, metavar="NODES",
                         help="use a NETGEN network of this many nodes and 8 arcs per node (netgen.py) instead of "
                              "generate.py's network; 16384 gives 131,072 arcs")
+    parser.add_argument("--repeat", type=int, default=1, metavar="N",
+                        help="run OR-Tools alone and lanesolve N times, alternating, and print the medians and the "
+                             "ratio of the medians after the runs (a busy machine moves single runs by a third)")
     parser.add_argument("--alone", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.alone:
@@ -105,31 +110,57 @@ def main(argv: list[str] | None = None) -> int:
     else:
         book, pickled = generate.ensure_instance(generate.parse_size(args.lanes))
         described = f"{generate.parse_size(args.lanes):,} lanes"
-    wall, cpu, done = run_process([sys.executable, __file__, "--alone", str(pickled)])
-    alone = json.loads(done.stdout.strip().splitlines()[-1])
     print(f"network: {book.name} ({described}); load average at the start {os.getloadavg()[0]:.2f}")
     print("| run | wall s | CPU s | engine | cost | stages (s) |")
     print("|---|---|---|---|---|---|")
-    print(f"| OR-Tools alone (process) | {wall:.2f} | {cpu:.2f} | SimpleMinCostFlow: {alone['ortools_seconds']:.2f} s "
-          f"| {alone['cost']:,.2f} | |")
+    solvers = [s for s in args.solvers.split(",") if s]
+    walls: dict[str, list[float]] = {"alone": [], **{solver: [] for solver in solvers}}
+    cpus: dict[str, list[float]] = {key: [] for key in walls}
     with tempfile.TemporaryDirectory() as folder:
-        for solver in [s for s in args.solvers.split(",") if s]:
-            output = Path(folder) / "solved.xlsx"
-            output.unlink(missing_ok=True)
-            s_wall, s_cpu, run = run_process([sys.executable, "-m", "lanesolve", "solve", str(book), "--output",
-                                              str(output), "--json", "--solver", solver, "--time-limit",
-                                              str(args.time_limit)])
-            try:
-                doc = json.loads(run.stdout)
-            except json.JSONDecodeError:
-                print(f"| lanesolve {solver} | {s_wall:.2f} | {s_cpu:.2f} | failed: {run.stderr.strip()[-200:]} | | |")
+        for repeat in range(1, args.repeat + 1):
+            mark = f" #{repeat}" if args.repeat > 1 else ""
+            wall, cpu, done = run_process([sys.executable, __file__, "--alone", str(pickled)])
+            alone = json.loads(done.stdout.strip().splitlines()[-1])
+            walls["alone"].append(wall)
+            cpus["alone"].append(cpu)
+            print(f"| OR-Tools alone (process){mark} | {wall:.2f} | {cpu:.2f} | SimpleMinCostFlow: "
+                  f"{alone['ortools_seconds']:.2f} s | {alone['cost']:,.2f} | |")
+            for solver in solvers:
+                output = Path(folder) / "solved.xlsx"
+                output.unlink(missing_ok=True)
+                s_wall, s_cpu, run = run_process([sys.executable, "-m", "lanesolve", "solve", str(book), "--output",
+                                                  str(output), "--json", "--solver", solver, "--time-limit",
+                                                  str(args.time_limit)])
+                try:
+                    doc = json.loads(run.stdout)
+                except json.JSONDecodeError:
+                    print(f"| lanesolve {solver}{mark} | {s_wall:.2f} | {s_cpu:.2f} | failed: "
+                          f"{run.stderr.strip()[-200:]} | | |")
+                    continue
+                walls[solver].append(s_wall)
+                cpus[solver].append(s_cpu)
+                stages = ", ".join(f"{k} {v:.2f}" for k, v in doc.get("timings", {}).items())
+                same = "" if alone["cost"] is None else (
+                    " (same)" if abs(doc["total_cost"] - alone["cost"]) <= 1e-6 * max(1.0, abs(alone["cost"])) else
+                    " (DIFFERENT)")
+                print(f"| lanesolve {solver}{mark} (ratio {s_wall / wall:.2f}) | {s_wall:.2f} | {s_cpu:.2f} | "
+                      f"{doc['solver']} | {doc['total_cost']:,.2f}{same} | {stages} |")
+    if args.repeat > 1:
+        print()
+        print("| run | median wall s | median CPU s | ratio of medians, wall (CPU) | ratio per pair, wall: min / median / "
+              "max |")
+        print("|---|---|---|---|---|")
+        base_wall, base_cpu = statistics.median(walls["alone"]), statistics.median(cpus["alone"])
+        print(f"| OR-Tools alone (process) | {base_wall:.2f} | {base_cpu:.2f} | | |")
+        for solver in solvers:
+            if len(walls[solver]) != len(walls["alone"]):
+                print(f"| lanesolve {solver} | some runs failed | | | |")
                 continue
-            stages = ", ".join(f"{k} {v:.2f}" for k, v in doc.get("timings", {}).items())
-            same = "" if alone["cost"] is None else (
-                " (same)" if abs(doc["total_cost"] - alone["cost"]) <= 1e-6 * max(1.0, abs(alone["cost"])) else
-                " (DIFFERENT)")
-            print(f"| lanesolve {solver} (ratio {s_wall / wall:.2f}) | {s_wall:.2f} | {s_cpu:.2f} | {doc['solver']} "
-                  f"| {doc['total_cost']:,.2f}{same} | {stages} |")
+            pairs = sorted(a / b for a, b in zip(walls[solver], walls["alone"]))
+            print(f"| lanesolve {solver} | {statistics.median(walls[solver]):.2f} | "
+                  f"{statistics.median(cpus[solver]):.2f} | {statistics.median(walls[solver]) / base_wall:.2f} "
+                  f"({statistics.median(cpus[solver]) / base_cpu:.2f}) | {pairs[0]:.2f} / "
+                  f"{statistics.median(pairs):.2f} / {pairs[-1]:.2f} |")
     return 0
 
 
