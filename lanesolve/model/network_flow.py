@@ -40,10 +40,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from lanesolve.model.network import Network
+
+if TYPE_CHECKING:
+    from lanesolve.model.formulation import LaneEnds
 
 #: Largest power of ten tried when scaling quantities or costs to integers.
 MAX_DECIMALS = 6
@@ -143,14 +147,14 @@ class FlowGraph:
     quantity_scale: int
     cost_scale: int
 
-    def lane_ends(self) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+    def lane_ends(self) -> LaneEnds:
         """Where each lane arc starts and where it ends, as positions in the depot, customer and hub frames (-1
         where the end is of another kind), read back from the node numbers of the module docstring, so that the
         model built after a network solve need not look every lane end up again.
 
         Returns
         -------
-        tuple of dict
+        LaneEnds
             ``(origin, destination)``, each ``{"depot": ..., "customer": ..., "hub": ...}`` with one entry per lane
             arc: the ``lane_ends`` that :func:`lanesolve.model.formulation.build_sparse_model` takes.
         """
