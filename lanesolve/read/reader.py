@@ -21,7 +21,7 @@ never saved as an empty string, which would make such cells look blank; the same
 
 Order of work: calamine parses a sheet without holding Python's interpreter lock, so a worker thread loads each
 sheet as soon as its reach is known to be safe -- for the usual markup, one search showing that no reference goes
-past row 999,999 or column Z (:func:`lanesolve.read.sheet_xml.within_bounded_extent`) -- while the calling thread
+past row 1,039,999 or column Z (:func:`lanesolve.read.sheet_xml.within_bounded_extent`) -- while the calling thread
 scans that sheet's XML for bad cells and goes on to the next sheet. The sheets' results are taken in workbook order,
 so the failure reported first is the one reading them one after another would have met first.
 

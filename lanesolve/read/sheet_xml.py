@@ -52,41 +52,60 @@ def column_number(letters: str) -> int:
     return number
 
 
-# A cell tag other than <c r="...", a row tag other than <row r="digits", or a tag starting <f (a formula, or any
-# other element whose name starts with f, as the literal search b"<f" in data would find): one pass answers the three
-# questions the extent and bad-cell scans used to ask in eight literal searches.
-_IRREGULAR_OR_F = re.compile(rb'<(?:c(?:>|/>| (?!r="))|row(?:>| (?!r="[0-9]+"))|f)')
+# A cell or row tag whose reference is missing or not its first attribute (``<c>``, ``<c/>``, ``<c s="1" r=..``,
+# ``<row>``, a tab or newline after the tag name), or a tag starting <f (a formula, or any other element whose name
+# starts with f, as the literal search b"<f" in data would find).
+_IRREGULAR_OR_F = re.compile(rb'<(?:c(?=[\s/>])(?! r=")|row(?=[\s/>])(?! r="[0-9]+")|f)')
+# The same, and also a cell or row tag whose reference reaches past row 1,039,999 or column Z (one letter, up to six
+# digits or 1000000-1039999): the tags that stop one pass from clearing a part as within BOUNDED_EXTENT.
+_IRREGULAR_FAR_OR_F = re.compile(rb'<(?:c(?=[\s/>])(?! r="[A-Z](?:[0-9]{1,6}|10[0-3][0-9]{4})")'
+                                 rb'|row(?=[\s/>])(?! r="(?:[0-9]{1,6}|10[0-3][0-9]{4})")|f)')
+
+#: The farthest a part can reach when :attr:`Survey.bounded` holds: row 1,039,999 and column Z.
+BOUNDED_EXTENT = (1_039_999, 26)
 
 
 @dataclass(frozen=True)
 class Survey:
-    """What one pass over a worksheet part finds about its markup, shared by :func:`used_extent` and
-    :func:`bad_cells`.
+    """What one pass over a worksheet part finds about its markup, shared by :func:`used_extent`,
+    :func:`within_bounded_extent` and :func:`bad_cells`.
 
     Attributes
     ----------
     regular : bool
-        The part has ``<sheetData``, every cell tag starts ``<c r="`` (no ``<c>``, ``<c/>`` or other attribute
-        first) and every row tag starts ``<row r="`` followed by digits (no ``<row>``): the markup openpyxl, Excel
-        and LibreOffice write, on which literal searches count rows and cells exactly.
+        The part has ``<sheetData``, every cell tag starts ``<c r="`` (no ``<c>``, ``<c/>``, other attribute or
+        other white space first) and every row tag starts ``<row r="`` followed by digits: the markup openpyxl,
+        Excel and LibreOffice write, on which literal searches count rows and cells exactly.
     formula_tag : bool
         ``b"<f" in data``.
+    bounded : bool
+        The part is regular and every cell reference is one letter and a row up to :data:`BOUNDED_EXTENT`'s, and
+        every row tag's number is within it too: the part reaches no farther than :data:`BOUNDED_EXTENT`.
     """
 
     regular: bool
     formula_tag: bool
+    bounded: bool = False
 
     @classmethod
     def of(cls, data: bytes) -> Survey:
-        """Survey ``data`` in one regular-expression pass (stopping at the first irregular tag)."""
+        """Survey ``data`` in one regular-expression pass (stopping at the first irregular tag).
+
+        The pass looks for irregular and far tags at once; after the first far one it goes on looking for irregular
+        tags only.
+        """
         if b"<sheetData" not in data:
             return cls(False, b"<f" in data)
-        formula = False
-        for match in _IRREGULAR_OR_F.finditer(data):
-            if data[match.start() + 1] != ord("f"):
-                return cls(False, formula or data.find(b"<f", match.start()) >= 0)
-            formula = True
-        return cls(True, formula)
+        formula, bounded, pattern, at = False, True, _IRREGULAR_FAR_OR_F, 0
+        while (match := pattern.search(data, at)) is not None:
+            at = match.start() + 1
+            if data[at] == ord("f"):
+                formula = True
+            elif pattern is _IRREGULAR_FAR_OR_F and _IRREGULAR_OR_F.match(data, at - 1) is None:
+                bounded, pattern = False, _IRREGULAR_OR_F  # a regular tag reaching far
+            else:
+                return cls(False, formula or data.find(b"<f", at) >= 0)
+        return cls(True, formula, bounded)
 
 
 def bad_cells(data: bytes, where: str, survey: Survey | None = None) -> dict[tuple[int, int], str]:
@@ -316,11 +335,11 @@ def used_extent(data: bytes, survey: Survey | None = None) -> tuple[int, int]:
     ...             b'</sheetData></worksheet>')
     (9, 28)
     """
-    if (survey or Survey.of(data)).regular:
+    plain = (survey or Survey.of(data)).regular
+    if plain:
         extent = _regular_extent(data)
         if extent is not None:
             return extent
-    plain = b"<sheetData" in data and data.count(b'<c r="') == data.count(b"<c ") + data.count(b"<c>")
     if plain:
         tags = data.count(b"<row ") + data.count(b"<row>")
         numbers = _ROW_NUMBER.findall(data)
@@ -341,19 +360,12 @@ def used_extent(data: bytes, survey: Survey | None = None) -> tuple[int, int]:
     return rows, columns
 
 
-_FAR_OR_WIDE = re.compile(rb' r="(?:([A-Z]{2})|[A-Z]*[0-9]{7})')
-
-
-#: The farthest a part can reach when :func:`within_bounded_extent` holds: row 999,999 and column Z.
-BOUNDED_EXTENT = (999_999, 26)
-
-
 def within_bounded_extent(data: bytes, survey: Survey) -> bool:
-    """True when the part reaches no farther than :data:`BOUNDED_EXTENT`, found by one search.
+    """True when the part reaches no farther than :data:`BOUNDED_EXTENT`, as ``survey`` (of ``data``) found.
 
-    In regular markup (:attr:`Survey.regular`) every row and cell tag carries its reference, so a part with no
-    reference of two or more letters or of seven or more digits (:data:`_FAR_OR_WIDE`) ends by row 999,999 and
-    column Z -- whatever the exact extent, which :func:`used_extent` lists at several times the cost.
+    In regular markup (:attr:`Survey.regular`) every row and cell tag carries its reference, so a part whose every
+    reference is one letter and a row up to 1,039,999 ends there -- whatever the exact extent, which
+    :func:`used_extent` lists at several times the cost.
 
     Examples
     --------
@@ -364,7 +376,10 @@ def within_bounded_extent(data: bytes, survey: Survey) -> bool:
     >>> within_bounded_extent(far, Survey.of(far))
     False
     """
-    return survey.regular and _FAR_OR_WIDE.search(data) is None
+    return survey.regular and survey.bounded
+
+
+_FAR_OR_WIDE = re.compile(rb' r="(?:([A-Z]{2})|[A-Z]*[0-9]{7})')
 
 
 def _regular_extent(data: bytes) -> tuple[int, int] | None:
