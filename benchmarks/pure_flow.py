@@ -14,6 +14,13 @@ Printed, from one run, each as a fresh process:
   and inside it the seconds of ``SimpleMinCostFlow`` itself (adding the arcs and solving);
 - the ratio lanesolve / OR-Tools-alone process, and whether both found the same cost.
 
+Bytecode, as in small_runs.py: an installed lanesolve has its modules compiled (pip writes the ``.pyc`` files at
+install), but a checkout run where ``PYTHONDONTWRITEBYTECODE`` is set (as on the shared build machine) compiles its
+modules from source in every process (about 0.15 CPU-s for a solve). By default both processes get a bytecode cache of
+their own (``PYTHONPYCACHEPREFIX`` in a temporary folder, ``PYTHONDONTWRITEBYTECODE`` unset) and the HTML template a
+cache folder of its own (``LANESOLVE_TEMPLATE_CACHE``), and one uncounted warm-up run of each fills them, so the
+figures are those of an installed lanesolve; ``--no-bytecode-cache`` runs both in the environment as it is.
+
 Usage::
 
     python benchmarks/pure_flow.py                         # 131k lanes, solver auto
@@ -76,11 +83,11 @@ def ortools_alone(network_pickle: str) -> dict:
     return {"cost": None if answer is None else answer.objective, "ortools_seconds": spent["seconds"]}
 
 
-def run_process(command: list[str]) -> tuple[float, float, subprocess.CompletedProcess]:
+def run_process(command: list[str], env: dict | None = None) -> tuple[float, float, subprocess.CompletedProcess]:
     """Wall and CPU seconds (children's user + system) of one command."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     tick = time.perf_counter()
-    done = subprocess.run(command, capture_output=True, text=True)
+    done = subprocess.run(command, capture_output=True, text=True, env=env)
     wall = time.perf_counter() - tick
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     return wall, (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime), done
@@ -97,6 +104,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--repeat", type=int, default=1, metavar="N",
                         help="run OR-Tools alone and lanesolve N times, alternating, and print the medians and the "
                              "ratio of the medians after the runs (a busy machine moves single runs by a third)")
+    parser.add_argument("--no-bytecode-cache", action="store_true",
+                        help="run the processes in the environment as it is (module docstring)")
     parser.add_argument("--alone", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.alone:
@@ -117,9 +126,20 @@ def main(argv: list[str] | None = None) -> int:
     walls: dict[str, list[float]] = {"alone": [], **{solver: [] for solver in solvers}}
     cpus: dict[str, list[float]] = {key: [] for key in walls}
     with tempfile.TemporaryDirectory() as folder:
+        env = None
+        if not args.no_bytecode_cache:
+            env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+            env["PYTHONPYCACHEPREFIX"] = str(Path(folder) / "bytecode")
+            env["LANESOLVE_TEMPLATE_CACHE"] = str(Path(folder) / "templates")
+            Path(env["LANESOLVE_TEMPLATE_CACHE"]).mkdir()
+            warm = Path(folder) / "warm-up.xlsx"
+            run_process([sys.executable, __file__, "--alone", str(pickled)], env)
+            for solver in solvers:  # uncounted: fills the caches, as an install and a first run would
+                run_process([sys.executable, "-m", "lanesolve", "solve", str(book), "--output", str(warm), "--json",
+                             "--force", "--solver", solver, "--time-limit", str(args.time_limit)], env)
         for repeat in range(1, args.repeat + 1):
             mark = f" #{repeat}" if args.repeat > 1 else ""
-            wall, cpu, done = run_process([sys.executable, __file__, "--alone", str(pickled)])
+            wall, cpu, done = run_process([sys.executable, __file__, "--alone", str(pickled)], env)
             alone = json.loads(done.stdout.strip().splitlines()[-1])
             walls["alone"].append(wall)
             cpus["alone"].append(cpu)
@@ -130,7 +150,7 @@ def main(argv: list[str] | None = None) -> int:
                 output.unlink(missing_ok=True)
                 s_wall, s_cpu, run = run_process([sys.executable, "-m", "lanesolve", "solve", str(book), "--output",
                                                   str(output), "--json", "--solver", solver, "--time-limit",
-                                                  str(args.time_limit)])
+                                                  str(args.time_limit)], env)
                 try:
                     doc = json.loads(run.stdout)
                 except json.JSONDecodeError:
