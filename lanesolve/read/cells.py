@@ -55,7 +55,9 @@ def type_masks(values: pd.Series) -> dict[str, pd.Series]:
             stripped[is_str] = np.fromiter(texts, dtype=object, count=strings)
             if "" in texts:
                 empty_text[is_str] = np.fromiter(map(len, texts), dtype=np.int64, count=strings) == 0
-        blank = (pd.isna(cells) & ~numeric) | empty_text
+        blank = empty_text
+        if not numeric.all():  # only the cells that are not numbers are asked whether they are missing
+            blank = blank | (pd.isna(cells) & ~numeric)
     index = values.index
 
     def series(mask: np.ndarray) -> pd.Series:
@@ -123,12 +125,15 @@ class ColumnParser:
         return values, invalid
 
     def _id(self, raw, masks, invalid):
-        values = pd.Series("", index=raw.index, dtype=object)
-        values[masks["str"]] = nfc(masks["stripped"][masks["str"]])
-        if masks["number"].any():
-            values[masks["number"]] = number_text(raw[masks["number"]])
-        lengths = np.fromiter(map(len, values.to_numpy(dtype=object)), dtype=np.int64, count=len(values))
-        too_long = masks["str"].to_numpy() & (lengths > contract.MAX_ID_LENGTH)
+        # Filled by position (each part is taken in row order from its mask), not by pandas' index alignment.
+        ids = np.full(len(raw), "", dtype=object)
+        is_str, is_number = masks["str"].to_numpy(), masks["number"].to_numpy()
+        ids[is_str] = nfc(masks["stripped"][masks["str"]]).to_numpy(dtype=object)
+        if is_number.any():
+            ids[is_number] = number_text(raw[masks["number"]]).to_numpy(dtype=object)
+        values = pd.Series(ids, index=raw.index, dtype=object)
+        lengths = np.fromiter(map(len, ids), dtype=np.int64, count=len(ids))
+        too_long = is_str & (lengths > contract.MAX_ID_LENGTH)
         self.report(too_long, raw, lambda v: f"the id is {len(v.strip()):,} characters long; a spreadsheet cell "
                     f"holds at most {contract.MAX_ID_LENGTH:,}", "use a short id", value=lambda pos: None)
         invalid |= too_long
@@ -145,8 +150,10 @@ class ColumnParser:
     def _number(self, raw, masks, invalid):
         col = self.col
         unit = f" in {col.unit}" if col.unit else ""
-        numbers = pd.Series(np.nan, index=raw.index, dtype=float)
-        numbers[masks["number"]] = raw[masks["number"]].astype(float)
+        # Filled by position (each part is taken in row order from its mask), not by pandas' index alignment.
+        numbers = np.full(len(raw), np.nan)
+        is_number = masks["number"].to_numpy()
+        numbers[is_number] = raw.to_numpy(dtype=object)[is_number].astype(float)
 
         # Text cells: plain numeric text, NaN/inf spelled out, text whose separators are ambiguous, or not a number.
         text_cells = (masks["str"] & ~masks["blank"]).to_numpy()
@@ -171,7 +178,7 @@ class ColumnParser:
         self.report(not_number & ~comma, raw, lambda v: f"{show(v)} is not a number",
                     f"enter a number{unit}, without units or other text")
         not_number |= ambiguous
-        array = numbers.to_numpy()
+        array = numbers
         finite = np.isfinite(array)
         self.report(plain & finite, raw, lambda v: f"{show(v)} is a number stored as text; read as "
                     f"{show(float(v.strip()))}", "format the cell as a number to silence this warning",
@@ -228,17 +235,21 @@ class ColumnParser:
 
     def _flag(self, raw, masks, invalid):
         col = self.col
-        words = masks["stripped"].str.lower()
-        numbers_as_words = number_text(raw[masks["number"]]) if masks["number"].any() else None
-        if numbers_as_words is not None:
-            words[masks["number"]] = numbers_as_words
+        yes, no = _yes_no_words(masks["stripped"])
+        is_number, is_bool = masks["number"].to_numpy(), masks["bool"].to_numpy()
+        if is_number.any():
+            numbers_as_words = number_text(raw[masks["number"]])
+            yes[is_number], no[is_number] = numbers_as_words.isin(contract.YES), numbers_as_words.isin(contract.NO)
+        if is_bool.any():  # TRUE/FALSE cells: only they are compared with True and False
+            truth = raw.to_numpy(dtype=object)[is_bool]
+            yes[is_bool] |= truth == True  # noqa: E712 (a numpy bool is not the object True)
+            no[is_bool] |= truth == False  # noqa: E712
         if col.default is None:
             # Flags whose blank takes a Settings default (single_source): blank stays None here.
             values = pd.Series(None, index=raw.index, dtype=object)
         else:
             values = pd.Series(bool(col.default), index=raw.index, dtype=bool)
-        yes = words.isin(contract.YES) | (masks["bool"] & raw.eq(True))
-        no = words.isin(contract.NO) | (masks["bool"] & raw.eq(False))
+        yes, no = pd.Series(yes, index=raw.index), pd.Series(no, index=raw.index)
         values[yes & ~masks["blank"]] = True
         values[no & ~masks["blank"]] = False
         wrong = (~(yes | no | masks["blank"]) & ~pd.Series(invalid, index=raw.index)).to_numpy()
@@ -267,14 +278,24 @@ class ColumnParser:
         return values
 
     def _text(self, raw, masks):
-        values = pd.Series("" if self.col.default is None else str(self.col.default), index=raw.index, dtype=object)
-        values[masks["str"] & ~masks["blank"]] = nfc(masks["stripped"][masks["str"] & ~masks["blank"]])
+        # Filled by position, as in _id.
+        texts = np.full(len(raw), "" if self.col.default is None else str(self.col.default), dtype=object)
+        written = masks["str"] & ~masks["blank"]
+        texts[written.to_numpy()] = nfc(masks["stripped"][written]).to_numpy(dtype=object)
         if masks["number"].any():
-            values[masks["number"]] = number_text(raw[masks["number"]])
+            texts[masks["number"].to_numpy()] = number_text(raw[masks["number"]]).to_numpy(dtype=object)
         other = masks["bool"] | masks["date"]
         if other.any():
-            values[other] = raw[other].map(lambda v: show(v).strip("'"))
-        return values
+            texts[other.to_numpy()] = raw[other].map(lambda v: show(v).strip("'")).to_numpy(dtype=object)
+        return pd.Series(texts, index=raw.index, dtype=object)
+
+
+def _yes_no_words(stripped: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Which trimmed texts are a yes word and which a no word, in any case. A flag column holds a handful of
+    distinct words over many rows, so each distinct text is lowered and looked up once."""
+    codes, distinct = pd.factorize(stripped.to_numpy(dtype=object))
+    words = pd.Series(distinct, dtype=object).str.lower()
+    return words.isin(contract.YES).to_numpy()[codes], words.isin(contract.NO).to_numpy()[codes]
 
 
 def default_values(col: Column, n: int) -> pd.Series:
