@@ -111,29 +111,28 @@ def load(path: Path, part: str, data: bytes, sheet_name: str, count: int,
     except OSError:
         return None
     try:
-        books = _write_piece_books(path, part, data, at, folder, set(worksheet_parts) | {part})
-        if books is None:
-            return None
-        with ThreadPoolExecutor(len(books) - 1, "lanesolve-piece") as pool:
-            later = [pool.submit(_load_piece, book, sheet_name) for book in books[1:]]
-            pieces = [_load_piece(books[0], sheet_name)] + [future.result() for future in later]
-        return _joined(pieces)
+        with ThreadPoolExecutor(len(at) - 1, "lanesolve-piece") as pool:
+            loads = []
+            for book in _piece_books(path, part, data, at, folder, set(worksheet_parts) | {part}):
+                if book is None:
+                    return None
+                loads.append(pool.submit(_load_piece, book, sheet_name))  # parsing while the next piece is written
+            return _joined([future.result() for future in loads])
     finally:
         shutil.rmtree(folder, ignore_errors=True)
 
 
-def _write_piece_books(path: Path, part: str, data: bytes, at: list[int], folder: Path,
-                       left_out: set[str]) -> list[Path] | None:
-    """One stored (uncompressed) workbook per piece: every member of the package but ``left_out``, and the sheet's
-    part with ``data``'s rows from ``at[k]`` to ``at[k + 1]``; None when the package or a piece cannot be copied
-    (a damaged package, a full disk: the whole load then reports what it meets in its own words)."""
+def _piece_books(path: Path, part: str, data: bytes, at: list[int], folder: Path, left_out: set[str]):
+    """Write one stored (uncompressed) workbook per piece and yield its path as soon as it is written: every member
+    of the package but ``left_out``, and the sheet's part with ``data``'s rows from ``at[k]`` to ``at[k + 1]``.
+    Yields None (and stops) when the package or a piece cannot be copied -- a damaged package, a full disk: the
+    whole load then reports what it meets in its own words."""
     view = memoryview(data)
     head, tail = view[:at[0]], view[at[-1]:]
     try:
         with zipfile.ZipFile(path) as archive:
             others = [(info.filename, archive.read(info)) for info in archive.infolist()
                       if info.filename not in left_out and not info.is_dir()]
-        books = []
         for k in range(len(at) - 1):
             book = folder / f"piece-{k}.xlsx"
             with zipfile.ZipFile(book, "w", zipfile.ZIP_STORED) as piece:
@@ -143,10 +142,9 @@ def _write_piece_books(path: Path, part: str, data: bytes, at: list[int], folder
                     member.write(head)
                     member.write(view[at[k]:at[k + 1]])
                     member.write(tail)
-            books.append(book)
-        return books
+            yield book
     except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, OSError, KeyError):
-        return None
+        yield None
 
 
 def _load_piece(book: Path, sheet_name: str):
