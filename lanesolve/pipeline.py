@@ -16,6 +16,7 @@ report             :mod:`lanesolve.report.summary`     ``<stem>-summary.html``
 
 from __future__ import annotations
 
+import difflib
 import importlib
 import os
 import threading
@@ -23,38 +24,40 @@ import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-import difflib
-
-import pandas as pd
-
-from lanesolve.write import atomic
-from lanesolve.model import checks
-from lanesolve.model import plan_changes
-from lanesolve.write import carrier_tables
-from lanesolve.write import earlier_plan
-from lanesolve.model import carrier_checks
 from lanesolve import contract
+from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
+from lanesolve.progress import ProgressCallback, no_progress
 from lanesolve.read import guard
-from lanesolve.write import locking
 from lanesolve.read import reader
 from lanesolve.read import source
+from lanesolve.runinfo import RunInfo
+from lanesolve.write import atomic
+from lanesolve.write import locking
 from lanesolve.write import paths
-from lanesolve.report import summary
-from lanesolve.report import carrier_report
-from lanesolve.model import scenarios
-from lanesolve.model.comparison import compare
-from lanesolve.model import analyse
-from lanesolve.model import tradeoff
-from lanesolve.read import validate
-from lanesolve.write import goods_tables
-from lanesolve.write import writeback
-from lanesolve.errors import NoPlanError, Problem, SolverError, WorkbookError, WriteError
-from lanesolve.model.network import Network
-from lanesolve.progress import ProgressCallback, no_progress
-from lanesolve.model.result import Result, SolveStatus
-from lanesolve.runinfo import RunInfo  # noqa: F401 (RunInfo is part of this module's API)
 from lanesolve.write.paths import WritePlan, summary_path_for  # noqa: F401 (part of this module's API)
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from lanesolve.model import plan_changes
+    from lanesolve.model.network import Network
+    from lanesolve.model.result import Result
+
+# The stages after reading (validate, model and solve, write back, report) and pandas under them are imported where
+# they are first used, after the workbook is read: a large workbook has them imported by a second thread while it
+# is read (see AHEAD), and a file that is no workbook is answered without them. They stay names of this module
+# for callers who used them from here (``pipeline.Network``...), loaded on first use.
+_LAZY = {"Network": "lanesolve.model.network", "Result": "lanesolve.model.result",
+         "SolveStatus": "lanesolve.model.result", "analyse": "lanesolve.model.analyse"}
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        module = importlib.import_module(_LAZY[name])
+        return module if module.__name__.endswith("." + name) else getattr(module, name)
+    raise AttributeError(f"module 'lanesolve.pipeline' has no attribute {name!r}")
 
 
 @dataclass
@@ -101,6 +104,8 @@ class RunOutcome:
 def load(path: str | Path) -> tuple[Network, list[Problem]]:
     """Read and validate a workbook, its Scenarios sheet included; raise :class:`~lanesolve.errors.WorkbookError`
     listing every problem."""
+    from lanesolve.read import validate
+
     raw = reader.read_workbook(path)
     network, warnings = validate.validate(raw)
     scenario_networks(raw, network)
@@ -117,6 +122,8 @@ def scenario_networks(raw: reader.RawWorkbook, network: Network,
         The Scenarios sheet has problems, a scenario makes a value invalid, or ``only`` names an unknown scenario;
         every problem is listed, and nothing has been solved.
     """
+    from lanesolve.model import scenarios
+
     sheet = next((s for name, s in raw.sheets.items()
                   if contract.normalize(name) == contract.normalize(scenarios.SHEET)), None)
     if sheet is None:
@@ -149,6 +156,8 @@ def _solve_one(network: Network, time_limit: float | None, verbose: bool, progre
     ``started`` (a :func:`time.monotonic` time) is when the time limit began to run: the solver gets what is left
     of it (the run's limit covers everything after reading).
     """
+    from lanesolve.model import analyse, carrier_checks, checks
+
     with network.lanes_settled():  # nothing below edits the network: its active lanes are filtered once
         reasons = checks.presolve_checks(network) + carrier_checks.presolve_checks(network)
         if reasons:
@@ -251,9 +260,12 @@ def run(
         progress(None, None)
 
 
-#: Modules every solve of a large workbook goes on to need (the model's matrix, the figures' shortest paths, the
-#: network algorithm, the summary's templates), imported by :func:`_import_ahead` while the workbook is read.
-AHEAD = ("scipy.sparse", "scipy.sparse.csgraph", "ortools.graph.python.min_cost_flow", "jinja2")
+#: Modules every solve of a large workbook goes on to need, in the order it needs them (the stages after reading
+#: and pandas under them, the model's matrix, the figures' shortest paths, the network algorithm, the write-back,
+#: the summary's templates), imported by :func:`_import_ahead` while the workbook is read.
+AHEAD = ("lanesolve.read.validate", "lanesolve.write.earlier_plan", "lanesolve.model.analyse", "scipy.sparse",
+         "scipy.sparse.csgraph", "ortools.graph.python.min_cost_flow", "lanesolve.write.writeback",
+         "lanesolve.report.summary", "jinja2")
 #: Workbooks from this size (bytes on disk) up have their later modules imported while they are read.
 AHEAD_FROM_BYTES = 2_000_000
 
@@ -262,8 +274,9 @@ def _import_ahead(path: Path) -> None:
     """Import :data:`AHEAD` in a thread of its own while a large workbook is read.
 
     Calamine parses a sheet without holding Python's interpreter lock, so on a machine with a second core the
-    imports (about 0.3 s) cost no wall time there, where the stages that use them would wait for them. A small
-    workbook reads too quickly to hide them, and one with errors is answered without them, so it is left alone.
+    imports (about 0.6 s, pandas and SciPy most of it) cost no wall time there, where the stages that use them
+    would wait for them. A small workbook reads too quickly to hide them, and one with errors is answered without
+    SciPy, so it is left alone: its stages import what they use when they start.
     A module that fails to import here fails again, with its own message, where a stage imports it.
     """
     try:
@@ -311,6 +324,13 @@ def _run_stages(path: Path, plan: WritePlan | None, time_limit: float | None, ve
     _import_ahead(path)
     raw, mark = _read(path)
     read_done = time.monotonic()  # the time limit covers everything after reading
+    from lanesolve.model import plan_changes, tradeoff
+    from lanesolve.model.comparison import compare
+    from lanesolve.model.result import SolveStatus
+    from lanesolve.read import validate
+    from lanesolve.report import carrier_report, summary
+    from lanesolve.write import carrier_tables, earlier_plan, goods_tables, writeback
+
     earlier = earlier_plan.read_earlier_plan(path)  # the plan the workbook's earlier result sheets hold
     if plan is not None:
         # By content after reading, so a file that is no workbook at all is called that (an input error).

@@ -136,3 +136,16 @@ def test_a_module_that_fails_to_import_ahead_leaves_the_run_alone(tmp_path):
             f"outcome = pipeline.run({str(good)!r}, write=False)\n"
             "assert outcome.result.status.value == 'optimal', outcome.result.status")
     assert modules_after(code, ("lanesolve.pipeline",)) == {"lanesolve.pipeline"}
+
+
+def test_a_file_that_is_no_workbook_is_answered_without_pandas(tmp_path):
+    # The stages after reading load where they are first used: a run stopped by the reader (here a CSV file saved
+    # with an .xlsx name) never pays for pandas or NumPy.
+    fake = tmp_path / "lanes.xlsx"
+    fake.write_text("origin,destination\nD1,C1\n")
+    code = ("from lanesolve import pipeline\nfrom lanesolve.errors import WorkbookError\n"
+            f"try:\n    pipeline.run({str(fake)!r}, write=False)\nexcept WorkbookError:\n    pass\n"
+            "else:\n    raise SystemExit('the text file was accepted')")
+    assert modules_after(code, ("pandas", "numpy")) == set()
+    # Guards the probe: the names the pipeline module still offers load them on first use.
+    assert modules_after("from lanesolve import pipeline\npipeline.Network", ("pandas", "numpy")) == {"pandas", "numpy"}

@@ -16,6 +16,7 @@ import _workbooks as wbk
 from conftest import valid_sheets, write_workbook
 from lanesolve import pipeline
 from lanesolve.errors import WriteError
+from lanesolve.model import analyse
 from lanesolve.write import writeback
 
 
@@ -56,7 +57,7 @@ def test_user_sheet_named_like_a_result_sheet_stops_the_run_before_solving(tmp_p
     def must_not_solve(*args, **kwargs):
         raise AssertionError("the solver ran although the result sheets could not be written")
 
-    monkeypatch.setattr(pipeline.analyse, "solve_and_analyse", must_not_solve)
+    monkeypatch.setattr(analyse, "solve_and_analyse", must_not_solve)
     with pytest.raises(WriteError) as caught:
         pipeline.run(path)
     message = str(caught.value)

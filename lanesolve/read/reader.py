@@ -43,6 +43,7 @@ import python_calamine
 
 from lanesolve import contract
 from lanesolve.read import guard
+from lanesolve.read import pieces
 from lanesolve.read import sheet_xml
 from lanesolve.read import source
 from lanesolve.errors import Problem, WorkbookError
@@ -196,14 +197,16 @@ def read_workbook(path: str | Path) -> RawWorkbook:
                     loading.append((meta, bad, percent, loader.submit(_load_rows, path, book, name)))
                     continue
                 part = package.sheet_parts[name]
-                data = sheet_xml.read_part(path, archive, part)
-                survey = sheet_xml.Survey.of(data)
+                data, survey = sheet_xml.read_and_survey(path, archive, part)
                 if not (_BOUNDED_IS_SAFE and sheet_xml.within_bounded_extent(data, survey)):
                     problem = _size_problem(name, *sheet_xml.used_extent(data, survey))
                     if problem is not None:
                         loading.append((meta, bad, percent, _refused(problem)))
                         continue
-                loading.append((meta, bad, percent, loader.submit(_load_rows, path, book, name)))
+                count = pieces.count_for(len(data)) if survey.bounded else 1
+                loading.append((meta, bad, percent, loader.submit(_load_rows, path, book, name) if count == 1 else
+                                loader.submit(_load_rows_in_pieces, path, book, name, part, data, count,
+                                              set(package.sheet_parts.values()))))
                 bad.update(sheet_xml.bad_cells(data, f"{path}: sheet part {part}", survey))
                 if contract.normalize(name) == contract.normalize(contract.SCENARIOS_SHEET) and \
                         package.styles_part in package.names:
@@ -252,6 +255,14 @@ def _load_rows(path: Path, book, name: str) -> tuple[list[list] | None, Problem 
         _raise_if_panic(exc, f"{path}: sheet '{name}' could not be read: the workbook reader failed inside "
                              f"({exc}); {_OPEN_AND_SAVE_HINT}")
         raise
+
+
+def _load_rows_in_pieces(path: Path, book, name: str, part: str, data: bytes, count: int,
+                         worksheet_parts: set[str]) -> tuple[list[list] | None, Problem | None]:
+    """:func:`_load_rows` for a large sheet cleared by the bounded search: in ``count`` pieces on as many threads
+    (:mod:`lanesolve.read.pieces`), or whole when the pieces do not stand for the sheet."""
+    rows = pieces.load(path, part, data, name, count, worksheet_parts)
+    return (rows, None) if rows is not None else _load_rows(path, book, name)
 
 
 def _size_problem(name: str, rows: int, columns: int) -> Problem | None:
