@@ -197,7 +197,8 @@ def read_workbook(path: str | Path) -> RawWorkbook:
                     loading.append((meta, bad, percent, loader.submit(_load_rows, path, book, name)))
                     continue
                 part = package.sheet_parts[name]
-                data, survey = sheet_xml.read_and_survey(path, archive, part)
+                data = sheet_xml.read_part(path, archive, part)
+                survey = sheet_xml.Survey.of(data)
                 if not (_BOUNDED_IS_SAFE and sheet_xml.within_bounded_extent(data, survey)):
                     problem = _size_problem(name, *sheet_xml.used_extent(data, survey))
                     if problem is not None:

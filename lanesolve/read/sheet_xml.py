@@ -14,9 +14,7 @@ for unusual markup.
 from __future__ import annotations
 
 import io
-import queue
 import re
-import threading
 import zipfile
 import zlib
 from dataclasses import dataclass
@@ -109,94 +107,6 @@ class Survey:
             else:
                 return cls(False, formula or data.find(b"<f", at) >= 0)
         return cls(True, formula, bounded)
-
-
-#: Parts of this many bytes or more are read by :func:`read_and_survey` in blocks, each surveyed while the next is
-#: decompressed (a million-lane Lanes part is about 300 MB: 0.6 s to decompress, 0.6 s to survey).
-STREAM_FROM_BYTES = 16_000_000
-_BLOCK = 1 << 22
-# A match starting this near a block's end is looked at again with the next block: every pattern above decides
-# within 20 bytes of its start (a row number of 40 digits or more is left to the full measure: see _Surveyor).
-_OVERLAP = 64
-
-
-def read_and_survey(path, archive: zipfile.ZipFile, part: str) -> tuple[bytes, Survey]:
-    """The bytes of one zip member and their :class:`Survey`, or a WorkbookError naming the part.
-
-    A large part is decompressed in blocks on a second thread (zlib leaves the interpreter lock while it
-    inflates) while this one surveys the blocks already there, so the survey costs little beyond the
-    decompression; the survey is the one :meth:`Survey.of` gives for the whole part.
-    """
-    try:
-        size = archive.getinfo(part).file_size
-    except KeyError:
-        size = 0  # read_part names the missing part
-    if size < STREAM_FROM_BYTES:
-        data = read_part(path, archive, part)
-        return data, Survey.of(data)
-    blocks: queue.SimpleQueue = queue.SimpleQueue()
-
-    def inflate() -> None:
-        try:
-            with archive.open(part) as member:
-                while block := member.read(_BLOCK):
-                    blocks.put(block)
-            blocks.put(None)
-        except BaseException as exc:  # noqa: BLE001 -- handed to the reading thread, which raises it
-            blocks.put(exc)
-
-    reader = threading.Thread(target=inflate, name="lanesolve-inflate", daemon=True)
-    reader.start()
-    surveyor, kept = _Surveyor(), []
-    while (block := blocks.get()) is not None:
-        if isinstance(block, BaseException):
-            reader.join()
-            if isinstance(block, (zipfile.BadZipFile, EOFError, OSError, zlib.error)):
-                raise WorkbookError(f"{path} is damaged: part {part} cannot be read ({block}); "
-                                    f"{_OPEN_AND_SAVE_HINT}") from block
-            raise block
-        kept.append(block)
-        surveyor.feed(block)
-    reader.join()
-    return b"".join(kept), surveyor.finish()
-
-
-class _Surveyor:
-    """:meth:`Survey.of` over a part given block by block.
-
-    Each search runs over the carried end of the previous block and the new block; a match starting within
-    :data:`_OVERLAP` bytes of the end waits for the next block, so every match is judged with the same bytes after
-    it as in the whole part. (A row reference of more than :data:`_OVERLAP` digits cut by a block's end makes the
-    part irregular -- measured in full, never cleared wrongly.)
-    """
-
-    def __init__(self):
-        self.formula, self.bounded, self.irregular, self.sheet_data = False, True, False, False
-        self.pattern = _IRREGULAR_FAR_OR_F
-        self.carry = b""
-
-    def feed(self, block: bytes, last: bool = False) -> None:
-        data = self.carry + block
-        limit = len(data) if last else max(len(data) - _OVERLAP, 0)
-        self.sheet_data = self.sheet_data or b"<sheetData" in data
-        at = 0
-        while not self.irregular and (match := self.pattern.search(data, at)) is not None and match.start() < limit:
-            at = match.start() + 1
-            if data[at] == ord("f"):
-                self.formula = True
-            elif self.pattern is _IRREGULAR_FAR_OR_F and _IRREGULAR_OR_F.match(data, at - 1) is None:
-                self.bounded, self.pattern = False, _IRREGULAR_OR_F
-            else:
-                self.irregular = True
-        if self.irregular and not self.formula:
-            self.formula = b"<f" in data
-        self.carry = data[limit:]
-
-    def finish(self) -> Survey:
-        self.feed(b"", last=True)
-        if not self.sheet_data or self.irregular:
-            return Survey(False, self.formula)
-        return Survey(True, self.formula, self.bounded)
 
 
 def bad_cells(data: bytes, where: str, survey: Survey | None = None) -> dict[tuple[int, int], str]:
@@ -341,10 +251,11 @@ def _scan_bad_cells_quick(data: bytes, regular: bool = False) -> dict[tuple[int,
             formula_text = _unescape(text.decode("utf-8")) if text else None
             shared = _SHARED_INDEX.search(attrs) if b'shared' in attrs else None
             if shared is not None:
+                index = shared.group(1)
                 if formula_text:
-                    shared_text[shared.group(1)] = formula_text
+                    shared_text[index] = formula_text
                 else:
-                    formula_text = shared_text.get(shared.group(1))
+                    formula_text = shared_text.get(index)
         position = (int(ref.group(2)), column_number(ref.group(1).decode()))
         if kind == "e":
             shown = (_unescape(value.group(1).decode("utf-8")).strip() if value is not None and value.group(1)
