@@ -251,11 +251,10 @@ def _scan_bad_cells_quick(data: bytes, regular: bool = False) -> dict[tuple[int,
             formula_text = _unescape(text.decode("utf-8")) if text else None
             shared = _SHARED_INDEX.search(attrs) if b'shared' in attrs else None
             if shared is not None:
-                index = shared.group(1)
                 if formula_text:
-                    shared_text[index] = formula_text
+                    shared_text[shared.group(1)] = formula_text
                 else:
-                    formula_text = shared_text.get(index)
+                    formula_text = shared_text.get(shared.group(1))
         position = (int(ref.group(2)), column_number(ref.group(1).decode()))
         if kind == "e":
             shown = (_unescape(value.group(1).decode("utf-8")).strip() if value is not None and value.group(1)
