@@ -145,3 +145,16 @@ def test_pieces_leave_no_temporary_files(tmp_path, monkeypatch):
 ])
 def test_piece_count(size, available, expected):
     assert pieces.count_for(size, available) == expected
+
+
+def test_a_damaged_part_outside_the_sheet_leaves_the_reading_to_the_whole_load(tmp_path, monkeypatch):
+    # The pieces copy the package's other parts; one whose compressed bytes are broken makes zlib raise while it is
+    # copied. The whole load then meets the damage itself and reports it (here calamine reads the other part only
+    # as far as it needs); the pieces never turn it into a traceback of their own.
+    path = write_workbook(tmp_path / "book.xlsx", valid_sheets())
+    part = sheet_part(path, "Lanes")
+    with zipfile.ZipFile(path) as archive:
+        data = archive.read(part)
+    monkeypatch.setattr(zipfile.ZipFile, "read", lambda self, name, pwd=None: (_ for _ in ()).throw(
+        __import__("zlib").error("Error -3 while decompressing data")))
+    assert pieces.load(path, part, data, "Lanes", 2) is None

@@ -20,6 +20,7 @@ import os
 import shutil
 import tempfile
 import zipfile
+import zlib
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
@@ -143,7 +144,7 @@ def _piece_books(path: Path, part: str, data: bytes, at: list[int], folder: Path
                     member.write(view[at[k]:at[k + 1]])
                     member.write(tail)
             yield book
-    except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, OSError, KeyError):
+    except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, OSError, KeyError, zlib.error):
         yield None
 
 
