@@ -267,7 +267,15 @@ def test_sigkill_during_write_back_leaves_the_old_or_the_complete_new_workbook(l
             assert "LS Summary" in openpyxl.load_workbook(path, read_only=True).sheetnames
             outcomes.append("new")
         for leftover in folder.iterdir():
-            # Allowed leftovers: the temporary file SIGKILL left behind, and the lanesolve lock file.
+            # Allowed leftovers: the temporary file SIGKILL left behind, and the lanesolve lock file. Once the new
+            # workbook is in place the run goes on to the HTML summary (a kill late in the window, now that
+            # write-back is quicker, lands there): its page, written atomically, and its temporary file may be left
+            # then -- never beside the old workbook, and the page only whole.
+            if outcomes[-1] == "new" and leftover.name == "plan-summary.html":
+                assert leftover.read_text(encoding="utf-8").rstrip().endswith("</html>")
+                continue
+            if outcomes[-1] == "new" and leftover.name.startswith(".plan-summary.html."):
+                continue
             assert leftover.name == "plan.xlsx" or leftover.name.startswith(".plan.xlsx."), leftover.name
         # A later run still succeeds on the workbook left behind.
         again = _start(path)
